@@ -1,0 +1,1 @@
+"""Bundled demo parts, installed as package data. Every part here is invented."""

@@ -1,0 +1,307 @@
+"""The ``soacheck`` command: a thin layer that reads files, calls the library and prints.
+
+Exit codes: 0 when everything checked is safe, 1 when anything is unsafe, 2 for bad
+input. A :class:`~soacheck.errors.SoacheckError` anywhere becomes one line on stderr and
+exit code 2; that happens in one place, :func:`_user_errors`.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import math
+import os
+from pathlib import Path
+from typing import Annotated, Any
+
+import numpy as np
+import typer
+from rich.console import Console
+from rich.table import Table as RichTable
+
+from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, demo_points
+from soacheck.errors import SoacheckError
+from soacheck.files import read_points
+from soacheck.library import find_part, library_folders, list_parts
+from soacheck.files import read_part
+from soacheck.parts import Part
+from soacheck.plots import plot_soa
+from soacheck.soa import BreakdownDerating, PointCheck, check_points
+from soacheck.units import DC, format_duration, parse_duration
+
+app = typer.Typer(
+    name="soacheck",
+    help="Check linear-mode operating points of power transistors against their derated safe operating area.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+
+SAFETY_NOTE = (
+    "soacheck's answer rests on digitized datasheet curves and the assumptions listed; it does not replace "
+    "the datasheet, a prototype measured with a thermocouple, local codes or licensed practice."
+)
+
+LibraryOpt = Annotated[
+    list[Path] | None,
+    typer.Option("--library", "-L", help="Folder of user part folders (repeatable); searched before the bundled demo parts."),
+]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object instead of a table.")]
+PolicyOpt = Annotated[
+    str,
+    typer.Option(
+        "--breakdown-derating",
+        help="How second breakdown / instability derates: auto (part's table, else like thermal), thermal, none.",
+    ),
+]
+ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
+
+
+def _user_errors(command):
+    """Turn a SoacheckError into one line on stderr and exit code 2, without a traceback."""
+
+    @functools.wraps(command)
+    def wrapper(*args, **kwargs):
+        try:
+            return command(*args, **kwargs)
+        except SoacheckError as err:
+            typer.echo(f"soacheck: error: {err}", err=True)
+            raise typer.Exit(2) from None
+
+    return wrapper
+
+
+def _console() -> Console:
+    return Console(width=int(os.environ.get("COLUMNS", "120")), soft_wrap=False)
+
+
+def _policy(text: str) -> BreakdownDerating:
+    if text not in ("auto", "thermal", "none"):
+        raise SoacheckError(f"--breakdown-derating: '{text}' is not one of auto, thermal, none")
+    return text  # type: ignore[return-value]
+
+
+def _part(ref: str, library: list[Path] | None) -> Part:
+    return find_part(ref, library_folders(library or []))
+
+
+def _jsonable(value: Any) -> Any:
+    """Plain JSON values: NaN becomes null, numpy scalars become Python numbers."""
+    if isinstance(value, dict):
+        return {k: _jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _echo_json(payload: dict[str, Any]) -> None:
+    typer.echo(json.dumps(_jsonable(payload), indent=2, ensure_ascii=False))
+
+
+def _refuse_overwrite(path: Path, force: bool) -> None:
+    if path.exists() and not force:
+        raise SoacheckError(f"{path}: exists; choose another name with -o or add --force to overwrite it")
+
+
+def _check_payload(result: PointCheck) -> dict[str, Any]:
+    frame = result.to_frame()
+    return {
+        "part": result.part_id,
+        "verdict": result.verdict,
+        "points": frame.drop(columns=["curve", "extrapolated"]).assign(
+            curve=frame["curve"], extrapolated=frame["extrapolated"]
+        ).to_dict(orient="records"),
+        "assumptions": list(result.assumptions),
+    }
+
+
+def _print_check(console: Console, result: PointCheck) -> None:
+    table = RichTable(title=f"{result.part_id}: operating points", title_justify="left")
+    for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "curve", "allowed [A]", "margin", "limit", ""):
+        table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
+    frame = result.to_frame()
+    for row in frame.itertuples(index=False):
+        margin = "—" if not math.isfinite(row.margin) else f"{row.margin:+.1%}"
+        allowed = "—" if not math.isfinite(row.allowed_current) else f"{row.allowed_current:.4g}"
+        mark = "[green]inside[/]" if row.inside else "[bold red]OUTSIDE[/]"
+        limit = row.limit + (" (extrapolated)" if row.extrapolated else "")
+        table.add_row(f"{row.voltage:g}", f"{row.current:g}", f"{row.case_temp:g}", row.pulse, row.curve,
+                      allowed, margin, limit, mark)
+    console.print(table)
+    for note in result.assumptions:
+        console.print(f"  assumed: {note}", highlight=False)
+    verdict = "[green]PASS[/]: every point is inside" if result.passed else (
+        f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside"
+    )
+    console.print(verdict)
+
+
+@app.command()
+@_user_errors
+def check(
+    part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
+    voltage: Annotated[float | None, typer.Option("--voltage", "-v", help="Voltage across the device [V].")] = None,
+    current: Annotated[float | None, typer.Option("--current", "-i", help="Current through the device [A].")] = None,
+    points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points: voltage,current[,case_temp,pulse].")] = None,
+    case_temp: Annotated[float, typer.Option("--case-temp", "-t", help="Case temperature [°C] where the points give none.")] = 25.0,
+    pulse: Annotated[str, typer.Option("--pulse", help="'dc' or a single-pulse width such as 1ms, where the points give none.")] = "dc",
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Check operating points against a part's SOA derated at the case temperature."""
+    policy = _policy(breakdown_derating)
+    pulse_s = parse_duration(pulse, where="--pulse")
+    if not math.isfinite(case_temp):
+        raise SoacheckError("--case-temp must be a finite temperature in °C")
+    if points is not None:
+        if voltage is not None or current is not None:
+            raise SoacheckError("give either --points FILE or --voltage and --current, not both")
+        frame = read_points(points).frame
+        v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
+        tc = frame["case_temp"].to_numpy() if "case_temp" in frame else case_temp
+        tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
+    else:
+        if voltage is None or current is None:
+            raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
+        for name, value in (("--voltage", voltage), ("--current", current)):
+            if not (math.isfinite(value) and value > 0):
+                raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
+        v, i, tc, tp = voltage, current, case_temp, pulse_s
+    result = check_points(v, i, _part(part, library), tc_c=tc, pulse_s=tp, policy=policy)
+    if as_json:
+        _echo_json(_check_payload(result))
+    else:
+        _print_check(_console(), result)
+    raise typer.Exit(0 if result.passed else 1)
+
+
+@app.command()
+@_user_errors
+def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
+    """List the parts in the libraries, first match of each id."""
+    folders = library_folders(library or [])
+    loaded = [read_part(entry.folder) for entry in list_parts(folders)]
+    rows = [
+        {
+            "id": p.id,
+            "kind": p.kind,
+            "v_max": p.ratings.v_max_v,
+            "i_max": p.ratings.i_max_a,
+            "p_max": p.ratings.p_max_w,
+            "tj_max": p.ratings.tj_max_c,
+            "rth_jc": p.ratings.rth_jc_k_per_w,
+            "curves": [c.label for c in p.curves],
+            "description": p.description,
+            "folder": str(p.folder),
+        }
+        for p in loaded
+    ]
+    if as_json:
+        _echo_json({"parts": rows})
+        return
+    table = RichTable(title="soacheck parts", title_justify="left")
+    for name in ("id", "kind", "V max", "I max", "P max", "Tj max", "Rth jc", "curves", "description"):
+        table.add_column(name)
+    for r in rows:
+        table.add_row(r["id"], r["kind"], f"{r['v_max']:g} V", f"{r['i_max']:g} A", f"{r['p_max']:g} W",
+                      f"{r['tj_max']:g} °C", f"{r['rth_jc']:g} K/W", " ".join(r["curves"]), r["description"])
+    _console().print(table)
+
+
+def _temperatures(text: str) -> list[float]:
+    try:
+        values = [float(t) for t in text.split(",") if t.strip()]
+    except ValueError:
+        raise SoacheckError(f"--case-temp: '{text}' is not a list of temperatures such as 25,75,125") from None
+    if not all(math.isfinite(t) for t in values):
+        raise SoacheckError("--case-temp: temperatures must be finite numbers in °C")
+    return values
+
+
+@app.command()
+@_user_errors
+def show(
+    part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
+    case_temp: Annotated[str, typer.Option("--case-temp", "-t", help="Case temperatures of the derated curves [°C], comma separated.")] = "25,75,125",
+    pulse: Annotated[str, typer.Option("--pulse", help="Curve to derate: 'dc' or a pulse width.")] = "dc",
+    points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points to check and draw.")] = None,
+    output: Annotated[Path | None, typer.Option("--output", "-o", help="Plot file: .png, .svg or .pdf [default: PART-soa.png].")] = None,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+) -> None:
+    """Plot a part's SOA: every curve by mechanism, derated curves and checked points."""
+    loaded = _part(part, library)
+    policy = _policy(breakdown_derating)
+    pulse_s = parse_duration(pulse, where="--pulse")
+    output = output or Path(f"{loaded.id}-soa.png")
+    if output.suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise SoacheckError(f"--output: '{output}' must end in .png, .svg or .pdf")
+    _refuse_overwrite(output, force)
+    checked = None
+    if points is not None:
+        frame = read_points(points).frame
+        checked = check_points(
+            frame["voltage"].to_numpy(), frame["current"].to_numpy(), loaded,
+            tc_c=frame["case_temp"].to_numpy() if "case_temp" in frame else 25.0,
+            pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s, policy=policy,
+        )
+    ax = plot_soa(loaded, case_temps_c=_temperatures(case_temp), pulse_s=pulse_s, points=checked, policy=policy)
+    ax.figure.savefig(output)
+    typer.echo(f"wrote {output}")
+
+
+@app.command()
+@_user_errors
+def demo(
+    out: Annotated[Path, typer.Option("--out", "-o", help="Folder for the demo's files.")] = Path(DEMO_FOLDER),
+    force: ForceOpt = False,
+) -> None:
+    """Run the bundled demo: a bench that discharges e-bike packs, four candidate devices."""
+    if out.exists() and not (out / DEMO_MARKER).exists() and any(out.iterdir()) and not force:
+        raise SoacheckError(f"{out}: exists and was not written by the demo; choose another --out or add --force")
+    out.mkdir(parents=True, exist_ok=True)
+    (out / DEMO_MARKER).write_text("written by soacheck demo; the demo may rewrite this folder\n")
+    points = demo_points()
+    points_path = out / "planned-points.csv"
+    points.to_csv(points_path, index=False)
+    frame = read_points(points_path).frame
+    console = _console()
+    console.print(
+        "[bold]Demo:[/] a workshop bench discharging 10-cell e-bike packs (42 V full) at 6 A through two "
+        "parallel devices, plus a 10 ms 16 A pulse; the hotter device takes 55 % of the current. "
+        "All parts and numbers are invented.",
+        highlight=False,
+    )
+    summary = RichTable(title="candidates for the pass device", title_justify="left")
+    for name in ("part", "verdict", "worst margin", "limit at worst point", "plot"):
+        summary.add_column(name)
+    folders = library_folders([])
+    results = {}
+    for part_id in CANDIDATES:
+        part = find_part(part_id, folders)
+        result = check_points(frame["voltage"].to_numpy(), frame["current"].to_numpy(), part,
+                              tc_c=frame["case_temp"].to_numpy(), pulse_s=frame["pulse_s"].to_numpy())
+        results[part_id] = _check_payload(result)
+        ax = plot_soa(part, case_temps_c=(25.0, 70.0), points=result)
+        plot_path = out / f"{part_id}-soa.png"
+        ax.figure.savefig(plot_path)
+        margin = np.where(np.isfinite(result.margin), result.margin, -np.inf)
+        worst = int(np.argmin(margin))
+        summary.add_row(part_id, "[green]pass[/]" if result.passed else "[bold red]FAIL[/]",
+                        f"{result.margin[worst]:+.1%}" if np.isfinite(result.margin[worst]) else "—",
+                        str(result.limit[worst]), plot_path.name)
+    (out / "results.json").write_text(json.dumps(_jsonable(results), indent=2, ensure_ascii=False) + "\n")
+    console.print(summary)
+    console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
+    console.print(f"Demo written to {out.resolve()}", highlight=False)
+
+
+def main() -> None:
+    """Entry point of the ``soacheck`` console script."""
+    app()

@@ -1,0 +1,23 @@
+"""The one exception family of soacheck.
+
+Every problem a user can fix (a malformed file, an unknown part, an impossible
+option) is raised as :class:`SoacheckError` with a message that names the file,
+the row or key and what to do. The CLI turns it into one line and exit code 2.
+"""
+
+from __future__ import annotations
+
+import difflib
+from collections.abc import Iterable
+
+
+class SoacheckError(ValueError):
+    """A problem with the user's input that the user can fix."""
+
+
+def did_you_mean(word: str, choices: Iterable[str], *, cutoff: float = 0.6) -> str:
+    """Return `` (did you mean 'x'?)`` for the closest choice, or an empty string."""
+    close = difflib.get_close_matches(word, list(choices), n=3, cutoff=cutoff)
+    if not close:
+        return ""
+    return " (did you mean " + " or ".join(f"'{c}'" for c in close) + "?)"

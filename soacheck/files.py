@@ -1,0 +1,402 @@
+"""Reading the user's files: part folders (``part.toml``, ``soa.csv``) and CSV tables.
+
+This is the one module that turns text into domain objects. Every problem is raised
+as a :class:`~soacheck.errors.SoacheckError` whose message names the file, the line
+or key, and the fix. Nothing here writes.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.parts import KINDS, Part, Ratings, SoaCurve
+from soacheck.units import parse_duration
+
+PART_FILE = "part.toml"
+SOA_FILE = "soa.csv"
+
+
+# --------------------------------------------------------------------------- tables
+
+
+@dataclass(frozen=True, eq=False)
+class Table:
+    """A CSV table with its columns checked and its numbers parsed.
+
+    ``frame`` holds one canonical column per requested name (numbers as float64,
+    text as str); ``line(i)`` gives the file line of row ``i`` for messages.
+    """
+
+    path: Path
+    frame: pd.DataFrame
+
+    def line(self, row: int) -> int:
+        """File line (1-based, header is the first non-blank line) of data row ``row``."""
+        return _data_lines(self.path)[row]
+
+    def where(self, row: int) -> str:
+        return f"{self.path} line {self.line(row)}"
+
+
+def _data_lines(path: Path) -> list[int]:
+    with open(path, encoding="utf-8-sig", errors="replace") as handle:
+        lines = [n for n, text in enumerate(handle, start=1) if text.strip()]
+    return lines[1:]
+
+
+def _sniff(path: Path) -> tuple[str, list[str]]:
+    """Return the column separator and the header names of a CSV file."""
+    try:
+        with open(path, encoding="utf-8-sig") as handle:
+            header = next((text for text in handle if text.strip()), None)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such file; check the path") from None
+    except IsADirectoryError:
+        raise SoacheckError(f"{path}: is a folder, not a CSV file") from None
+    except UnicodeDecodeError:
+        raise SoacheckError(f"{path}: is not a UTF-8 text file; save it as CSV (UTF-8)") from None
+    if header is None:
+        raise SoacheckError(f"{path}: the file is empty; it needs a header line naming the columns")
+    # Spreadsheets in locales with decimal commas export with ';' between columns.
+    sep = ";" if ";" in header else ("\t" if "\t" in header else ",")
+    names = [name.strip().lower() for name in header.strip().split(sep)]
+    return sep, names
+
+
+def read_table(
+    path: str | Path,
+    *,
+    numeric: Sequence[str],
+    text: Sequence[str] = (),
+    optional: Sequence[str] = (),
+    positive: Sequence[str] = (),
+) -> Table:
+    """Read a CSV table whose columns are named in its header.
+
+    Parameters
+    ----------
+    path
+        The CSV file. Columns separated by ``,``; a header with ``;`` marks a spreadsheet
+        export with decimal commas, which is read as such; tab-separated files are read too.
+    numeric, text
+        Columns that hold numbers and text. All are required unless named in ``optional``.
+    optional
+        Columns that may be missing; they are absent from the frame then.
+    positive
+        Numeric columns whose values must be above zero (they go on log axes).
+
+    Raises
+    ------
+    SoacheckError
+        Empty file, missing or unknown columns (with the nearest known name), rows with
+        the wrong number of fields, cells that are not finite numbers, values not above
+        zero where required.
+    """
+    path = Path(path)
+    sep, names = _sniff(path)
+    known = list(numeric) + list(text)
+    for name in names:
+        if name not in known:
+            raise SoacheckError(
+                f"{path}: unknown column '{name}'{did_you_mean(name, known)}; "
+                f"the columns are {', '.join(known)}"
+            )
+    if len(set(names)) != len(names):
+        raise SoacheckError(f"{path}: a column name appears twice in the header; keep one")
+    for name in known:
+        if name not in names and name not in optional:
+            raise SoacheckError(
+                f"{path}: missing column '{name}'; the header must name {', '.join(n for n in known if n not in optional)}"
+            )
+    try:
+        raw = pd.read_csv(
+            path,
+            sep=sep,
+            dtype=str,
+            keep_default_na=False,
+            skipinitialspace=True,
+            encoding="utf-8-sig",
+        )
+    except pd.errors.ParserError as err:
+        found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(err))
+        detail = (
+            f"line {found.group(2)} has {found.group(3)} fields where the header has {found.group(1)}"
+            if found
+            else "a row has more fields than the header"
+        )
+        hint = "; a spreadsheet export with decimal commas must separate columns with ';'" if sep == "," else ""
+        raise SoacheckError(f"{path}: {detail}{hint}") from None
+    raw.columns = [c.strip().lower() for c in raw.columns]
+    if raw.empty:
+        raise SoacheckError(f"{path}: the file has a header but no rows; add at least one row")
+
+    frame = pd.DataFrame(index=raw.index)
+    table = Table(path, frame)
+    for name in known:
+        if name not in raw.columns:
+            continue
+        cells = raw[name].astype(str).str.strip()
+        if name in text:
+            empty = np.flatnonzero((cells == "").to_numpy())
+            if empty.size:
+                raise SoacheckError(f"{table.where(int(empty[0]))}: column '{name}' is empty; fill it in")
+            frame[name] = cells
+            continue
+        values = pd.to_numeric(cells.str.replace(",", ".", regex=False), errors="coerce").to_numpy(float)
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            row = int(bad[0])
+            cell = cells.iloc[row]
+            what = "is empty" if cell == "" else f"'{cell}' is not a finite number"
+            raise SoacheckError(f"{table.where(row)}: {name} {what}; write a plain number")
+        if name in positive:
+            low = np.flatnonzero(values <= 0)
+            if low.size:
+                row = int(low[0])
+                raise SoacheckError(
+                    f"{table.where(row)}: {name} is {values[row]:g}; it must be above zero "
+                    "(SOA axes are logarithmic)"
+                )
+        frame[name] = values
+    return table
+
+
+# --------------------------------------------------------------------------- part folders
+
+_TOP_KEYS = ("id", "kind", "description", "source", "ratings", "derating", "thermal")
+_REQUIRED_TOP = ("id", "kind", "description", "source", "ratings")
+_RATING_KEYS = ("v_max", "i_max", "i_pulse_max", "p_max", "tj_max", "rth_jc")
+_REQUIRED_RATINGS = ("v_max", "i_max", "p_max", "tj_max", "rth_jc")
+_DERATING_KEYS = ("second_breakdown",)
+_THERMAL_KEYS = ("foster_r", "foster_tau")
+
+
+def _check_keys(where: str, table: dict[str, Any], allowed: Sequence[str], required: Sequence[str]) -> None:
+    for key in table:
+        if key not in allowed:
+            raise SoacheckError(
+                f"{where}: unknown key '{key}'{did_you_mean(key, allowed)}; the keys are {', '.join(allowed)}"
+            )
+    for key in required:
+        if key not in table:
+            raise SoacheckError(f"{where}: missing key '{key}'; add it")
+
+
+def _number(where: str, value: Any, *, positive: bool = True) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        raise SoacheckError(f"{where} is {value!r}; write a finite number")
+    if positive and value <= 0:
+        raise SoacheckError(f"{where} is {value!r}; it must be above zero")
+    return float(value)
+
+
+def _text(where: str, value: Any) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise SoacheckError(f"{where} must be a non-empty string in quotes")
+    return value.strip()
+
+
+def _number_list(where: str, value: Any) -> np.ndarray:
+    if not isinstance(value, list) or not value:
+        raise SoacheckError(f"{where} must be a non-empty list of numbers, such as [0.1, 0.2]")
+    return np.array([_number(f"{where}[{i}]", v) for i, v in enumerate(value)])
+
+
+def read_part_toml(path: Path) -> dict[str, Any]:
+    """Parse ``part.toml`` into a dict, turning syntax errors into a clear message."""
+    try:
+        with open(path, "rb") as handle:
+            return tomllib.load(handle)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such file; a part folder holds {PART_FILE} and {SOA_FILE}") from None
+    except tomllib.TOMLDecodeError as err:
+        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+
+
+def read_part(folder: str | Path) -> Part:
+    """Read and validate a part folder holding ``part.toml`` and ``soa.csv``.
+
+    The format is documented in ``docs/part-format.md``. The folder name must equal the
+    part's ``id``, so that a part can be found by its id without reading every part.
+    """
+    folder = Path(folder)
+    toml_path = folder / PART_FILE
+    data = read_part_toml(toml_path)
+    where = str(toml_path)
+    _check_keys(where, data, _TOP_KEYS, _REQUIRED_TOP)
+    part_id = _text(f"{where}: id", data["id"])
+    if part_id != folder.name:
+        raise SoacheckError(
+            f"{where}: id '{part_id}' differs from the folder name '{folder.name}'; rename one to match"
+        )
+    kind = _text(f"{where}: kind", data["kind"]).lower()
+    if kind not in KINDS:
+        raise SoacheckError(
+            f"{where}: kind '{kind}' is unknown{did_you_mean(kind, KINDS)}; use one of {', '.join(KINDS)}"
+        )
+    ratings_table = data["ratings"]
+    if not isinstance(ratings_table, dict):
+        raise SoacheckError(f"{where}: 'ratings' must be a table: write [ratings] on its own line")
+    _check_keys(f"{where} [ratings]", ratings_table, _RATING_KEYS, _REQUIRED_RATINGS)
+    r = {k: _number(f"{where}: ratings.{k}", v) for k, v in ratings_table.items()}
+    if r["tj_max"] <= 25:
+        raise SoacheckError(f"{where}: ratings.tj_max is {r['tj_max']:g} °C; it must be above 25 °C")
+    ratings = Ratings(
+        v_max_v=r["v_max"],
+        i_max_a=r["i_max"],
+        p_max_w=r["p_max"],
+        tj_max_c=r["tj_max"],
+        rth_jc_k_per_w=r["rth_jc"],
+        i_pulse_max_a=r.get("i_pulse_max"),
+    )
+
+    sb_case_c = sb_fraction = np.zeros(0)
+    if "derating" in data:
+        derating = data["derating"]
+        if not isinstance(derating, dict):
+            raise SoacheckError(f"{where}: 'derating' must be a table: write [derating] on its own line")
+        _check_keys(f"{where} [derating]", derating, _DERATING_KEYS, ())
+        if "second_breakdown" in derating:
+            sb_case_c, sb_fraction = _derating_table(f"{where}: derating.second_breakdown", derating["second_breakdown"])
+
+    foster_r = foster_tau = np.zeros(0)
+    if "thermal" in data:
+        thermal = data["thermal"]
+        if not isinstance(thermal, dict):
+            raise SoacheckError(f"{where}: 'thermal' must be a table: write [thermal] on its own line")
+        _check_keys(f"{where} [thermal]", thermal, _THERMAL_KEYS, _THERMAL_KEYS)
+        foster_r = _number_list(f"{where}: thermal.foster_r", thermal["foster_r"])
+        foster_tau = _number_list(f"{where}: thermal.foster_tau", thermal["foster_tau"])
+        if foster_r.size != foster_tau.size:
+            raise SoacheckError(
+                f"{where}: thermal.foster_r has {foster_r.size} terms and foster_tau {foster_tau.size}; "
+                "give one time constant per resistance"
+            )
+
+    curves = read_soa_curves(folder / SOA_FILE, kind=kind, ratings=ratings)
+    return Part(
+        id=part_id,
+        kind=kind,
+        description=_text(f"{where}: description", data["description"]),
+        source=_text(f"{where}: source", data["source"]),
+        ratings=ratings,
+        curves=curves,
+        breakdown_case_c=sb_case_c,
+        breakdown_fraction=sb_fraction,
+        foster_r_k_per_w=foster_r,
+        foster_tau_s=foster_tau,
+        folder=folder,
+    )
+
+
+def _derating_table(where: str, value: Any) -> tuple[np.ndarray, np.ndarray]:
+    if not isinstance(value, list) or not value:
+        raise SoacheckError(f"{where} must be a list of [case_c, fraction] pairs, such as [[25, 1.0], [100, 0.7]]")
+    case_c, fraction = [], []
+    for i, row in enumerate(value):
+        if not isinstance(row, list) or len(row) != 2:
+            raise SoacheckError(f"{where}[{i}] is {row!r}; write a pair [case_c, fraction]")
+        case_c.append(_number(f"{where}[{i}] case temperature", row[0], positive=False))
+        fraction.append(_number(f"{where}[{i}] fraction", row[1], positive=False))
+    case = np.array(case_c)
+    frac = np.array(fraction)
+    if np.any(np.diff(case) <= 0):
+        raise SoacheckError(f"{where}: case temperatures must rise from row to row")
+    if np.any(frac < 0) or np.any(frac > 1):
+        raise SoacheckError(f"{where}: fractions must lie between 0 and 1 (1 = not derated)")
+    return case, frac
+
+
+def read_soa_curves(path: Path, *, kind: str, ratings: Ratings) -> tuple[SoaCurve, ...]:
+    """Read ``soa.csv`` (columns ``pulse,voltage,current``) into curves, shortest pulse first.
+
+    Each curve must list its points from low to high voltage with no repeated voltage,
+    and its current must not rise with voltage, except for an on-resistance line at the
+    start of a FET or IGBT curve and digitizing noise along a current limit (slope
+    within ±0.15 on log-log axes).
+    """
+    table = read_table(path, numeric=("voltage", "current"), text=("pulse",), positive=("voltage", "current"))
+    frame = table.frame
+    pulse_s = np.array([parse_duration(p, where=table.where(i) + ": pulse") for i, p in enumerate(frame["pulse"])])
+    voltage = frame["voltage"].to_numpy()
+    current = frame["current"].to_numpy()
+    may_rise_at_start = kind not in ("npn", "pnp")
+    file_lines = np.array(_data_lines(path))
+    curves = []
+    for width in np.unique(pulse_s):
+        rows = np.flatnonzero(pulse_s == width)
+        v, i = voltage[rows], current[rows]
+        label = frame["pulse"].iloc[rows[0]]
+        if rows.size < 2:
+            raise SoacheckError(f"{table.where(int(rows[0]))}: curve '{label}' has one point; digitize at least two")
+        dv = np.diff(v)
+        back = np.flatnonzero(dv < 0)
+        if back.size:
+            k = int(rows[back[0] + 1])
+            raise SoacheckError(
+                f"{table.where(k)}: voltage {v[back[0] + 1]:g} V follows {v[back[0]]:g} V in curve '{label}'; "
+                "list each curve's points from low to high voltage"
+            )
+        same = np.flatnonzero(dv == 0)
+        if same.size:
+            k = int(rows[same[0] + 1])
+            raise SoacheckError(
+                f"{table.where(k)}: voltage {v[same[0]]:g} V appears twice in curve '{label}'; keep one point "
+                "(the voltage limit at ratings.v_max is implied, no vertical line is needed)"
+            )
+        slope = np.diff(np.log(i)) / np.diff(np.log(v))
+        rising = slope > 0.15
+        if may_rise_at_start:
+            # an on-resistance line may open a FET or IGBT curve: allow the leading run
+            lead = int(np.argmin(rising)) if not rising.all() else rising.size
+            rising[:lead] = False
+        if rising.any():
+            k = int(np.argmax(rising))
+            raise SoacheckError(
+                f"{table.where(int(rows[k + 1]))}: current rises from {i[k]:g} A to {i[k + 1]:g} A as voltage rises "
+                f"in curve '{label}'; an SOA boundary must fall"
+                + ("" if may_rise_at_start else " (only a FET or IGBT curve may open with an on-resistance line)")
+            )
+        if v[-1] > ratings.v_max_v * 1.0001:
+            k = int(rows[-1])
+            raise SoacheckError(
+                f"{table.where(k)}: curve '{label}' reaches {v[-1]:g} V, above ratings.v_max = "
+                f"{ratings.v_max_v:g} V; end the curve at v_max or correct the rating"
+            )
+        curves.append(SoaCurve(pulse_s=float(width), voltage_v=v, current_a=i, lines=file_lines[rows]))
+    if not curves[-1].is_dc:
+        raise SoacheckError(f"{path}: no 'dc' curve; digitize the DC curve too (pulse = dc)")
+    return tuple(curves)
+
+
+# --------------------------------------------------------------------------- operating points
+
+
+def read_points(path: str | Path) -> Table:
+    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse``.
+
+    Voltage and current must be above zero (they go on log axes); ``case_temp`` is in °C;
+    ``pulse`` is ``dc`` or a width such as ``1ms``. The frame gains a column ``pulse_s``
+    (seconds, ``inf`` for DC) when ``pulse`` is present.
+    """
+    table = read_table(
+        path,
+        numeric=("voltage", "current", "case_temp"),
+        text=("pulse",),
+        optional=("case_temp", "pulse"),
+        positive=("voltage", "current"),
+    )
+    frame = table.frame
+    if "pulse" in frame:
+        frame["pulse_s"] = [parse_duration(p, where=f"{table.where(i)}: pulse") for i, p in enumerate(frame["pulse"])]
+    return table

@@ -1,0 +1,80 @@
+"""Finding parts: by id in the bundled demo library and the user's libraries, or by folder path.
+
+Search order, first match wins: folders given with ``--library`` (in the order given),
+then the folders in ``SOACHECK_LIBRARY`` (separated like PATH), then the bundled
+``curves/``. A part folder is a folder holding ``part.toml``; its name is the part's id.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+
+from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.files import PART_FILE, read_part
+from soacheck.parts import Part
+
+LIBRARY_ENV = "SOACHECK_LIBRARY"
+
+
+def bundled_library() -> Path:
+    """The folder of the bundled demo parts (installed as package data ``soacheck.curves``)."""
+    return Path(str(resources.files("soacheck.curves")))
+
+
+def library_folders(extra: Sequence[str | Path] = (), *, environ: dict[str, str] | None = None) -> list[Path]:
+    """The library folders in search order: ``extra``, then ``SOACHECK_LIBRARY``, then bundled."""
+    env = os.environ if environ is None else environ
+    from_env = [Path(p) for p in env.get(LIBRARY_ENV, "").split(os.pathsep) if p.strip()]
+    folders = [Path(p) for p in extra] + from_env
+    for folder in folders:
+        if not folder.is_dir():
+            source = "--library" if folder in map(Path, extra) else LIBRARY_ENV
+            raise SoacheckError(f"{source}: '{folder}' is not a folder; give a folder that holds part folders")
+    return folders + [bundled_library()]
+
+
+@dataclass(frozen=True)
+class LibraryEntry:
+    """A part folder found in a library."""
+
+    id: str
+    folder: Path
+    library: Path
+
+
+def list_parts(folders: Sequence[Path]) -> list[LibraryEntry]:
+    """All part folders in ``folders``, the first of each id only, sorted by id."""
+    seen: dict[str, LibraryEntry] = {}
+    for library in folders:
+        for candidate in sorted(library.iterdir()):
+            if (candidate / PART_FILE).is_file() and candidate.name not in seen:
+                seen[candidate.name] = LibraryEntry(candidate.name, candidate, library)
+    return sorted(seen.values(), key=lambda e: e.id)
+
+
+def find_part(ref: str, folders: Sequence[Path]) -> Part:
+    """Load a part given by id (searched in ``folders``) or by the path of its folder.
+
+    Raises
+    ------
+    SoacheckError
+        When no part has that id, naming the nearest ids.
+    """
+    path = Path(ref)
+    if (path / PART_FILE).is_file():
+        return read_part(path)
+    if os.sep in ref or (os.altsep and os.altsep in ref) or path.exists():
+        raise SoacheckError(f"{ref}: no {PART_FILE} in that folder; a part folder holds {PART_FILE} and soa.csv")
+    for library in folders:
+        if (library / ref / PART_FILE).is_file():
+            return read_part(library / ref)
+    ids = [e.id for e in list_parts(folders)]
+    hint = did_you_mean(ref, ids, cutoff=0.3)
+    raise SoacheckError(
+        f"unknown part '{ref}'{hint}; `soacheck parts` lists the {len(ids)} known parts, "
+        "or give the path of a part folder"
+    )

@@ -1,0 +1,144 @@
+"""The part: a transistor's ratings and its digitized SOA curves.
+
+Frozen dataclasses only; reading files is :mod:`soacheck.files`' job. All values
+are SI: volts, amperes, watts, degrees Celsius, kelvin per watt, seconds.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+
+from soacheck.units import format_duration
+
+Kind = Literal["npn", "pnp", "nmos", "pmos", "igbt"]
+KINDS: tuple[Kind, ...] = ("npn", "pnp", "nmos", "pmos", "igbt")
+BIPOLAR_KINDS: tuple[Kind, ...] = ("npn", "pnp")
+
+REFERENCE_CASE_C = 25.0
+"""Case temperature at which datasheet SOA curves are drawn. [°C]"""
+
+
+@dataclass(frozen=True)
+class Ratings:
+    """Absolute maximum ratings of a part, as the datasheet gives them.
+
+    Attributes
+    ----------
+    v_max_v
+        Voltage rating: VCEO, VDSS or VCES. [V]
+    i_max_a
+        Continuous current rating. [A]
+    p_max_w
+        Dissipation rating at 25 °C case. [W]
+    tj_max_c
+        Highest junction temperature. [°C]
+    rth_jc_k_per_w
+        Junction-to-case thermal resistance. [K/W]
+    i_pulse_max_a
+        Pulsed current rating, or None where the datasheet gives none. [A]
+    """
+
+    v_max_v: float
+    i_max_a: float
+    p_max_w: float
+    tj_max_c: float
+    rth_jc_k_per_w: float
+    i_pulse_max_a: float | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class SoaCurve:
+    """One digitized SOA polyline at 25 °C case.
+
+    Attributes
+    ----------
+    pulse_s
+        Single-pulse width the curve is drawn for; ``math.inf`` for DC. [s]
+    voltage_v, current_a
+        Vertices of the polyline, voltage strictly increasing, shape ``(n,)``. [V], [A]
+    lines
+        File line of each vertex, shape ``(n,)``, for messages; zeros when not from a file.
+    """
+
+    pulse_s: float
+    voltage_v: np.ndarray
+    current_a: np.ndarray
+    lines: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
+
+    @property
+    def label(self) -> str:
+        """The pulse width as a datasheet writes it: ``dc``, ``1ms``."""
+        return format_duration(self.pulse_s)
+
+    @property
+    def is_dc(self) -> bool:
+        return math.isinf(self.pulse_s)
+
+
+@dataclass(frozen=True, eq=False)
+class Part:
+    """A transistor: identity, ratings, SOA curves and optional derating and thermal data.
+
+    Attributes
+    ----------
+    id, kind, description, source
+        As in ``part.toml``.
+    ratings
+        Absolute maximum ratings.
+    curves
+        SOA curves sorted by pulse width, shortest first; the last is DC.
+    breakdown_case_c, breakdown_fraction
+        Optional table derating second breakdown (bipolar) or linear-mode instability
+        (FET, IGBT) with case temperature, shape ``(k,)``; empty when the part has none. [°C], [1]
+    foster_r_k_per_w, foster_tau_s
+        Optional Foster terms of the junction-to-case thermal impedance, shape ``(m,)``.
+    folder
+        Where the part was read from, or None.
+    """
+
+    id: str
+    kind: Kind
+    description: str
+    source: str
+    ratings: Ratings
+    curves: tuple[SoaCurve, ...]
+    breakdown_case_c: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    breakdown_fraction: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    foster_r_k_per_w: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    foster_tau_s: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    folder: Path | None = None
+
+    @property
+    def is_bipolar(self) -> bool:
+        return self.kind in BIPOLAR_KINDS
+
+    @property
+    def steep_mechanism(self) -> Literal["second_breakdown", "instability"]:
+        """What a segment steeper than constant power means for this kind of part."""
+        return "second_breakdown" if self.is_bipolar else "instability"
+
+    @property
+    def dc_curve(self) -> SoaCurve:
+        return self.curves[-1]
+
+    @property
+    def pulse_widths_s(self) -> np.ndarray:
+        """Pulse widths of the digitized curves, shortest first, ``inf`` for DC. [s]"""
+        return np.array([c.pulse_s for c in self.curves])
+
+    def curve_for(self, pulse_s: float) -> SoaCurve:
+        """The digitized curve that conservatively covers a single pulse of width ``pulse_s``.
+
+        A width between two digitized widths takes the longer one; a width shorter than
+        the shortest takes the shortest; a width longer than the longest pulse curve
+        takes DC. Interpolating between pulse curves is not conservative (see
+        ``methods.md`` §4), so none is done.
+        """
+        widths = self.pulse_widths_s
+        index = int(np.searchsorted(widths, pulse_s * (1 - 1e-9), side="left"))
+        return self.curves[min(index, len(self.curves) - 1)]

@@ -1,0 +1,107 @@
+"""Log-log SOA plots.
+
+Plot functions take ``ax=None`` (a new figure is made) and return the axes they drew
+on. They use matplotlib's object interface only, so no display or GUI backend is ever
+needed; saving is left to the caller.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+from matplotlib.axes import Axes
+from matplotlib.colors import TwoSlopeNorm
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+
+from soacheck.parts import Part
+from soacheck.soa import BreakdownDerating, PointCheck, boundary_polyline, mechanism_lines
+from soacheck.units import DC, format_duration
+
+MECHANISM_STYLE: dict[str, dict] = {
+    "on_resistance": {"color": "#8c8c8c", "label": "on-resistance"},
+    "current": {"color": "#1f5fa8", "label": "current limit"},
+    "thermal": {"color": "#d1495b", "label": "thermal (constant power)"},
+    "second_breakdown": {"color": "#6a3d9a", "label": "second breakdown"},
+    "instability": {"color": "#6a3d9a", "label": "thermal instability"},
+    "unclassified": {"color": "#222222", "label": "unclassified slope"},
+}
+
+
+def new_axes(width_in: float = 8.0, height_in: float = 6.0) -> Axes:
+    """A fresh figure with one axes, no pyplot state involved."""
+    return Figure(figsize=(width_in, height_in), layout="constrained").add_subplot()
+
+
+def plot_soa(
+    part: Part,
+    *,
+    case_temps_c: Sequence[float] = (),
+    pulse_s: float = DC,
+    points: PointCheck | None = None,
+    policy: BreakdownDerating = "auto",
+    ax: Axes | None = None,
+) -> Axes:
+    """Draw a part's digitized SOA curves, derated boundaries and checked points.
+
+    Parameters
+    ----------
+    part
+        The part.
+    case_temps_c
+        Case temperatures at which to draw the derated boundary of the ``pulse_s`` curve
+        (dashed). [°C]
+    pulse_s
+        Pulse width whose derated boundary is drawn, ``inf`` for DC. [s]
+    points
+        Checked points, coloured by margin (crosses for points outside).
+    policy
+        Derating of second breakdown or instability.
+    ax
+        Axes to draw on; a new figure when None.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    ax = ax if ax is not None else new_axes()
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    used = set()
+    for curve in part.curves:
+        lines = mechanism_lines(part, curve)[:-1]  # the last is the implicit rated cap
+        for line in lines:
+            style = MECHANISM_STYLE[line.mechanism]
+            used.add(line.mechanism)
+            ax.plot(np.exp(line.log_v), np.exp(line.log_i), color=style["color"],
+                    lw=2.4 if curve.is_dc else 1.4, solid_capstyle="round")
+        ax.annotate(curve.label, (curve.voltage_v[-1], curve.current_a[-1]), xytext=(4, 0),
+                    textcoords="offset points", fontsize=8, va="center")
+    cmap_t = ["#e08214", "#b35806", "#7f3b08", "#542788"]
+    for n, tc in enumerate(case_temps_c):
+        poly = boundary_polyline(part, tc_c=tc, pulse_s=pulse_s, policy=policy,
+                                 v_min_v=part.curve_for(pulse_s).voltage_v[0])
+        if poly.is_empty:
+            continue
+        ax.plot(poly.voltage_v, poly.current_a, ls="--", lw=1.6, color=cmap_t[n % len(cmap_t)],
+                label=f"{format_duration(pulse_s)} derated, Tc = {tc:g} °C")
+    if points is not None and points.voltage_v.size:
+        margin = np.where(np.isfinite(points.margin), points.margin, -1.0)
+        norm = TwoSlopeNorm(vmin=min(-0.5, margin.min()), vcenter=0.0, vmax=max(1.0, margin.max()))
+        ok = points.inside
+        shown = ax.scatter(points.voltage_v[ok], points.current_a[ok], c=margin[ok], cmap="RdYlGn",
+                           norm=norm, s=36, edgecolors="k", linewidths=0.5, zorder=5)
+        ax.scatter(points.voltage_v[~ok], points.current_a[~ok], c=margin[~ok], cmap="RdYlGn",
+                   norm=norm, s=60, marker="X", edgecolors="k", linewidths=0.5, zorder=6)
+        ax.figure.colorbar(shown, ax=ax, label="margin  1 − I/I_allowed")
+    ax.axvline(part.ratings.v_max_v, color="k", lw=0.8, ls=":")
+    handles = [Line2D([], [], color=MECHANISM_STYLE[m]["color"], lw=2, label=MECHANISM_STYLE[m]["label"])
+               for m in MECHANISM_STYLE if m in used]
+    handles += ax.get_legend_handles_labels()[0]
+    ax.legend(handles=handles, fontsize=8, loc="lower left")
+    ax.set_xlabel("voltage V_CE / V_DS [V]")
+    ax.set_ylabel("current I_C / I_D [A]")
+    ax.set_title(f"{part.id}: SOA at 25 °C case (solid), derated (dashed)", fontsize=10)
+    ax.grid(True, which="both", lw=0.3, alpha=0.6)
+    return ax

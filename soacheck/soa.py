@@ -1,0 +1,586 @@
+"""The SOA boundary: segment mechanisms, temperature derating, and point checks.
+
+A digitized SOA curve is a polyline on log-log axes. Each segment is classified by its
+slope m = ln(I2/I1) / ln(V2/V1) into the physical mechanism that draws it; a run of
+segments with one mechanism is a *mechanism line*. Derating for case temperature scales
+each mechanism line by its own factor, and the derated boundary is the lower envelope of
+the derated lines, each extended as a straight line in log-log space across the voltage
+range. Corners therefore move with temperature; at 25 °C the envelope is the digitized
+polyline itself (for a curve that is concave in log-log space, as a physical SOA is).
+
+All functions are vectorized over arrays of points; loops run only over the few
+mechanism lines of a curve and the few digitized pulse widths.
+
+References
+----------
+- Slope bands and mechanisms: ``methods.md`` §1 (common practice); second breakdown:
+  Scarlett & Shockley, IEEE Int. Conv. Rec. 1963; MOSFET linear-mode instability:
+  Spirito et al., MIEL 2002.
+- Derating: the thermal limit falls as (tj_max − Tc)/(tj_max − 25 °C), i.e.
+  P = (tj_max − Tc)/Rth (common practice, the definition of Rth in JEDEC JESD51-1);
+  current and voltage limits are not derated (common practice).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Literal, get_args
+
+import numpy as np
+import pandas as pd
+import shapely
+
+from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
+from soacheck.units import DC, format_duration
+
+Mechanism = Literal["on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified"]
+Limit = Literal[
+    "on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified",
+    "voltage", "temperature", "invalid",
+]
+BreakdownDerating = Literal["auto", "thermal", "none"]
+"""How second breakdown (bipolar) or instability (FET, IGBT) is derated with case temperature.
+
+``auto``: the part's ``[derating] second_breakdown`` table where it has one, else like the
+thermal limit (conservative). ``thermal``: always like the thermal limit. ``none``: not at
+all (non-conservative; for comparison only)."""
+
+LIMITS: tuple[str, ...] = get_args(Limit)
+
+# Slope bands on log-log axes (methods.md §1, common practice): digitizing error of about
+# ±2 % per coordinate gives slope errors of a few hundredths.
+CURRENT_BAND = 0.15
+ON_RESISTANCE_BAND = 0.15
+THERMAL_BAND = 0.12
+STEEPEST_SLOPE = -8.0
+
+
+# --------------------------------------------------------------------------- classification
+
+
+def segment_slopes(voltage_v: np.ndarray, current_a: np.ndarray) -> np.ndarray:
+    """Slopes of a polyline's segments on log-log axes, shape ``(n - 1,)``.
+
+    m = ln(I₂/I₁) / ln(V₂/V₁), independent of the logarithm's base.
+    """
+    lv = np.log(np.asarray(voltage_v, dtype=float))
+    li = np.log(np.asarray(current_a, dtype=float))
+    return np.diff(li) / np.diff(lv)
+
+
+def classify_slopes(slopes: np.ndarray, *, bipolar: bool) -> np.ndarray:
+    """Name the mechanism of each segment from its log-log slope.
+
+    Parameters
+    ----------
+    slopes
+        Segment slopes in curve order, shape ``(k,)``.
+    bipolar
+        True for a bipolar part: a steep segment is second breakdown and no segment may be
+        an on-resistance line. False for FETs and IGBTs: a steep segment is linear-mode
+        instability, and a leading run of slopes near +1 is the on-resistance line.
+
+    Returns
+    -------
+    numpy.ndarray of str, shape ``(k,)``
+        ``current`` for \\|m\\| ≤ 0.15, ``thermal`` for \\|m + 1\\| ≤ 0.12, ``second_breakdown`` or
+        ``instability`` for −8 ≤ m < −1.12, ``on_resistance`` for a leading \\|m − 1\\| ≤ 0.15
+        (FET, IGBT), else ``unclassified`` (kept as geometry; derated conservatively).
+    """
+    m = np.asarray(slopes, dtype=float)
+    steep = "second_breakdown" if bipolar else "instability"
+    names = np.full(m.shape, "unclassified", dtype=object)
+    names[np.abs(m) <= CURRENT_BAND] = "current"
+    names[np.abs(m + 1) <= THERMAL_BAND] = "thermal"
+    names[(m >= STEEPEST_SLOPE) & (m < -1 - THERMAL_BAND)] = steep
+    if not bipolar:
+        on_res = np.abs(m - 1) <= ON_RESISTANCE_BAND
+        leading = np.logical_and.accumulate(on_res) if on_res.size else on_res
+        names[leading] = "on_resistance"
+    return names.astype(str)
+
+
+@dataclass(frozen=True, eq=False)
+class MechanismLine:
+    """A run of consecutive segments of one mechanism, as a piecewise-linear function on log axes.
+
+    Attributes
+    ----------
+    mechanism
+        What draws this part of the boundary.
+    log_v, log_i
+        Natural logs of the vertices, shape ``(k + 1,)``, ``log_v`` increasing. Outside
+        its vertices the line extends with its end slopes.
+    lines
+        File lines of the first and last vertex, for messages (0, 0 when implicit).
+    """
+
+    mechanism: Mechanism
+    log_v: np.ndarray
+    log_i: np.ndarray
+    lines: tuple[int, int] = (0, 0)
+
+    def __call__(self, log_v: np.ndarray) -> np.ndarray:
+        """ln I of the line at ``log_v`` (any shape), extended straight beyond its ends."""
+        x = np.asarray(log_v, dtype=float)
+        if self.log_v.size == 1:
+            return np.full(x.shape, self.log_i[0])
+        y = np.interp(x, self.log_v, self.log_i)
+        left = (self.log_i[1] - self.log_i[0]) / (self.log_v[1] - self.log_v[0])
+        right = (self.log_i[-1] - self.log_i[-2]) / (self.log_v[-1] - self.log_v[-2])
+        y = np.where(x < self.log_v[0], self.log_i[0] + left * (x - self.log_v[0]), y)
+        return np.where(x > self.log_v[-1], self.log_i[-1] + right * (x - self.log_v[-1]), y)
+
+
+def current_cap_a(part: Part, curve: SoaCurve) -> float:
+    """Rated current that caps a curve: ``i_max`` for DC, ``i_pulse_max`` for pulses.
+
+    Never above the highest digitized current of the curve, so that extending the first
+    segment below the lowest digitized voltage allows no more than the data supports.
+    """
+    rated = part.ratings.i_max_a if curve.is_dc else (part.ratings.i_pulse_max_a or math.inf)
+    return float(min(rated, curve.current_a.max()))
+
+
+def mechanism_lines(part: Part, curve: SoaCurve) -> tuple[MechanismLine, ...]:
+    """Split a curve into mechanism lines, and add the rated current cap as a line of its own."""
+    mechanisms = classify_slopes(segment_slopes(curve.voltage_v, curve.current_a), bipolar=part.is_bipolar)
+    lv, li = np.log(curve.voltage_v), np.log(curve.current_a)
+    starts = np.flatnonzero(np.r_[True, mechanisms[1:] != mechanisms[:-1]])
+    ends = np.r_[starts[1:], mechanisms.size]
+    lines = [
+        MechanismLine(
+            mechanism=str(mechanisms[s]),
+            log_v=lv[s : e + 1],
+            log_i=li[s : e + 1],
+            lines=(int(curve.lines[s]), int(curve.lines[e])) if curve.lines.size else (0, 0),
+        )
+        for s, e in zip(starts, ends, strict=True)
+    ]
+    cap = MechanismLine("current", np.array([lv[0]]), np.array([math.log(current_cap_a(part, curve))]))
+    return (*lines, cap)
+
+
+# --------------------------------------------------------------------------- derating
+
+
+def thermal_factor(tc_c: np.ndarray | float, tj_max_c: float) -> np.ndarray:
+    """Fraction of the 25 °C thermal (constant-power) limit left at case temperature ``tc_c``.
+
+    f = (tj_max − Tc)/(tj_max − 25 °C), clipped to [0, 1]: no extra allowance is taken
+    below 25 °C, and nothing is allowed at or above tj_max.
+
+    References
+    ----------
+    P = (tj_max − Tc)/Rth_jc, the definition of junction-to-case thermal resistance
+    (JEDEC JESD51-1); the linear derating line printed on datasheets (common practice).
+    """
+    tc = np.asarray(tc_c, dtype=float)
+    return np.clip((tj_max_c - tc) / (tj_max_c - REFERENCE_CASE_C), 0.0, 1.0)
+
+
+def breakdown_factor(tc_c: np.ndarray | float, part: Part, policy: BreakdownDerating = "auto") -> np.ndarray:
+    """Fraction of the 25 °C second-breakdown (or instability) limit left at ``tc_c``.
+
+    With the part's table (policy ``auto``): linear between its rows, never rising with
+    temperature (a rising table is read as its running minimum), the first row's
+    fraction below the table, and beyond the last row the smaller of the last fraction
+    and the thermal factor. Without a table, or with policy ``thermal``: the thermal
+    factor (conservative; published guidance says only that second breakdown does not
+    derate like the thermal limit). Policy ``none``: 1 (non-conservative).
+    """
+    tc = np.asarray(tc_c, dtype=float)
+    thermal = thermal_factor(tc, part.ratings.tj_max_c)
+    if policy == "none":
+        return np.where(tc >= part.ratings.tj_max_c, 0.0, 1.0)
+    if policy == "thermal" or part.breakdown_case_c.size == 0:
+        return thermal
+    fraction = np.minimum.accumulate(part.breakdown_fraction)
+    table = np.interp(tc, part.breakdown_case_c, fraction)
+    beyond = tc > part.breakdown_case_c[-1]
+    table = np.where(beyond, np.minimum(table, thermal), table)
+    return np.where(tc >= part.ratings.tj_max_c, 0.0, np.minimum(table, 1.0))
+
+
+def mechanism_factors(tc_c: np.ndarray, part: Part, policy: BreakdownDerating) -> dict[str, np.ndarray]:
+    """Derating factor of each mechanism at ``tc_c`` (any shape)."""
+    thermal = thermal_factor(tc_c, part.ratings.tj_max_c)
+    breakdown = breakdown_factor(tc_c, part, policy)
+    ones = np.ones_like(thermal)
+    return {
+        "on_resistance": ones,
+        "current": ones,
+        "thermal": thermal,
+        "second_breakdown": breakdown,
+        "instability": breakdown,
+        "unclassified": np.minimum(thermal, breakdown),
+    }
+
+
+def breakdown_policy_note(part: Part, policy: BreakdownDerating) -> str:
+    """One sentence on how the steep (breakdown or instability) segments were derated."""
+    name = part.steep_mechanism.replace("_", " ")
+    if policy == "none":
+        return f"{name} not derated with case temperature (chosen by the user; NOT conservative)"
+    if policy == "thermal" or part.breakdown_case_c.size == 0:
+        why = "chosen by the user" if policy == "thermal" else "the part gives no derating table"
+        return f"{name} derated like the thermal limit ({why}; conservative)"
+    return f"{name} derated by the part's table [derating] second_breakdown"
+
+
+# --------------------------------------------------------------------------- the boundary
+
+
+@dataclass(frozen=True, eq=False)
+class Allowed:
+    """The derated boundary evaluated at given voltages.
+
+    All arrays have the broadcast shape of the inputs, flattened to ``(n,)``.
+
+    Attributes
+    ----------
+    current_a
+        Highest current allowed at each voltage; 0 where nothing is allowed, NaN where
+        the point cannot be evaluated. [A]
+    limit
+        The mechanism that sets ``current_a`` (see :data:`Limit`).
+    curve_pulse_s
+        Pulse width of the digitized curve used. [s]
+    extrapolated
+        True where the voltage lies outside the curve's digitized range (the end segment
+        was extended).
+    """
+
+    current_a: np.ndarray
+    limit: np.ndarray
+    curve_pulse_s: np.ndarray
+    extrapolated: np.ndarray
+
+
+def _evaluate_curve(log_v: np.ndarray, tc_c: np.ndarray, part: Part, curve: SoaCurve, policy: BreakdownDerating):
+    """ln I allowed and the index of the bounding mechanism line, for one curve."""
+    lines = mechanism_lines(part, curve)
+    factors = mechanism_factors(tc_c, part, policy)
+    with np.errstate(divide="ignore"):
+        stacked = np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
+    which = np.argmin(stacked, axis=0)
+    return np.take_along_axis(stacked, which[None], axis=0)[0], which, lines
+
+
+def allowed_current(
+    voltage_v: np.ndarray | float,
+    part: Part,
+    *,
+    tc_c: np.ndarray | float = REFERENCE_CASE_C,
+    pulse_s: np.ndarray | float = DC,
+    policy: BreakdownDerating = "auto",
+) -> Allowed:
+    """Highest current the part may carry at each voltage, case temperature and pulse width.
+
+    Parameters
+    ----------
+    voltage_v
+        Collector-emitter or drain-source voltage, any shape. [V]
+    part
+        The part.
+    tc_c
+        Case temperature, broadcast against ``voltage_v``. [°C]
+    pulse_s
+        Single-pulse width, ``inf`` for DC, broadcast against ``voltage_v``. A width
+        between two digitized widths uses the longer curve; shorter than the shortest
+        uses the shortest. [s]
+    policy
+        Derating of second breakdown or instability, see :data:`BreakdownDerating`.
+
+    Returns
+    -------
+    Allowed
+        Flattened arrays of the broadcast shape.
+
+    Notes
+    -----
+    Within a segment the boundary is I = I_k·(V/V_k)^m_k (log-log interpolation, exact
+    for power-law segments; linear interpolation would lie above a falling segment).
+    Below the lowest digitized voltage the first segment extends, capped by the rated
+    current; above ``v_max`` nothing is allowed (limit ``voltage``); at or above
+    ``tj_max`` nothing is allowed (limit ``temperature``). A non-finite or non-positive
+    voltage, or a non-finite case temperature or pulse, gives NaN with limit ``invalid``.
+    """
+    v, tc, tp = (np.ravel(a) for a in np.broadcast_arrays(
+        np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float), np.asarray(pulse_s, dtype=float)
+    ))
+    n = v.size
+    allowed = np.full(n, np.nan)
+    limit = np.full(n, "invalid", dtype=object)
+    curve_pulse = np.full(n, np.nan)
+    extrapolated = np.zeros(n, dtype=bool)
+
+    valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & ~np.isnan(tp) & (tp > 0)
+    widths = part.pulse_widths_s
+    which_curve = np.minimum(np.searchsorted(widths, np.where(valid, tp, 1.0) * (1 - 1e-9)), widths.size - 1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_v = np.log(np.where(valid, v, 1.0))
+    for index in np.unique(which_curve[valid]):
+        curve = part.curves[index]
+        sel = valid & (which_curve == index)
+        log_i, which, lines = _evaluate_curve(log_v[sel], tc[sel], part, curve, policy)
+        allowed[sel] = np.exp(log_i)
+        limit[sel] = np.array([line.mechanism for line in lines], dtype=object)[which]
+        curve_pulse[sel] = curve.pulse_s
+        extrapolated[sel] = (v[sel] < curve.voltage_v[0] * (1 - 1e-9)) | (v[sel] > curve.voltage_v[-1] * (1 + 1e-9))
+
+    too_hot = valid & (tc >= part.ratings.tj_max_c)
+    allowed[too_hot], limit[too_hot] = 0.0, "temperature"
+    over_v = valid & (v > part.ratings.v_max_v)
+    allowed[over_v], limit[over_v], extrapolated[over_v] = 0.0, "voltage", False
+    return Allowed(allowed, limit.astype(str), curve_pulse, extrapolated)
+
+
+@dataclass(frozen=True, eq=False)
+class BoundaryPolyline:
+    """The derated boundary of one curve at one case temperature, as exact vertices.
+
+    Attributes
+    ----------
+    voltage_v, current_a
+        Vertices, shape ``(k,)``, from ``v_min_v`` to ``v_max``; every corner of the lower
+        envelope is a vertex, so straight lines between them on log-log axes are exact.
+    limit
+        Mechanism of the piece that starts at each vertex, shape ``(k,)``.
+    """
+
+    voltage_v: np.ndarray
+    current_a: np.ndarray
+    limit: np.ndarray
+
+    @property
+    def is_empty(self) -> bool:
+        return not np.any(self.current_a > 0)
+
+
+def boundary_polyline(
+    part: Part,
+    *,
+    tc_c: float = REFERENCE_CASE_C,
+    pulse_s: float = DC,
+    policy: BreakdownDerating = "auto",
+    v_min_v: float | None = None,
+) -> BoundaryPolyline:
+    """Exact vertices of the derated boundary, for plots and polygons.
+
+    The lower envelope of piecewise-linear functions (on log axes) has its corners at the
+    functions' own vertices or where two of them cross; both are found, so the
+    polyline agrees with :func:`allowed_current` everywhere between ``v_min_v`` (default:
+    a decade below the lowest digitized voltage) and ``v_max``.
+    """
+    curve = part.curve_for(pulse_s)
+    lines = mechanism_lines(part, curve)
+    v_lo = v_min_v if v_min_v is not None else curve.voltage_v[0] / 10
+    x_lo, x_hi = math.log(v_lo), math.log(part.ratings.v_max_v)
+    vertices = np.concatenate([line.log_v for line in lines])
+    x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
+    def derated(at: np.ndarray) -> np.ndarray:
+        factors = mechanism_factors(np.full(at.shape, float(tc_c)), part, policy)
+        with np.errstate(divide="ignore"):
+            return np.stack([line(at) + np.log(factors[line.mechanism]) for line in lines])
+
+    y = derated(x)  # (lines, points)
+    if np.all(np.isneginf(y)) or tc_c >= part.ratings.tj_max_c:
+        v = np.exp(np.array([x_lo, x_hi]))
+        return BoundaryPolyline(v, np.zeros(2), np.array(["temperature", "temperature"]))
+    # crossings of every pair of lines inside every interval between vertices
+    finite = np.where(np.isfinite(y), y, -1e6)
+    diff = finite[:, None, :] - finite[None, :, :]  # (lines, lines, points)
+    a, b = diff[..., :-1], diff[..., 1:]
+    cross = (a * b) < 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = a / (a - b)
+    xa, xb = x[:-1], x[1:]
+    x_cross = (xa + t * (xb - xa))[cross]
+    x = np.unique(np.r_[x, x_cross])
+    log_i, which, _ = _evaluate_curve(x, np.full(x.shape, float(tc_c)), part, curve, policy)
+    mechanisms = np.array([line.mechanism for line in lines])[which]
+    # drop vertices where nothing bends: crossings of lines that are not on the envelope
+    slope = np.diff(log_i) / np.diff(x)
+    keep = np.r_[True, (np.abs(np.diff(slope)) > 1e-9) | (mechanisms[1:-1] != mechanisms[:-2]), True]
+    return BoundaryPolyline(np.exp(x[keep]), np.exp(log_i[keep]), mechanisms[keep])
+
+
+def region_polygon(
+    part: Part,
+    *,
+    tc_c: float = REFERENCE_CASE_C,
+    pulse_s: float = DC,
+    policy: BreakdownDerating = "auto",
+    v_min_v: float | None = None,
+    i_floor_a: float | None = None,
+) -> shapely.Polygon:
+    """The derated safe region as a shapely polygon in (log10 V, log10 I) coordinates.
+
+    The region lies under the boundary from ``v_min_v`` to ``v_max`` and above
+    ``i_floor_a`` (default: a thousandth of the lowest boundary current). Distances in
+    these coordinates are in decades. Empty at or above ``tj_max``.
+    """
+    poly = boundary_polyline(part, tc_c=tc_c, pulse_s=pulse_s, policy=policy, v_min_v=v_min_v)
+    if poly.is_empty:
+        return shapely.Polygon()
+    floor = i_floor_a if i_floor_a is not None else poly.current_a.min() / 1000
+    x = np.log10(poly.voltage_v)
+    y = np.log10(poly.current_a)
+    ring = np.column_stack([np.r_[x[0], x, x[-1]], np.r_[math.log10(floor), y, math.log10(floor)]])
+    return shapely.Polygon(ring)
+
+
+def path_crossings(voltage_v: np.ndarray, current_a: np.ndarray, polygon: shapely.Polygon) -> np.ndarray:
+    """Where a V–I path crosses the boundary of a :func:`region_polygon`, shape ``(k, 2)`` in V and A.
+
+    The path is the polyline through the points in order, straight on log-log axes.
+    """
+    path = shapely.linestrings(np.log10(voltage_v), np.log10(current_a))
+    hits = shapely.get_coordinates(shapely.intersection(path, polygon.exterior))
+    return 10.0**hits
+
+
+# --------------------------------------------------------------------------- point checks
+
+
+@dataclass(frozen=True, eq=False)
+class PointCheck:
+    """The result of checking operating points against a part's derated SOA.
+
+    Arrays have shape ``(n,)``. ``margin`` = 1 − current/allowed_current, NaN where
+    nothing is allowed or the point cannot be evaluated; ``inside`` is True only where
+    the point was evaluated and its current is at most the allowed current (a point on
+    the boundary is inside).
+    """
+
+    part_id: str
+    voltage_v: np.ndarray
+    current_a: np.ndarray
+    tc_c: np.ndarray
+    pulse_s: np.ndarray
+    allowed_current_a: np.ndarray
+    margin: np.ndarray
+    inside: np.ndarray
+    limit: np.ndarray
+    curve_pulse_s: np.ndarray
+    extrapolated: np.ndarray
+    assumptions: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def passed(self) -> bool:
+        return bool(np.all(self.inside))
+
+    @property
+    def verdict(self) -> Literal["pass", "fail"]:
+        return "pass" if self.passed else "fail"
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per point, columns named as in the JSON output."""
+        return pd.DataFrame(
+            {
+                "voltage": self.voltage_v,
+                "current": self.current_a,
+                "case_temp": self.tc_c,
+                "pulse": [format_duration(t) for t in self.pulse_s],
+                "inside": self.inside,
+                "allowed_current": self.allowed_current_a,
+                "margin": self.margin,
+                "limit": self.limit,
+                "curve": [format_duration(t) if np.isfinite(t) or np.isinf(t) else "" for t in self.curve_pulse_s],
+                "extrapolated": self.extrapolated,
+            }
+        )
+
+
+def check_points(
+    voltage_v: np.ndarray | float,
+    current_a: np.ndarray | float,
+    part: Part,
+    *,
+    tc_c: np.ndarray | float = REFERENCE_CASE_C,
+    pulse_s: np.ndarray | float = DC,
+    policy: BreakdownDerating = "auto",
+) -> PointCheck:
+    """Check operating points against the part's SOA derated at their case temperatures.
+
+    Parameters
+    ----------
+    voltage_v, current_a
+        Operating points, broadcast together. [V], [A]
+    part
+        The part.
+    tc_c
+        Case temperature of each point. [°C]
+    pulse_s
+        Single-pulse width of each point, ``inf`` for DC. [s]
+    policy
+        Derating of second breakdown or instability.
+
+    Returns
+    -------
+    PointCheck
+        Per-point verdicts with the assumptions made, in words.
+    """
+    v, i, tc, tp = (np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s))
+    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, policy=policy)
+    evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
+    inside = evaluated & (i <= result.current_a)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        margin = np.where(evaluated & (result.current_a > 0), 1.0 - i / result.current_a, np.nan)
+    limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
+    return PointCheck(
+        part_id=part.id,
+        voltage_v=v,
+        current_a=i,
+        tc_c=tc,
+        pulse_s=tp,
+        allowed_current_a=result.current_a,
+        margin=margin,
+        inside=inside,
+        limit=limit,
+        curve_pulse_s=result.curve_pulse_s,
+        extrapolated=result.extrapolated,
+        assumptions=_assumptions(part, v, tc, tp, result, policy),
+    )
+
+
+def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, result: Allowed, policy) -> tuple[str, ...]:
+    notes = [
+        f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
+        f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
+        "current limit and voltage limit not derated",
+        breakdown_policy_note(part, policy),
+    ]
+    shortest = part.pulse_widths_s[0]
+    for asked, used in sorted(set(zip(tp.tolist(), result.curve_pulse_s.tolist(), strict=True))):
+        if math.isnan(used) or asked == used:
+            continue
+        if asked < shortest:
+            why = "shorter than every digitized curve, so the shortest is used"
+        elif math.isinf(used):
+            why = "longer than every pulse curve, so DC is used"
+        else:
+            why = "between digitized widths, so the next longer is used"
+        notes.append(f"{format_duration(asked)} pulse checked against the {format_duration(used)} curve ({why}; conservative)")
+    low = result.extrapolated & np.isfinite(v) & (v < part.curve_for(DC).voltage_v[-1])
+    if low.any():
+        notes.append(
+            f"{int(low.sum())} point(s) below the lowest digitized voltage: the first segment was extended "
+            "(capped by the rated current)"
+        )
+    high = result.extrapolated & ~low
+    if high.any():
+        notes.append(f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended")
+    if np.any(tc < REFERENCE_CASE_C):
+        notes.append("case temperatures below 25 °C get no more than the 25 °C limits")
+    used = np.unique(result.curve_pulse_s[~np.isnan(result.curve_pulse_s)])
+    for curve in (part.curve_for(width) for width in used):
+        for line in mechanism_lines(part, curve):
+            if line.mechanism == "unclassified":
+                notes.append(
+                    f"curve '{curve.label}' lines {line.lines[0]}–{line.lines[1]}: slope fits no mechanism; "
+                    "derated by the smaller of the thermal and breakdown factors"
+                )
+    return tuple(notes)
