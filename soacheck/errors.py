@@ -21,3 +21,8 @@ def did_you_mean(word: str, choices: Iterable[str], *, cutoff: float = 0.6) -> s
     if not close:
         return ""
     return " (did you mean " + " or ".join(f"'{c}'" for c in close) + "?)"
+
+
+def nearest(word: str, choices: Iterable[str], n: int = 3) -> list[str]:
+    """The ``n`` choices most like ``word``, most alike first, however far they are."""
+    return sorted(choices, key=lambda c: -difflib.SequenceMatcher(None, word, c).ratio())[:n]

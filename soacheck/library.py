@@ -10,10 +10,9 @@ from __future__ import annotations
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass
-from importlib import resources
 from pathlib import Path
 
-from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.errors import SoacheckError, nearest
 from soacheck.files import PART_FILE, read_part
 from soacheck.parts import Part
 
@@ -21,8 +20,14 @@ LIBRARY_ENV = "SOACHECK_LIBRARY"
 
 
 def bundled_library() -> Path:
-    """The folder of the bundled demo parts (installed as package data ``soacheck.curves``)."""
-    return Path(str(resources.files("soacheck.curves")))
+    """The folder of the bundled demo parts.
+
+    Installed, they are the package data ``soacheck/curves``; in a source checkout they
+    are the top-level ``curves/`` folder beside the package.
+    """
+    package = Path(__file__).resolve().parent
+    installed = package / "curves"
+    return installed if installed.is_dir() else package.parent / "curves"
 
 
 def library_folders(extra: Sequence[str | Path] = (), *, environ: dict[str, str] | None = None) -> list[Path]:
@@ -73,8 +78,8 @@ def find_part(ref: str, folders: Sequence[Path]) -> Part:
         if (library / ref / PART_FILE).is_file():
             return read_part(library / ref)
     ids = [e.id for e in list_parts(folders)]
-    hint = did_you_mean(ref, ids, cutoff=0.3)
+    close = ", ".join(f"'{i}'" for i in nearest(ref, ids))
     raise SoacheckError(
-        f"unknown part '{ref}'{hint}; `soacheck parts` lists the {len(ids)} known parts, "
+        f"unknown part '{ref}'; the nearest ids are {close}; `soacheck parts` lists all {len(ids)}, "
         "or give the path of a part folder"
     )

@@ -1,0 +1,70 @@
+"""Shared fixtures: user part folders written the way a user would write them."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from soacheck.files import read_part
+from soacheck.library import bundled_library, list_parts
+
+# The constructed DC curve of methods.md §1-§2 [con]: current limit 15 A to 8.3333 V,
+# constant power 125 W to 40 V, a second-breakdown line of slope -2 to 100 V.
+# tj_max 150 °C and rth_jc 1.0 K/W make p_max = (150 - 25)/1.0 = 125 W consistent.
+REFERENCE_SOA = """pulse,voltage,current
+1ms,1,40
+1ms,10,40
+1ms,40,10
+1ms,100,2
+dc,1,15
+dc,8.3333,15
+dc,40,3.125
+dc,100,0.5
+"""
+
+REFERENCE_TOML = """id = "{id}"
+kind = "{kind}"
+description = "constructed test part"
+source = "methods.md sections 1-2, constructed example"
+{extra_top}
+[ratings]
+v_max = 100
+i_max = 15
+i_pulse_max = 40
+p_max = 125
+tj_max = 150
+rth_jc = 1.0
+{extra}
+"""
+
+
+def write_part(folder: Path, *, soa: str = REFERENCE_SOA, kind: str = "npn", extra: str = "", toml: str | None = None) -> Path:
+    """Write a part folder named after ``folder`` and return it."""
+    folder.mkdir(parents=True, exist_ok=True)
+    text = toml if toml is not None else REFERENCE_TOML.format(id=folder.name, kind=kind, extra=extra, extra_top="")
+    (folder / "part.toml").write_text(text, encoding="utf-8")
+    (folder / "soa.csv").write_text(soa, encoding="utf-8")
+    return folder
+
+
+@pytest.fixture
+def reference_part(tmp_path):
+    """The constructed reference part, with no second-breakdown derating table."""
+    return read_part(write_part(tmp_path / "ref-bjt"))
+
+
+@pytest.fixture
+def reference_part_with_table(tmp_path):
+    """The reference part whose second breakdown derates to 0.9 at 75 °C (less than thermal's 0.6)."""
+    extra = "[derating]\nsecond_breakdown = [[25, 1.0], [75, 0.9], [150, 0.8]]\n"
+    return read_part(write_part(tmp_path / "ref-bjt-table", extra=extra))
+
+
+BUNDLED_IDS = [entry.id for entry in list_parts([bundled_library()])]
+
+
+@pytest.fixture(params=BUNDLED_IDS)
+def bundled_part(request):
+    """Each bundled demo part in turn."""
+    return read_part(bundled_library() / request.param)
