@@ -17,6 +17,7 @@ from typing import Annotated, Any
 import numpy as np
 import typer
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, demo_points
@@ -120,7 +121,7 @@ def _check_payload(result: PointCheck) -> dict[str, Any]:
 
 
 def _print_check(console: Console, result: PointCheck) -> None:
-    table = RichTable(title=f"{result.part_id}: operating points", title_justify="left")
+    table = RichTable(title=escape(f"{result.part_id}: operating points"), title_justify="left")
     for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "curve", "allowed [A]", "margin", "limit", ""):
         table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
     frame = result.to_frame()
@@ -133,7 +134,7 @@ def _print_check(console: Console, result: PointCheck) -> None:
                       allowed, margin, limit, mark)
     console.print(table)
     for note in result.assumptions:
-        console.print(f"  assumed: {note}", highlight=False)
+        console.print(f"  assumed: {note}", highlight=False, markup=False)
     verdict = "[green]PASS[/]: every point is inside" if result.passed else (
         f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside"
     )
@@ -208,8 +209,8 @@ def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     for name in ("id", "kind", "V max", "I max", "P max", "Tj max", "Rth jc", "curves", "description"):
         table.add_column(name)
     for r in rows:
-        table.add_row(r["id"], r["kind"], f"{r['v_max']:g} V", f"{r['i_max']:g} A", f"{r['p_max']:g} W",
-                      f"{r['tj_max']:g} °C", f"{r['rth_jc']:g} K/W", " ".join(r["curves"]), r["description"])
+        table.add_row(escape(r["id"]), r["kind"], f"{r['v_max']:g} V", f"{r['i_max']:g} A", f"{r['p_max']:g} W",
+                      f"{r['tj_max']:g} °C", f"{r['rth_jc']:g} K/W", " ".join(r["curves"]), escape(r["description"]))
     _console().print(table)
 
 
