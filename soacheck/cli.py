@@ -22,13 +22,12 @@ from rich.table import Table as RichTable
 
 from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, demo_points
 from soacheck.errors import SoacheckError
-from soacheck.files import read_points
+from soacheck.files import read_part, read_points
 from soacheck.library import find_part, library_folders, list_parts
-from soacheck.files import read_part
 from soacheck.parts import Part
 from soacheck.plots import plot_soa
 from soacheck.soa import BreakdownDerating, PointCheck, check_points
-from soacheck.units import DC, format_duration, parse_duration
+from soacheck.units import parse_duration
 
 app = typer.Typer(
     name="soacheck",
@@ -45,7 +44,9 @@ SAFETY_NOTE = (
 
 LibraryOpt = Annotated[
     list[Path] | None,
-    typer.Option("--library", "-L", help="Folder of user part folders (repeatable); searched before the bundled demo parts."),
+    typer.Option(
+        "--library", "-L", help="Folder of user part folders (repeatable); searched before the bundled demo parts."
+    ),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object instead of a table.")]
 PolicyOpt = Annotated[
@@ -113,9 +114,9 @@ def _check_payload(result: PointCheck) -> dict[str, Any]:
     return {
         "part": result.part_id,
         "verdict": result.verdict,
-        "points": frame.drop(columns=["curve", "extrapolated"]).assign(
-            curve=frame["curve"], extrapolated=frame["extrapolated"]
-        ).to_dict(orient="records"),
+        "points": frame.drop(columns=["curve", "extrapolated"])
+        .assign(curve=frame["curve"], extrapolated=frame["extrapolated"])
+        .to_dict(orient="records"),
         "assumptions": list(result.assumptions),
     }
 
@@ -130,13 +131,24 @@ def _print_check(console: Console, result: PointCheck) -> None:
         allowed = "—" if not math.isfinite(row.allowed_current) else f"{row.allowed_current:.4g}"
         mark = "[green]inside[/]" if row.inside else "[bold red]OUTSIDE[/]"
         limit = row.limit + (" (extrapolated)" if row.extrapolated else "")
-        table.add_row(f"{row.voltage:g}", f"{row.current:g}", f"{row.case_temp:g}", row.pulse, row.curve,
-                      allowed, margin, limit, mark)
+        table.add_row(
+            f"{row.voltage:g}",
+            f"{row.current:g}",
+            f"{row.case_temp:g}",
+            row.pulse,
+            row.curve,
+            allowed,
+            margin,
+            limit,
+            mark,
+        )
     console.print(table)
     for note in result.assumptions:
         console.print(f"  assumed: {note}", highlight=False, markup=False)
-    verdict = "[green]PASS[/]: every point is inside" if result.passed else (
-        f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside"
+    verdict = (
+        "[green]PASS[/]: every point is inside"
+        if result.passed
+        else (f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside")
     )
     console.print(verdict)
 
@@ -147,9 +159,15 @@ def check(
     part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
     voltage: Annotated[float | None, typer.Option("--voltage", "-v", help="Voltage across the device [V].")] = None,
     current: Annotated[float | None, typer.Option("--current", "-i", help="Current through the device [A].")] = None,
-    points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points: voltage,current[,case_temp,pulse].")] = None,
-    case_temp: Annotated[float, typer.Option("--case-temp", "-t", help="Case temperature [°C] where the points give none.")] = 25.0,
-    pulse: Annotated[str, typer.Option("--pulse", help="'dc' or a single-pulse width such as 1ms, where the points give none.")] = "dc",
+    points: Annotated[
+        Path | None, typer.Option("--points", "-p", help="CSV of points: voltage,current[,case_temp,pulse].")
+    ] = None,
+    case_temp: Annotated[
+        float, typer.Option("--case-temp", "-t", help="Case temperature [°C] where the points give none.")
+    ] = 25.0,
+    pulse: Annotated[
+        str, typer.Option("--pulse", help="'dc' or a single-pulse width such as 1ms, where the points give none.")
+    ] = "dc",
     breakdown_derating: PolicyOpt = "auto",
     library: LibraryOpt = None,
     as_json: JsonOpt = False,
@@ -209,8 +227,17 @@ def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     for name in ("id", "kind", "V max", "I max", "P max", "Tj max", "Rth jc", "curves", "description"):
         table.add_column(name)
     for r in rows:
-        table.add_row(escape(r["id"]), r["kind"], f"{r['v_max']:g} V", f"{r['i_max']:g} A", f"{r['p_max']:g} W",
-                      f"{r['tj_max']:g} °C", f"{r['rth_jc']:g} K/W", " ".join(r["curves"]), escape(r["description"]))
+        table.add_row(
+            escape(r["id"]),
+            r["kind"],
+            f"{r['v_max']:g} V",
+            f"{r['i_max']:g} A",
+            f"{r['p_max']:g} W",
+            f"{r['tj_max']:g} °C",
+            f"{r['rth_jc']:g} K/W",
+            " ".join(r["curves"]),
+            escape(r["description"]),
+        )
     _console().print(table)
 
 
@@ -228,10 +255,14 @@ def _temperatures(text: str) -> list[float]:
 @_user_errors
 def show(
     part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
-    case_temp: Annotated[str, typer.Option("--case-temp", "-t", help="Case temperatures of the derated curves [°C], comma separated.")] = "25,75,125",
+    case_temp: Annotated[
+        str, typer.Option("--case-temp", "-t", help="Case temperatures of the derated curves [°C], comma separated.")
+    ] = "25,75,125",
     pulse: Annotated[str, typer.Option("--pulse", help="Curve to derate: 'dc' or a pulse width.")] = "dc",
     points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points to check and draw.")] = None,
-    output: Annotated[Path | None, typer.Option("--output", "-o", help="Plot file: .png, .svg or .pdf [default: PART-soa.png].")] = None,
+    output: Annotated[
+        Path | None, typer.Option("--output", "-o", help="Plot file: .png, .svg or .pdf [default: PART-soa.png].")
+    ] = None,
     breakdown_derating: PolicyOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
@@ -248,9 +279,12 @@ def show(
     if points is not None:
         frame = read_points(points).frame
         checked = check_points(
-            frame["voltage"].to_numpy(), frame["current"].to_numpy(), loaded,
+            frame["voltage"].to_numpy(),
+            frame["current"].to_numpy(),
+            loaded,
             tc_c=frame["case_temp"].to_numpy() if "case_temp" in frame else 25.0,
-            pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s, policy=policy,
+            pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
+            policy=policy,
         )
     ax = plot_soa(loaded, case_temps_c=_temperatures(case_temp), pulse_s=pulse_s, points=checked, policy=policy)
     ax.figure.savefig(output)
@@ -286,17 +320,26 @@ def demo(
     results = {}
     for part_id in CANDIDATES:
         part = find_part(part_id, folders)
-        result = check_points(frame["voltage"].to_numpy(), frame["current"].to_numpy(), part,
-                              tc_c=frame["case_temp"].to_numpy(), pulse_s=frame["pulse_s"].to_numpy())
+        result = check_points(
+            frame["voltage"].to_numpy(),
+            frame["current"].to_numpy(),
+            part,
+            tc_c=frame["case_temp"].to_numpy(),
+            pulse_s=frame["pulse_s"].to_numpy(),
+        )
         results[part_id] = _check_payload(result)
         ax = plot_soa(part, case_temps_c=(25.0, 70.0), points=result)
         plot_path = out / f"{part_id}-soa.png"
         ax.figure.savefig(plot_path)
         margin = np.where(np.isfinite(result.margin), result.margin, -np.inf)
         worst = int(np.argmin(margin))
-        summary.add_row(part_id, "[green]pass[/]" if result.passed else "[bold red]FAIL[/]",
-                        f"{result.margin[worst]:+.1%}" if np.isfinite(result.margin[worst]) else "—",
-                        str(result.limit[worst]), plot_path.name)
+        summary.add_row(
+            part_id,
+            "[green]pass[/]" if result.passed else "[bold red]FAIL[/]",
+            f"{result.margin[worst]:+.1%}" if np.isfinite(result.margin[worst]) else "—",
+            str(result.limit[worst]),
+            plot_path.name,
+        )
     (out / "results.json").write_text(json.dumps(_jsonable(results), indent=2, ensure_ascii=False) + "\n")
     console.print(summary)
     console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)

@@ -108,16 +108,14 @@ def read_table(
     for name in names:
         if name not in known:
             raise SoacheckError(
-                f"{path}: unknown column '{name}'{did_you_mean(name, known)}; "
-                f"the columns are {', '.join(known)}"
+                f"{path}: unknown column '{name}'{did_you_mean(name, known)}; the columns are {', '.join(known)}"
             )
     if len(set(names)) != len(names):
         raise SoacheckError(f"{path}: a column name appears twice in the header; keep one")
     for name in known:
         if name not in names and name not in optional:
-            raise SoacheckError(
-                f"{path}: missing column '{name}'; the header must name {', '.join(n for n in known if n not in optional)}"
-            )
+            needed = ", ".join(n for n in known if n not in optional)
+            raise SoacheckError(f"{path}: missing column '{name}'; the header must name {needed}")
     try:
         raw = pd.read_csv(
             path,
@@ -164,8 +162,7 @@ def read_table(
             if low.size:
                 row = int(low[0])
                 raise SoacheckError(
-                    f"{table.where(row)}: {name} is {values[row]:g}; it must be above zero "
-                    "(SOA axes are logarithmic)"
+                    f"{table.where(row)}: {name} is {values[row]:g}; it must be above zero (SOA axes are logarithmic)"
                 )
         frame[name] = values
     return table
@@ -267,7 +264,9 @@ def read_part(folder: str | Path) -> Part:
             raise SoacheckError(f"{where}: 'derating' must be a table: write [derating] on its own line")
         _check_keys(f"{where} [derating]", derating, _DERATING_KEYS, ())
         if "second_breakdown" in derating:
-            sb_case_c, sb_fraction = _derating_table(f"{where}: derating.second_breakdown", derating["second_breakdown"])
+            sb_case_c, sb_fraction = _derating_table(
+                f"{where}: derating.second_breakdown", derating["second_breakdown"]
+            )
 
     foster_r = foster_tau = np.zeros(0)
     if "thermal" in data:

@@ -74,30 +74,70 @@ def plot_soa(
         for line in lines:
             style = MECHANISM_STYLE[line.mechanism]
             used.add(line.mechanism)
-            ax.plot(np.exp(line.log_v), np.exp(line.log_i), color=style["color"],
-                    lw=2.4 if curve.is_dc else 1.4, solid_capstyle="round")
-        ax.annotate(curve.label, (curve.voltage_v[-1], curve.current_a[-1]), xytext=(4, 0),
-                    textcoords="offset points", fontsize=8, va="center")
+            ax.plot(
+                np.exp(line.log_v),
+                np.exp(line.log_i),
+                color=style["color"],
+                lw=2.4 if curve.is_dc else 1.4,
+                solid_capstyle="round",
+            )
+        ax.annotate(
+            curve.label,
+            (curve.voltage_v[-1], curve.current_a[-1]),
+            xytext=(4, 0),
+            textcoords="offset points",
+            fontsize=8,
+            va="center",
+        )
     cmap_t = ["#e08214", "#b35806", "#7f3b08", "#542788"]
     for n, tc in enumerate(case_temps_c):
-        poly = boundary_polyline(part, tc_c=tc, pulse_s=pulse_s, policy=policy,
-                                 v_min_v=part.curve_for(pulse_s).voltage_v[0])
+        poly = boundary_polyline(
+            part, tc_c=tc, pulse_s=pulse_s, policy=policy, v_min_v=part.curve_for(pulse_s).voltage_v[0]
+        )
         if poly.is_empty:
             continue
-        ax.plot(poly.voltage_v, poly.current_a, ls="--", lw=1.6, color=cmap_t[n % len(cmap_t)],
-                label=f"{format_duration(pulse_s)} derated, Tc = {tc:g} °C")
+        ax.plot(
+            poly.voltage_v,
+            poly.current_a,
+            ls="--",
+            lw=1.6,
+            color=cmap_t[n % len(cmap_t)],
+            label=f"{format_duration(pulse_s)} derated, Tc = {tc:g} °C",
+        )
     if points is not None and points.voltage_v.size:
         margin = np.where(np.isfinite(points.margin), points.margin, -1.0)
         norm = TwoSlopeNorm(vmin=min(-0.5, margin.min()), vcenter=0.0, vmax=max(1.0, margin.max()))
         ok = points.inside
-        shown = ax.scatter(points.voltage_v[ok], points.current_a[ok], c=margin[ok], cmap="RdYlGn",
-                           norm=norm, s=36, edgecolors="k", linewidths=0.5, zorder=5)
-        ax.scatter(points.voltage_v[~ok], points.current_a[~ok], c=margin[~ok], cmap="RdYlGn",
-                   norm=norm, s=60, marker="X", edgecolors="k", linewidths=0.5, zorder=6)
+        shown = ax.scatter(
+            points.voltage_v[ok],
+            points.current_a[ok],
+            c=margin[ok],
+            cmap="RdYlGn",
+            norm=norm,
+            s=36,
+            edgecolors="k",
+            linewidths=0.5,
+            zorder=5,
+        )
+        ax.scatter(
+            points.voltage_v[~ok],
+            points.current_a[~ok],
+            c=margin[~ok],
+            cmap="RdYlGn",
+            norm=norm,
+            s=60,
+            marker="X",
+            edgecolors="k",
+            linewidths=0.5,
+            zorder=6,
+        )
         ax.figure.colorbar(shown, ax=ax, label="margin  1 − I/I_allowed")
     ax.axvline(part.ratings.v_max_v, color="k", lw=0.8, ls=":")
-    handles = [Line2D([], [], color=MECHANISM_STYLE[m]["color"], lw=2, label=MECHANISM_STYLE[m]["label"])
-               for m in MECHANISM_STYLE if m in used]
+    handles = [
+        Line2D([], [], color=MECHANISM_STYLE[m]["color"], lw=2, label=MECHANISM_STYLE[m]["label"])
+        for m in MECHANISM_STYLE
+        if m in used
+    ]
     handles += ax.get_legend_handles_labels()[0]
     ax.legend(handles=handles, fontsize=8, loc="lower left")
     ax.set_xlabel("voltage V_CE / V_DS [V]")

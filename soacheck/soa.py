@@ -36,8 +36,15 @@ from soacheck.units import DC, format_duration
 
 Mechanism = Literal["on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified"]
 Limit = Literal[
-    "on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified",
-    "voltage", "temperature", "invalid",
+    "on_resistance",
+    "current",
+    "thermal",
+    "second_breakdown",
+    "instability",
+    "unclassified",
+    "voltage",
+    "temperature",
+    "invalid",
 ]
 BreakdownDerating = Literal["auto", "thermal", "none"]
 """How second breakdown (bipolar) or instability (FET, IGBT) is derated with case temperature.
@@ -307,9 +314,12 @@ def allowed_current(
     ``tj_max`` nothing is allowed (limit ``temperature``). A non-finite or non-positive
     voltage, or a non-finite case temperature or pulse, gives NaN with limit ``invalid``.
     """
-    v, tc, tp = (np.ravel(a) for a in np.broadcast_arrays(
-        np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float), np.asarray(pulse_s, dtype=float)
-    ))
+    v, tc, tp = (
+        np.ravel(a)
+        for a in np.broadcast_arrays(
+            np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float), np.asarray(pulse_s, dtype=float)
+        )
+    )
     n = v.size
     allowed = np.full(n, np.nan)
     limit = np.full(n, "invalid", dtype=object)
@@ -380,6 +390,7 @@ def boundary_polyline(
     x_lo, x_hi = math.log(v_lo), math.log(part.ratings.v_max_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
+
     def derated(at: np.ndarray) -> np.ndarray:
         factors = mechanism_factors(np.full(at.shape, float(tc_c)), part, policy)
         with np.errstate(divide="ignore"):
@@ -563,7 +574,9 @@ def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, resu
             why = "longer than every pulse curve, so DC is used"
         else:
             why = "between digitized widths, so the next longer is used"
-        notes.append(f"{format_duration(asked)} pulse checked against the {format_duration(used)} curve ({why}; conservative)")
+        notes.append(
+            f"{format_duration(asked)} pulse checked against the {format_duration(used)} curve ({why}; conservative)"
+        )
     low = result.extrapolated & np.isfinite(v) & (v < part.curve_for(DC).voltage_v[-1])
     if low.any():
         notes.append(
@@ -572,7 +585,9 @@ def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, resu
         )
     high = result.extrapolated & ~low
     if high.any():
-        notes.append(f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended")
+        notes.append(
+            f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended"
+        )
     if np.any(tc < REFERENCE_CASE_C):
         notes.append("case temperatures below 25 °C get no more than the 25 °C limits")
     used = np.unique(result.curve_pulse_s[~np.isnan(result.curve_pulse_s)])

@@ -44,14 +44,11 @@ def parse_duration(text: str, *, where: str = "pulse") -> float:
     match = _DURATION.match(raw)
     if not match:
         raise SoacheckError(
-            f"{where}: '{raw}' is not a duration; write 'dc' or a number with a unit such as "
-            "'10us', '1ms', '0.5s'"
+            f"{where}: '{raw}' is not a duration; write 'dc' or a number with a unit such as '10us', '1ms', '0.5s'"
         )
     number, suffix = match.groups()
     if not suffix:
-        raise SoacheckError(
-            f"{where}: '{raw}' has no unit; write it as '{number}s', '{number}ms' or '{number}us'"
-        )
+        raise SoacheckError(f"{where}: '{raw}' has no unit; write it as '{number}s', '{number}ms' or '{number}us'")
     if suffix not in _SUFFIX_S:
         raise SoacheckError(
             f"{where}: unknown time unit '{suffix}' in '{raw}'; use one of "

@@ -39,7 +39,9 @@ rth_jc = 1.0
 """
 
 
-def write_part(folder: Path, *, soa: str = REFERENCE_SOA, kind: str = "npn", extra: str = "", toml: str | None = None) -> Path:
+def write_part(
+    folder: Path, *, soa: str = REFERENCE_SOA, kind: str = "npn", extra: str = "", toml: str | None = None
+) -> Path:
     """Write a part folder named after ``folder`` and return it."""
     folder.mkdir(parents=True, exist_ok=True)
     text = toml if toml is not None else REFERENCE_TOML.format(id=folder.name, kind=kind, extra=extra, extra_top="")

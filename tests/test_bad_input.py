@@ -20,33 +20,89 @@ TOML = REFERENCE_TOML.format(id="bad", kind="npn", extra="", extra_top="")
 
 PART_CASES = {
     # name: (file, content, fragments expected in the message)
-    "misspelt column": ("soa.csv", "pulse,volatge,current\ndc,1,15\ndc,10,1.5\n", ["soa.csv", "volatge", "did you mean 'voltage'"]),
+    "misspelt column": (
+        "soa.csv",
+        "pulse,volatge,current\ndc,1,15\ndc,10,1.5\n",
+        ["soa.csv", "volatge", "did you mean 'voltage'"],
+    ),
     "missing column": ("soa.csv", "pulse,voltage\ndc,1\ndc,10\n", ["soa.csv", "missing column 'current'"]),
-    "non-numeric cell": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,ten,1.5\n", ["soa.csv line 3", "'ten' is not a finite number"]),
+    "non-numeric cell": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,ten,1.5\n",
+        ["soa.csv line 3", "'ten' is not a finite number"],
+    ),
     "nan cell": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,10,nan\n", ["soa.csv line 3", "'nan'"]),
     "infinite cell": ("soa.csv", "pulse,voltage,current\ndc,1,inf\ndc,10,1.5\n", ["soa.csv line 2", "'inf'"]),
     "empty cell": ("soa.csv", "pulse,voltage,current\ndc,1,\ndc,10,1.5\n", ["soa.csv line 2", "is empty"]),
     "zero on log axis": ("soa.csv", "pulse,voltage,current\ndc,0,15\ndc,10,1.5\n", ["soa.csv line 2", "above zero"]),
-    "negative on log axis": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,10,-1.5\n", ["soa.csv line 3", "above zero"]),
-    "current rises": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,10,12.5\ndc,20,20\n", ["soa.csv line 4", "current rises"]),
-    "duplicate voltage": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,10,12.5\ndc,10,1\n", ["soa.csv line 4", "appears twice"]),
-    "out of order": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,20,6\ndc,10,12.5\n", ["soa.csv line 4", "low to high voltage"]),
-    "unknown pulse suffix": ("soa.csv", "pulse,voltage,current\n1mn,1,30\n1mn,10,3\ndc,1,15\ndc,10,1.5\n", ["soa.csv line 2", "unknown time unit 'mn'"]),
-    "pulse without unit": ("soa.csv", "pulse,voltage,current\n10,1,30\n10,10,3\ndc,1,15\ndc,10,1.5\n", ["soa.csv line 2", "has no unit"]),
+    "negative on log axis": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,10,-1.5\n",
+        ["soa.csv line 3", "above zero"],
+    ),
+    "current rises": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,10,12.5\ndc,20,20\n",
+        ["soa.csv line 4", "current rises"],
+    ),
+    "duplicate voltage": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,10,12.5\ndc,10,1\n",
+        ["soa.csv line 4", "appears twice"],
+    ),
+    "out of order": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,20,6\ndc,10,12.5\n",
+        ["soa.csv line 4", "low to high voltage"],
+    ),
+    "unknown pulse suffix": (
+        "soa.csv",
+        "pulse,voltage,current\n1mn,1,30\n1mn,10,3\ndc,1,15\ndc,10,1.5\n",
+        ["soa.csv line 2", "unknown time unit 'mn'"],
+    ),
+    "pulse without unit": (
+        "soa.csv",
+        "pulse,voltage,current\n10,1,30\n10,10,3\ndc,1,15\ndc,10,1.5\n",
+        ["soa.csv line 2", "has no unit"],
+    ),
     "no dc curve": ("soa.csv", "pulse,voltage,current\n1ms,1,30\n1ms,10,3\n", ["soa.csv", "no 'dc' curve"]),
     "empty file": ("soa.csv", "", ["soa.csv", "empty"]),
     "header only": ("soa.csv", "pulse,voltage,current\n", ["soa.csv", "no rows"]),
-    "decimal commas with comma separator": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,10,1,5\n", ["soa.csv", "line 3 has 4 fields", "';'"]),
+    "decimal commas with comma separator": (
+        "soa.csv",
+        "pulse,voltage,current\ndc,1,15\ndc,10,1,5\n",
+        ["soa.csv", "line 3 has 4 fields", "';'"],
+    ),
     "beyond v_max": ("soa.csv", "pulse,voltage,current\ndc,1,15\ndc,120,0.5\n", ["soa.csv line 3", "v_max"]),
     "misspelt key": ("part.toml", TOML.replace("tj_max", "tjmax"), ["part.toml", "'tjmax'", "did you mean 'tj_max'"]),
     "missing key": ("part.toml", TOML.replace("rth_jc = 1.0\n", ""), ["part.toml", "missing key 'rth_jc'"]),
     "unknown kind": ("part.toml", TOML.replace('kind = "npn"', 'kind = "nnp"'), ["part.toml", "kind 'nnp'", "'npn'"]),
-    "text rating": ("part.toml", TOML.replace("v_max = 100", 'v_max = "100"'), ["part.toml", "ratings.v_max", "finite number"]),
-    "negative rating": ("part.toml", TOML.replace("i_max = 15", "i_max = -15"), ["part.toml", "ratings.i_max", "above zero"]),
+    "text rating": (
+        "part.toml",
+        TOML.replace("v_max = 100", 'v_max = "100"'),
+        ["part.toml", "ratings.v_max", "finite number"],
+    ),
+    "negative rating": (
+        "part.toml",
+        TOML.replace("i_max = 15", "i_max = -15"),
+        ["part.toml", "ratings.i_max", "above zero"],
+    ),
     "bad toml": ("part.toml", TOML.replace("v_max = 100", "v_max = = 100"), ["part.toml", "invalid TOML"]),
-    "id differs from folder": ("part.toml", TOML.replace('id = "bad"', 'id = "other"'), ["part.toml", "differs from the folder name"]),
-    "negative foster r": ("part.toml", TOML + "[thermal]\nfoster_r = [0.5, -0.5]\nfoster_tau = [0.01, 0.1]\n", ["part.toml", "foster_r[1]", "above zero"]),
-    "fraction above one": ("part.toml", TOML + "[derating]\nsecond_breakdown = [[25, 1.2]]\n", ["part.toml", "between 0 and 1"]),
+    "id differs from folder": (
+        "part.toml",
+        TOML.replace('id = "bad"', 'id = "other"'),
+        ["part.toml", "differs from the folder name"],
+    ),
+    "negative foster r": (
+        "part.toml",
+        TOML + "[thermal]\nfoster_r = [0.5, -0.5]\nfoster_tau = [0.01, 0.1]\n",
+        ["part.toml", "foster_r[1]", "above zero"],
+    ),
+    "fraction above one": (
+        "part.toml",
+        TOML + "[derating]\nsecond_breakdown = [[25, 1.2]]\n",
+        ["part.toml", "between 0 and 1"],
+    ),
 }
 
 
