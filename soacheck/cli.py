@@ -114,9 +114,7 @@ def _check_payload(result: PointCheck) -> dict[str, Any]:
     return {
         "part": result.part_id,
         "verdict": result.verdict,
-        "points": frame.drop(columns=["curve", "extrapolated"])
-        .assign(curve=frame["curve"], extrapolated=frame["extrapolated"])
-        .to_dict(orient="records"),
+        "points": frame.to_dict(orient="records"),
         "assumptions": list(result.assumptions),
     }
 

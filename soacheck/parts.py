@@ -139,6 +139,11 @@ class Part:
         takes DC. Interpolating between pulse curves is not conservative (see
         ``methods.md`` §4), so none is done.
         """
+        return self.curves[int(self.curve_index(pulse_s))]
+
+    def curve_index(self, pulse_s: np.ndarray | float) -> np.ndarray:
+        """Index into :attr:`curves` of the curve :meth:`curve_for` picks, for any shape of widths. [s]"""
         widths = self.pulse_widths_s
-        index = int(np.searchsorted(widths, pulse_s * (1 - 1e-9), side="left"))
-        return self.curves[min(index, len(self.curves) - 1)]
+        # a relative tolerance lets 1e-3 s written as "1ms" match the 1 ms curve exactly
+        index = np.searchsorted(widths, np.asarray(pulse_s, dtype=float) * (1 - 1e-9), side="left")
+        return np.minimum(index, widths.size - 1)

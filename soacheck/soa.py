@@ -254,25 +254,35 @@ class Allowed:
         The mechanism that sets ``current_a`` (see :data:`Limit`).
     curve_pulse_s
         Pulse width of the digitized curve used. [s]
-    extrapolated
-        True where the voltage lies outside the curve's digitized range (the end segment
-        was extended).
+    below_data, above_data
+        True where the voltage lies below the curve's lowest digitized voltage, or between
+        its highest digitized voltage and ``v_max``: the end segment was extended.
     """
 
     current_a: np.ndarray
     limit: np.ndarray
     curve_pulse_s: np.ndarray
-    extrapolated: np.ndarray
+    below_data: np.ndarray
+    above_data: np.ndarray
+
+    @property
+    def extrapolated(self) -> np.ndarray:
+        return self.below_data | self.above_data
 
 
-def _evaluate_curve(log_v: np.ndarray, tc_c: np.ndarray, part: Part, curve: SoaCurve, policy: BreakdownDerating):
-    """ln I allowed and the index of the bounding mechanism line, for one curve."""
-    lines = mechanism_lines(part, curve)
+def _derated_lines(
+    log_v: np.ndarray, tc_c: np.ndarray, part: Part, lines: tuple[MechanismLine, ...], policy: BreakdownDerating
+) -> np.ndarray:
+    """ln I of every derated mechanism line at every point, shape ``(lines, points)``."""
     factors = mechanism_factors(tc_c, part, policy)
     with np.errstate(divide="ignore"):
-        stacked = np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
+        return np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
+
+
+def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The minimum over lines and the index of the line that gives it, each shape ``(points,)``."""
     which = np.argmin(stacked, axis=0)
-    return np.take_along_axis(stacked, which[None], axis=0)[0], which, lines
+    return np.take_along_axis(stacked, which[None], axis=0)[0], which
 
 
 def allowed_current(
@@ -324,27 +334,29 @@ def allowed_current(
     allowed = np.full(n, np.nan)
     limit = np.full(n, "invalid", dtype=object)
     curve_pulse = np.full(n, np.nan)
-    extrapolated = np.zeros(n, dtype=bool)
+    below = np.zeros(n, dtype=bool)
+    above = np.zeros(n, dtype=bool)
 
     valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & ~np.isnan(tp) & (tp > 0)
-    widths = part.pulse_widths_s
-    which_curve = np.minimum(np.searchsorted(widths, np.where(valid, tp, 1.0) * (1 - 1e-9)), widths.size - 1)
+    which_curve = part.curve_index(np.where(valid, tp, math.inf))
     with np.errstate(divide="ignore", invalid="ignore"):
         log_v = np.log(np.where(valid, v, 1.0))
     for index in np.unique(which_curve[valid]):
         curve = part.curves[index]
         sel = valid & (which_curve == index)
-        log_i, which, lines = _evaluate_curve(log_v[sel], tc[sel], part, curve, policy)
+        lines = mechanism_lines(part, curve)
+        log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, lines, policy))
         allowed[sel] = np.exp(log_i)
         limit[sel] = np.array([line.mechanism for line in lines], dtype=object)[which]
         curve_pulse[sel] = curve.pulse_s
-        extrapolated[sel] = (v[sel] < curve.voltage_v[0] * (1 - 1e-9)) | (v[sel] > curve.voltage_v[-1] * (1 + 1e-9))
+        below[sel] = v[sel] < curve.voltage_v[0] * (1 - 1e-9)
+        above[sel] = v[sel] > curve.voltage_v[-1] * (1 + 1e-9)
 
     too_hot = valid & (tc >= part.ratings.tj_max_c)
     allowed[too_hot], limit[too_hot] = 0.0, "temperature"
     over_v = valid & (v > part.ratings.v_max_v)
-    allowed[over_v], limit[over_v], extrapolated[over_v] = 0.0, "voltage", False
-    return Allowed(allowed, limit.astype(str), curve_pulse, extrapolated)
+    allowed[over_v], limit[over_v], above[over_v] = 0.0, "voltage", False
+    return Allowed(allowed, limit.astype(str), curve_pulse, below, above)
 
 
 @dataclass(frozen=True, eq=False)
@@ -390,13 +402,7 @@ def boundary_polyline(
     x_lo, x_hi = math.log(v_lo), math.log(part.ratings.v_max_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
-
-    def derated(at: np.ndarray) -> np.ndarray:
-        factors = mechanism_factors(np.full(at.shape, float(tc_c)), part, policy)
-        with np.errstate(divide="ignore"):
-            return np.stack([line(at) + np.log(factors[line.mechanism]) for line in lines])
-
-    y = derated(x)  # (lines, points)
+    y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, policy)
     if np.all(np.isneginf(y)) or tc_c >= part.ratings.tj_max_c:
         v = np.exp(np.array([x_lo, x_hi]))
         return BoundaryPolyline(v, np.zeros(2), np.array(["temperature", "temperature"]))
@@ -410,7 +416,7 @@ def boundary_polyline(
     xa, xb = x[:-1], x[1:]
     x_cross = (xa + t * (xb - xa))[cross]
     x = np.unique(np.r_[x, x_cross])
-    log_i, which, _ = _evaluate_curve(x, np.full(x.shape, float(tc_c)), part, curve, policy)
+    log_i, which = _lower_envelope(_derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, policy))
     mechanisms = np.array([line.mechanism for line in lines])[which]
     # drop vertices where nothing bends: crossings of lines that are not on the envelope
     slope = np.diff(log_i) / np.diff(x)
@@ -577,13 +583,13 @@ def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, resu
         notes.append(
             f"{format_duration(asked)} pulse checked against the {format_duration(used)} curve ({why}; conservative)"
         )
-    low = result.extrapolated & np.isfinite(v) & (v < part.curve_for(DC).voltage_v[-1])
+    low = result.below_data
     if low.any():
         notes.append(
             f"{int(low.sum())} point(s) below the lowest digitized voltage: the first segment was extended "
             "(capped by the rated current)"
         )
-    high = result.extrapolated & ~low
+    high = result.above_data
     if high.any():
         notes.append(
             f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended"

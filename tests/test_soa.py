@@ -318,3 +318,22 @@ def test_path_crossing_lies_on_the_boundary(reference_part):
     assert hits.shape == (1, 2)
     assert hits[0, 0] == pytest.approx(25.0, rel=1e-4)  # 5-digit digitized vertex 8.3333 V
     assert allowed_current(hits[0, 0], reference_part).current_a[0] == pytest.approx(hits[0, 1], rel=1e-9)
+
+
+def test_digitizing_noise_along_the_current_limit_is_tolerated(tmp_path):
+    # a 2 % wobble along the current limit has a slope of about +0.01: still 'current'
+    # (band |m| <= 0.15, methods.md §1, common practice, no source)
+    soa = "pulse,voltage,current\ndc,1,15\ndc,4,15.3\ndc,8.3333,15\ndc,40,3.125\ndc,100,0.5\n"
+    part = read_part(write_part(tmp_path / "noisy", soa=soa))
+    got = allowed_current([2.0, 4.0], part)
+    assert list(got.limit) == ["current", "current"]
+    assert got.current_a[1] == pytest.approx(15.0)  # the rated i_max caps the wobble
+
+
+def test_every_conservative_choice_is_named_in_the_assumptions(reference_part):
+    check = check_points([0.5, 20.0, 20.0], [1.0, 1.0, 1.0], reference_part, pulse_s=[math.inf, 3e-3, 1e-4])
+    text = "\n".join(check.assumptions)
+    assert "below the lowest digitized voltage" in text
+    assert "3ms pulse checked against the dc curve" in text
+    assert "100us pulse checked against the 1ms curve" in text
+    assert "derated like the thermal limit" in text
