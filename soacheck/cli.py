@@ -83,6 +83,17 @@ def _policy(text: str) -> BreakdownDerating:
     return text  # type: ignore[return-value]
 
 
+def _duty(duty: float | None, pulse_s: float) -> float:
+    """The duty cycle from ``--duty``: 0 (a single pulse) when absent."""
+    if duty is None:
+        return 0.0
+    if not (0 < duty <= 1):
+        raise SoacheckError(f"--duty is {duty:g}; give the duty cycle tp/T in (0, 1], such as 0.1 for 10 %")
+    if math.isinf(pulse_s):
+        raise SoacheckError("--duty needs a pulse width: add --pulse, such as --pulse 3ms --duty 0.1")
+    return duty
+
+
 def _part(ref: str, library: list[Path] | None) -> Part:
     return find_part(ref, library_folders(library or []))
 
@@ -121,7 +132,7 @@ def _check_payload(result: PointCheck) -> dict[str, Any]:
 
 def _print_check(console: Console, result: PointCheck) -> None:
     table = RichTable(title=escape(f"{result.part_id}: operating points"), title_justify="left")
-    for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "curve", "allowed [A]", "margin", "limit", ""):
+    for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "curve", "allowed [A]", "margin", "limit", ""):
         table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
     frame = result.to_frame()
     for row in frame.itertuples(index=False):
@@ -134,6 +145,7 @@ def _print_check(console: Console, result: PointCheck) -> None:
             f"{row.current:g}",
             f"{row.case_temp:g}",
             row.pulse,
+            f"{row.duty:g}" if row.duty > 0 else "single" if row.pulse != "dc" else "",
             row.curve,
             allowed,
             margin,
@@ -164,8 +176,12 @@ def check(
         float, typer.Option("--case-temp", "-t", help="Case temperature [°C] where the points give none.")
     ] = 25.0,
     pulse: Annotated[
-        str, typer.Option("--pulse", help="'dc' or a single-pulse width such as 1ms, where the points give none.")
+        str, typer.Option("--pulse", help="'dc' or a pulse width such as 1ms, where the points give none.")
     ] = "dc",
+    duty: Annotated[
+        float | None,
+        typer.Option("--duty", help="Duty cycle of a pulse train, in (0, 1]; a single pulse when absent."),
+    ] = None,
     breakdown_derating: PolicyOpt = "auto",
     library: LibraryOpt = None,
     as_json: JsonOpt = False,
@@ -173,6 +189,7 @@ def check(
     """Check operating points against a part's SOA derated at the case temperature."""
     policy = _policy(breakdown_derating)
     pulse_s = parse_duration(pulse, where="--pulse")
+    duty_value = _duty(duty, pulse_s)
     if not math.isfinite(case_temp):
         raise SoacheckError("--case-temp must be a finite temperature in °C")
     if points is not None:
@@ -182,14 +199,15 @@ def check(
         v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
         tc = frame["case_temp"].to_numpy() if "case_temp" in frame else case_temp
         tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
+        d = frame["duty"].to_numpy() if "duty" in frame else duty_value
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
         for name, value in (("--voltage", voltage), ("--current", current)):
             if not (math.isfinite(value) and value > 0):
                 raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
-        v, i, tc, tp = voltage, current, case_temp, pulse_s
-    result = check_points(v, i, _part(part, library), tc_c=tc, pulse_s=tp, policy=policy)
+        v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
+    result = check_points(v, i, _part(part, library), tc_c=tc, pulse_s=tp, duty=d, policy=policy)
     if as_json:
         _echo_json(_check_payload(result))
     else:

@@ -24,6 +24,7 @@ from soacheck.units import parse_duration
 
 PART_FILE = "part.toml"
 SOA_FILE = "soa.csv"
+ZTH_FILE = "zth.csv"
 
 
 # --------------------------------------------------------------------------- tables
@@ -283,6 +284,9 @@ def read_part(folder: str | Path) -> Part:
             )
 
     curves = read_soa_curves(folder / SOA_FILE, kind=kind, ratings=ratings)
+    zth_time = zth_value = np.zeros(0)
+    if (folder / ZTH_FILE).exists():
+        zth_time, zth_value = read_zth(folder / ZTH_FILE)
     return Part(
         id=part_id,
         kind=kind,
@@ -294,6 +298,8 @@ def read_part(folder: str | Path) -> Part:
         breakdown_fraction=sb_fraction,
         foster_r_k_per_w=foster_r,
         foster_tau_s=foster_tau,
+        zth_time_s=zth_time,
+        zth_k_per_w=zth_value,
         folder=folder,
     )
 
@@ -378,24 +384,60 @@ def read_soa_curves(path: Path, *, kind: str, ratings: Ratings) -> tuple[SoaCurv
     return tuple(curves)
 
 
+def read_zth(path: Path) -> tuple[np.ndarray, np.ndarray]:
+    """Read a digitized single-pulse thermal impedance curve: columns ``time,zth`` in s and K/W.
+
+    Times must rise from row to row and the impedance must not fall with time (heat only
+    spreads further); both must be above zero.
+    """
+    table = read_table(path, numeric=("time", "zth"), positive=("time", "zth"))
+    t = table.frame["time"].to_numpy()
+    z = table.frame["zth"].to_numpy()
+    if t.size < 2:
+        raise SoacheckError(f"{path}: a Zth curve needs at least two points")
+    step = np.flatnonzero(np.diff(t) <= 0)
+    if step.size:
+        k = int(step[0]) + 1
+        raise SoacheckError(
+            f"{table.where(k)}: time {t[k]:g} s does not rise after {t[k - 1]:g} s; list times from short to long"
+        )
+    fall = np.flatnonzero(np.diff(z) < 0)
+    if fall.size:
+        k = int(fall[0]) + 1
+        raise SoacheckError(
+            f"{table.where(k)}: zth falls from {z[k - 1]:g} to {z[k]:g} K/W; a single-pulse Zth curve never "
+            "falls with time (check for a misread decade)"
+        )
+    return t, z
+
+
 # --------------------------------------------------------------------------- operating points
 
 
 def read_points(path: str | Path) -> Table:
-    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse``.
+    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse,duty``.
 
     Voltage and current must be above zero (they go on log axes); ``case_temp`` is in °C;
-    ``pulse`` is ``dc`` or a width such as ``1ms``. The frame gains a column ``pulse_s``
+    ``pulse`` is ``dc`` or a width such as ``1ms``; ``duty`` is the duty cycle of a pulse
+    train in (0, 1], or 0 for a single pulse. The frame gains a column ``pulse_s``
     (seconds, ``inf`` for DC) when ``pulse`` is present.
     """
     table = read_table(
         path,
-        numeric=("voltage", "current", "case_temp"),
+        numeric=("voltage", "current", "case_temp", "duty"),
         text=("pulse",),
-        optional=("case_temp", "pulse"),
+        optional=("case_temp", "pulse", "duty"),
         positive=("voltage", "current"),
     )
     frame = table.frame
     if "pulse" in frame:
         frame["pulse_s"] = [parse_duration(p, where=f"{table.where(i)}: pulse") for i, p in enumerate(frame["pulse"])]
+    if "duty" in frame:
+        bad = np.flatnonzero((frame["duty"] < 0) | (frame["duty"] > 1))
+        if bad.size:
+            row = int(bad[0])
+            raise SoacheckError(
+                f"{table.where(row)}: duty {frame['duty'].iloc[row]:g} is outside 0 to 1; write the duty cycle "
+                "tp/T as a fraction (0.1 for 10 %), or 0 for a single pulse"
+            )
     return table

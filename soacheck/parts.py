@@ -96,7 +96,9 @@ class Part:
         Optional table derating second breakdown (bipolar) or linear-mode instability
         (FET, IGBT) with case temperature, shape ``(k,)``; empty when the part has none. [°C], [1]
     foster_r_k_per_w, foster_tau_s
-        Optional Foster terms of the junction-to-case thermal impedance, shape ``(m,)``.
+        Optional Foster terms of the junction-to-case thermal impedance, shape ``(m,)``. [K/W], [s]
+    zth_time_s, zth_k_per_w
+        Optional digitized single-pulse Zth curve (``zth.csv``), shape ``(k,)``. [s], [K/W]
     folder
         Where the part was read from, or None.
     """
@@ -111,6 +113,8 @@ class Part:
     breakdown_fraction: np.ndarray = field(default_factory=lambda: np.zeros(0))
     foster_r_k_per_w: np.ndarray = field(default_factory=lambda: np.zeros(0))
     foster_tau_s: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    zth_time_s: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    zth_k_per_w: np.ndarray = field(default_factory=lambda: np.zeros(0))
     folder: Path | None = None
 
     @property

@@ -32,6 +32,7 @@ import pandas as pd
 import shapely
 
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
+from soacheck.thermal import thermal_model
 from soacheck.units import DC, format_duration
 
 Mechanism = Literal["on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified"]
@@ -240,6 +241,55 @@ def breakdown_policy_note(part: Part, policy: BreakdownDerating) -> str:
 
 
 @dataclass(frozen=True, eq=False)
+class PulseLines:
+    """The mechanism lines that bound the SOA for one pulse condition, before derating.
+
+    Attributes
+    ----------
+    lines
+        Mechanism lines at 25 °C case, the rated current cap among them.
+    curve
+        The digitized curve the non-thermal lines come from.
+    modelled
+        True when the thermal line comes from the part's thermal model,
+        P = (tj_max − 25 °C)/Zth(tp, D), instead of the digitized curve.
+    """
+
+    lines: tuple[MechanismLine, ...]
+    curve: SoaCurve
+    modelled: bool
+
+
+def pulse_lines(part: Part, *, pulse_s: float = DC, duty: float = 0.0, use_model: bool = True) -> PulseLines:
+    """Mechanism lines for a single pulse (``duty`` 0), a pulse train, or DC.
+
+    Without a thermal model the digitized curve is used: the next longer width, and DC
+    for a repetitive train (conservative: a single-pulse curve is not safe for a train).
+    With a model (``[thermal]`` terms or ``zth.csv``) and a finite pulse, the thermal line
+    is P = (tj_max − 25 °C)/Zth(tp, D), later derated to (tj_max − Tc)/Zth(tp, D); second
+    breakdown, instability and the on-resistance line still come from the next longer
+    digitized curve; the current limit is ``i_pulse_max`` where given (for widths up to the
+    longest pulse curve).
+    """
+    continuous = math.isinf(pulse_s) or duty >= 1.0
+    model = thermal_model(part) if use_model and not continuous else None
+    if model is None:
+        curve = part.dc_curve if continuous or duty > 0 else part.curve_for(pulse_s)
+        return PulseLines(mechanism_lines(part, curve), curve, False)
+    curve = part.curve_for(pulse_s)
+    rated = part.ratings.i_pulse_max_a if not curve.is_dc else None
+    kept = [
+        line
+        for line in mechanism_lines(part, curve)[:-1]
+        if line.mechanism != "thermal" and not (rated and line.mechanism == "current")
+    ]
+    log_p = math.log((part.ratings.tj_max_c - REFERENCE_CASE_C) / float(model.pulse_zth(pulse_s, duty)))
+    thermal = MechanismLine("thermal", np.array([0.0, 1.0]), np.array([log_p, log_p - 1.0]))
+    cap = MechanismLine("current", np.array([0.0]), np.array([math.log(rated or current_cap_a(part, curve))]))
+    return PulseLines((*kept, thermal, cap), curve, True)
+
+
+@dataclass(frozen=True, eq=False)
 class Allowed:
     """The derated boundary evaluated at given voltages.
 
@@ -254,6 +304,8 @@ class Allowed:
         The mechanism that sets ``current_a`` (see :data:`Limit`).
     curve_pulse_s
         Pulse width of the digitized curve used. [s]
+    modelled
+        True where the thermal limit came from the part's thermal model.
     below_data, above_data
         True where the voltage lies below the curve's lowest digitized voltage, or between
         its highest digitized voltage and ``v_max``: the end segment was extended.
@@ -262,6 +314,7 @@ class Allowed:
     current_a: np.ndarray
     limit: np.ndarray
     curve_pulse_s: np.ndarray
+    modelled: np.ndarray
     below_data: np.ndarray
     above_data: np.ndarray
 
@@ -291,9 +344,11 @@ def allowed_current(
     *,
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
+    duty: np.ndarray | float = 0.0,
     policy: BreakdownDerating = "auto",
+    use_model: bool = True,
 ) -> Allowed:
-    """Highest current the part may carry at each voltage, case temperature and pulse width.
+    """Highest current the part may carry at each voltage, case temperature and pulse condition.
 
     Parameters
     ----------
@@ -304,11 +359,15 @@ def allowed_current(
     tc_c
         Case temperature, broadcast against ``voltage_v``. [°C]
     pulse_s
-        Single-pulse width, ``inf`` for DC, broadcast against ``voltage_v``. A width
-        between two digitized widths uses the longer curve; shorter than the shortest
-        uses the shortest. [s]
+        Pulse width, ``inf`` for DC, broadcast against ``voltage_v``. Without a thermal
+        model a width between two digitized widths uses the longer curve, and one shorter
+        than the shortest uses the shortest. [s]
+    duty
+        Duty cycle of a periodic pulse train, 0 for a single pulse, broadcast. [1]
     policy
         Derating of second breakdown or instability, see :data:`BreakdownDerating`.
+    use_model
+        Use the part's thermal model for the thermal limit of pulses (see :func:`pulse_lines`).
 
     Returns
     -------
@@ -322,41 +381,49 @@ def allowed_current(
     Below the lowest digitized voltage the first segment extends, capped by the rated
     current; above ``v_max`` nothing is allowed (limit ``voltage``); at or above
     ``tj_max`` nothing is allowed (limit ``temperature``). A non-finite or non-positive
-    voltage, or a non-finite case temperature or pulse, gives NaN with limit ``invalid``.
+    voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], gives
+    NaN with limit ``invalid``.
     """
-    v, tc, tp = (
-        np.ravel(a)
-        for a in np.broadcast_arrays(
-            np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float), np.asarray(pulse_s, dtype=float)
-        )
+    v, tc, tp, d = (
+        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty)
     )
     n = v.size
     allowed = np.full(n, np.nan)
     limit = np.full(n, "invalid", dtype=object)
     curve_pulse = np.full(n, np.nan)
+    modelled = np.zeros(n, dtype=bool)
     below = np.zeros(n, dtype=bool)
     above = np.zeros(n, dtype=bool)
 
-    valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & ~np.isnan(tp) & (tp > 0)
-    which_curve = part.curve_index(np.where(valid, tp, math.inf))
+    valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & (tp > 0) & (d >= 0) & (d <= 1)
+    # group the points by the pulse condition that decides their lines: a width and duty
+    # where the thermal model applies, else just the digitized curve that will be used
+    model_applies = use_model and thermal_model(part) is not None
+    continuous = np.isinf(tp) | (d >= 1)
+    by_model = model_applies & ~continuous
+    by_curve = np.where(continuous | (d > 0), DC, part.pulse_widths_s[part.curve_index(np.where(valid, tp, DC))])
+    keys = np.column_stack([np.where(by_model, tp, by_curve), np.where(by_model, d, 0.0)])
     with np.errstate(divide="ignore", invalid="ignore"):
         log_v = np.log(np.where(valid, v, 1.0))
-    for index in np.unique(which_curve[valid]):
-        curve = part.curves[index]
-        sel = valid & (which_curve == index)
-        lines = mechanism_lines(part, curve)
-        log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, lines, policy))
-        allowed[sel] = np.exp(log_i)
-        limit[sel] = np.array([line.mechanism for line in lines], dtype=object)[which]
-        curve_pulse[sel] = curve.pulse_s
-        below[sel] = v[sel] < curve.voltage_v[0] * (1 - 1e-9)
-        above[sel] = v[sel] > curve.voltage_v[-1] * (1 + 1e-9)
+    if valid.any():
+        conditions, group = np.unique(keys[valid], axis=0, return_inverse=True)
+        rows = np.flatnonzero(valid)
+        for k, (width, train) in enumerate(conditions):
+            sel = rows[group.ravel() == k]
+            bound = pulse_lines(part, pulse_s=width, duty=train, use_model=use_model)
+            log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, bound.lines, policy))
+            allowed[sel] = np.exp(log_i)
+            limit[sel] = np.array([line.mechanism for line in bound.lines], dtype=object)[which]
+            curve_pulse[sel] = bound.curve.pulse_s
+            modelled[sel] = bound.modelled
+            below[sel] = v[sel] < bound.curve.voltage_v[0] * (1 - 1e-9)
+            above[sel] = v[sel] > bound.curve.voltage_v[-1] * (1 + 1e-9)
 
     too_hot = valid & (tc >= part.ratings.tj_max_c)
     allowed[too_hot], limit[too_hot] = 0.0, "temperature"
     over_v = valid & (v > part.ratings.v_max_v)
     allowed[over_v], limit[over_v], above[over_v] = 0.0, "voltage", False
-    return Allowed(allowed, limit.astype(str), curve_pulse, below, above)
+    return Allowed(allowed, limit.astype(str), curve_pulse, modelled, below, above)
 
 
 @dataclass(frozen=True, eq=False)
@@ -386,7 +453,9 @@ def boundary_polyline(
     *,
     tc_c: float = REFERENCE_CASE_C,
     pulse_s: float = DC,
+    duty: float = 0.0,
     policy: BreakdownDerating = "auto",
+    use_model: bool = True,
     v_min_v: float | None = None,
 ) -> BoundaryPolyline:
     """Exact vertices of the derated boundary, for plots and polygons.
@@ -396,9 +465,9 @@ def boundary_polyline(
     polyline agrees with :func:`allowed_current` everywhere between ``v_min_v`` (default:
     a decade below the lowest digitized voltage) and ``v_max``.
     """
-    curve = part.curve_for(pulse_s)
-    lines = mechanism_lines(part, curve)
-    v_lo = v_min_v if v_min_v is not None else curve.voltage_v[0] / 10
+    bound = pulse_lines(part, pulse_s=pulse_s, duty=duty, use_model=use_model)
+    lines = bound.lines
+    v_lo = v_min_v if v_min_v is not None else bound.curve.voltage_v[0] / 10
     x_lo, x_hi = math.log(v_lo), math.log(part.ratings.v_max_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
@@ -429,7 +498,9 @@ def region_polygon(
     *,
     tc_c: float = REFERENCE_CASE_C,
     pulse_s: float = DC,
+    duty: float = 0.0,
     policy: BreakdownDerating = "auto",
+    use_model: bool = True,
     v_min_v: float | None = None,
     i_floor_a: float | None = None,
 ) -> shapely.Polygon:
@@ -439,7 +510,9 @@ def region_polygon(
     ``i_floor_a`` (default: a thousandth of the lowest boundary current). Distances in
     these coordinates are in decades. Empty at or above ``tj_max``.
     """
-    poly = boundary_polyline(part, tc_c=tc_c, pulse_s=pulse_s, policy=policy, v_min_v=v_min_v)
+    poly = boundary_polyline(
+        part, tc_c=tc_c, pulse_s=pulse_s, duty=duty, policy=policy, use_model=use_model, v_min_v=v_min_v
+    )
     if poly.is_empty:
         return shapely.Polygon()
     floor = i_floor_a if i_floor_a is not None else poly.current_a.min() / 1000
@@ -477,6 +550,7 @@ class PointCheck:
     current_a: np.ndarray
     tc_c: np.ndarray
     pulse_s: np.ndarray
+    duty: np.ndarray
     allowed_current_a: np.ndarray
     margin: np.ndarray
     inside: np.ndarray
@@ -501,6 +575,7 @@ class PointCheck:
                 "current": self.current_a,
                 "case_temp": self.tc_c,
                 "pulse": [format_duration(t) for t in self.pulse_s],
+                "duty": self.duty,
                 "inside": self.inside,
                 "allowed_current": self.allowed_current_a,
                 "margin": self.margin,
@@ -518,6 +593,7 @@ def check_points(
     *,
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
+    duty: np.ndarray | float = 0.0,
     policy: BreakdownDerating = "auto",
 ) -> PointCheck:
     """Check operating points against the part's SOA derated at their case temperatures.
@@ -531,7 +607,9 @@ def check_points(
     tc_c
         Case temperature of each point. [°C]
     pulse_s
-        Single-pulse width of each point, ``inf`` for DC. [s]
+        Pulse width of each point, ``inf`` for DC. [s]
+    duty
+        Duty cycle of each point's pulse train, 0 for a single pulse. [1]
     policy
         Derating of second breakdown or instability.
 
@@ -540,8 +618,10 @@ def check_points(
     PointCheck
         Per-point verdicts with the assumptions made, in words.
     """
-    v, i, tc, tp = (np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s))
-    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, policy=policy)
+    v, i, tc, tp, d = (
+        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty)
+    )
+    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
     evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
     inside = evaluated & (i <= result.current_a)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -553,17 +633,52 @@ def check_points(
         current_a=i,
         tc_c=tc,
         pulse_s=tp,
+        duty=d,
         allowed_current_a=result.current_a,
         margin=margin,
         inside=inside,
         limit=limit,
         curve_pulse_s=result.curve_pulse_s,
         extrapolated=result.extrapolated,
-        assumptions=_assumptions(part, v, tc, tp, result, policy),
+        assumptions=_assumptions(part, tc, tp, d, result, policy),
     )
 
 
-def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, result: Allowed, policy) -> tuple[str, ...]:
+def model_consistency(part: Part, *, tolerance: float = 0.10) -> list[str]:
+    """Where a part's thermal model and its other data disagree, in words (lint-level).
+
+    Checks Σ R against ``rth_jc`` (within 5 %) and, for each digitized pulse curve, the
+    power of its constant-power segment against (tj_max − 25 °C)/Zth(tp) from the model
+    (within ``tolerance``: digitizing error of ±2 % per coordinate gives ±4 % in power,
+    and a single-pulse curve read off a small plot is rarely better than ±10 %; common
+    practice, no source).
+    """
+    model = thermal_model(part)
+    if model is None:
+        return []
+    found = []
+    rth = part.ratings.rth_jc_k_per_w
+    if abs(model.foster.rth_k_per_w - rth) > 0.05 * rth:
+        found.append(
+            f"thermal model: Zth(∞) = Σ R = {model.foster.rth_k_per_w:.4g} K/W differs from rth_jc = {rth:g} K/W"
+        )
+    for curve in part.curves[:-1]:
+        thermal = [line for line in mechanism_lines(part, curve) if line.mechanism == "thermal"]
+        if not thermal:
+            continue
+        digitized_w = float(np.exp(np.mean(np.concatenate([line.log_v + line.log_i for line in thermal]))))
+        model_w = (part.ratings.tj_max_c - REFERENCE_CASE_C) / float(model.pulse_zth(curve.pulse_s))
+        if abs(digitized_w / model_w - 1) > tolerance:
+            found.append(
+                f"curve '{curve.label}': its constant-power segment is {digitized_w:.4g} W but the thermal model "
+                f"gives {model_w:.4g} W (check the Zth data or the digitized curve)"
+            )
+    return found
+
+
+def _assumptions(
+    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, policy: BreakdownDerating
+) -> tuple[str, ...]:
     notes = [
         f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
         f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
@@ -571,18 +686,32 @@ def _assumptions(part: Part, v: np.ndarray, tc: np.ndarray, tp: np.ndarray, resu
         breakdown_policy_note(part, policy),
     ]
     shortest = part.pulse_widths_s[0]
-    for asked, used in sorted(set(zip(tp.tolist(), result.curve_pulse_s.tolist(), strict=True))):
-        if math.isnan(used) or asked == used:
+    conditions = zip(tp.tolist(), d.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True)
+    for asked, duty, used, modelled in sorted(set(conditions)):
+        if math.isnan(used) or (math.isinf(asked) and duty == 0):
             continue
-        if asked < shortest:
+        label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")
+        if modelled:
+            model = thermal_model(part)
+            form = "Zth(tp, D), exact periodic steady state" if duty > 0 else "Zth(tp), single pulse"
+            notes.append(
+                f"{label}: thermal limit (tj_max − Tc)/{form}, from the {model.origin}; other limits from the "
+                f"{format_duration(used)} curve (the next longer digitized width; conservative)"
+            )
+            continue
+        if asked == used:
+            continue
+        if duty > 0:
+            why = "a repetitive train without a thermal model; single-pulse curves would not be safe"
+        elif asked < shortest:
             why = "shorter than every digitized curve, so the shortest is used"
         elif math.isinf(used):
             why = "longer than every pulse curve, so DC is used"
         else:
             why = "between digitized widths, so the next longer is used"
-        notes.append(
-            f"{format_duration(asked)} pulse checked against the {format_duration(used)} curve ({why}; conservative)"
-        )
+        notes.append(f"{label} checked against the {format_duration(used)} curve ({why}; conservative)")
+    if result.modelled.any():
+        notes.extend(f"warning: {finding}" for finding in model_consistency(part))
     low = result.below_data
     if low.any():
         notes.append(
