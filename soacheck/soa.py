@@ -384,9 +384,7 @@ def allowed_current(
     voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], gives
     NaN with limit ``invalid``.
     """
-    v, tc, tp, d = (
-        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty)
-    )
+    v, tc, tp, d = (np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty))
     n = v.size
     allowed = np.full(n, np.nan)
     limit = np.full(n, "invalid", dtype=object)

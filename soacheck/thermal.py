@@ -478,7 +478,7 @@ def _branch_uniform(p: np.ndarray, dt: float, r: float, tau: float, theta0: floa
     a = math.exp(-dt / tau)
     b = r * (1.0 - a)
     # y[k] = a y[k-1] + b x[k-1]  <=>  lfilter([0, b], [1, -a])
-    y, _ = scipy.signal.lfilter([0.0, b], [1.0, -a], p, zi=[a * theta0])
+    y, _ = scipy.signal.lfilter([0.0, b], [1.0, -a], p, zi=[theta0])
     return y
 
 
