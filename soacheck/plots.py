@@ -17,6 +17,7 @@ from matplotlib.lines import Line2D
 
 from soacheck.parts import Part
 from soacheck.soa import BreakdownDerating, PointCheck, boundary_polyline, mechanism_lines
+from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration
 
 MECHANISM_STYLE: dict[str, dict] = {
@@ -145,3 +146,39 @@ def plot_soa(
     ax.set_title(f"{part.id}: SOA at 25 °C case (solid), derated (dashed)", fontsize=10)
     ax.grid(True, which="both", lw=0.3, alpha=0.6)
     return ax
+
+
+def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "auto") -> Figure:
+    """Two panels: the trajectory on the part's SOA coloured by time, and Tj(t) with the margin.
+
+    The SOA panel shows the digitized curves and the DC boundary derated at the lowest
+    and the highest case temperature seen. Traces are thinned to about 20 000 samples
+    for drawing; the check itself used every sample.
+    """
+    fig = Figure(figsize=(13, 5.5), layout="constrained")
+    ax_soa, ax_time = fig.subplots(1, 2, width_ratios=[1.1, 1])
+    data = result.plot
+    plot_soa(part, case_temps_c=sorted({float(data["case_temp"].min()), result.tc_peak_c}), policy=policy, ax=ax_soa)
+    shown = data["current"] > 0
+    dots = ax_soa.scatter(
+        data["voltage"][shown], data["current"][shown], c=data["time"][shown], cmap="viridis", s=6, zorder=5
+    )
+    fig.colorbar(dots, ax=ax_soa, label="time [s]")
+    ax_soa.set_title(f"{part.id}: trajectory ({result.verdict})", fontsize=10)
+    if "tj" in data:
+        ax_time.plot(data["time"], data["tj"], color="#d1495b", lw=1.2, label="junction Tj")
+    ax_time.plot(data["time"], data["case_temp"], color="#e08214", lw=1.0, label="case Tc")
+    ax_time.axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
+    ax_time.set_xlabel("time [s]")
+    ax_time.set_ylabel("temperature [°C]")
+    margin_ax = ax_time.twinx()
+    margin_ax.plot(
+        data["time"], np.clip(data["margin"], -1, 1), color="#1f5fa8", lw=0.8, alpha=0.8, label="margin to DC boundary"
+    )
+    margin_ax.axhline(0, color="#1f5fa8", lw=0.5)
+    margin_ax.set_ylim(-1.05, 1.05)
+    margin_ax.set_ylabel("margin  1 − I/I_allowed (DC boundary)")
+    handles = ax_time.get_legend_handles_labels()[0] + margin_ax.get_legend_handles_labels()[0]
+    ax_time.legend(handles=handles, fontsize=8, loc="lower right")
+    ax_time.grid(True, lw=0.3, alpha=0.6)
+    return fig

@@ -445,6 +445,23 @@ class BoundaryPolyline:
     def is_empty(self) -> bool:
         return not np.any(self.current_a > 0)
 
+    def current_at(self, voltage_v: np.ndarray) -> np.ndarray:
+        """Allowed current at voltages of any shape: straight between vertices on log-log axes,
+        the end pieces extended below the first vertex, nothing above the last. [A]
+
+        One ``log``, one ``interp`` and one ``exp`` per point: the fast path for many
+        points at one case temperature.
+        """
+        x = np.log(self.voltage_v)
+        with np.errstate(divide="ignore"):
+            y = np.log(self.current_a)
+            v = np.asarray(voltage_v, dtype=float)
+            lv = np.log(np.maximum(v, self.voltage_v[0] * 1e-12))
+        slope = (y[1] - y[0]) / (x[1] - x[0]) if x.size > 1 and np.isfinite(y[:2]).all() else 0.0
+        inner = np.interp(lv, x, y)
+        out = np.exp(np.where(lv < x[0], y[0] + slope * (lv - x[0]), inner))
+        return np.where(v > self.voltage_v[-1] * (1 + 1e-12), 0.0, out)
+
 
 def boundary_polyline(
     part: Part,
@@ -464,9 +481,20 @@ def boundary_polyline(
     a decade below the lowest digitized voltage) and ``v_max``.
     """
     bound = pulse_lines(part, pulse_s=pulse_s, duty=duty, use_model=use_model)
-    lines = bound.lines
     v_lo = v_min_v if v_min_v is not None else bound.curve.voltage_v[0] / 10
-    x_lo, x_hi = math.log(v_lo), math.log(part.ratings.v_max_v)
+    return envelope_polyline(part, bound.lines, tc_c=tc_c, policy=policy, v_min_v=v_lo)
+
+
+def envelope_polyline(
+    part: Part,
+    lines: tuple[MechanismLine, ...],
+    *,
+    tc_c: float,
+    policy: BreakdownDerating = "auto",
+    v_min_v: float,
+) -> BoundaryPolyline:
+    """Exact vertices of the lower envelope of derated ``lines`` from ``v_min_v`` to ``v_max``."""
+    x_lo, x_hi = math.log(v_min_v), math.log(part.ratings.v_max_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
     y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, policy)
@@ -489,6 +517,23 @@ def boundary_polyline(
     slope = np.diff(log_i) / np.diff(x)
     keep = np.r_[True, (np.abs(np.diff(slope)) > 1e-9) | (mechanisms[1:-1] != mechanisms[:-2]), True]
     return BoundaryPolyline(np.exp(x[keep]), np.exp(log_i[keep]), mechanisms[keep])
+
+
+def evaluate_lines(
+    voltage_v: np.ndarray,
+    part: Part,
+    lines: tuple[MechanismLine, ...],
+    *,
+    tc_c: np.ndarray | float,
+    policy: BreakdownDerating = "auto",
+) -> tuple[np.ndarray, np.ndarray]:
+    """Allowed current [A] and bounding mechanism of derated ``lines`` at voltages above zero.
+
+    The voltage and case-temperature limits are not applied here; see :func:`allowed_current`.
+    """
+    v, tc = np.broadcast_arrays(np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float))
+    log_i, which = _lower_envelope(_derated_lines(np.log(v), tc, part, lines, policy))
+    return np.exp(log_i), np.array([line.mechanism for line in lines])[which]
 
 
 def region_polygon(
