@@ -7,6 +7,7 @@ exit code 2; that happens in one place, :func:`_user_errors`.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import json
 import math
@@ -410,9 +411,10 @@ def trace(
     checker = TraceChecker(
         loaded, tc_c=None if cooling else (25.0 if case_temp is None else case_temp), cooling=cooling, policy=policy
     )
-    with Progress(console=Console(stderr=True), transient=True, disable=as_json) as progress:
+    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
+    with progress, contextlib.closing(iter_trace(file, chunk_rows=chunk_rows)) as chunks:
         task = progress.add_task(f"checking {file.name}: samples", total=None)
-        for t, v, i, first_row in iter_trace(file, chunk_rows=chunk_rows):
+        for t, v, i, first_row in chunks:
             try:
                 checker.feed(t, v, i)
             except SoacheckError as err:

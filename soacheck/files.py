@@ -7,6 +7,7 @@ or key, and the fix. Nothing here writes.
 
 from __future__ import annotations
 
+import contextlib
 import math
 import re
 import tomllib
@@ -461,6 +462,11 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
         chunks = _parquet_chunks(path, chunk_rows)
     else:
         chunks = _csv_chunks(path, chunk_rows)
+    with contextlib.closing(chunks):
+        yield from _checked_chunks(path, chunks)
+
+
+def _checked_chunks(path: Path, chunks):
     last_t = None
     first_row = 0
     for frame in chunks:
@@ -507,21 +513,24 @@ def _csv_chunks(path: Path, chunk_rows: int):
         if name not in names:
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
     decimal = "," if sep == ";" else "."
-    reader = pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig")
     offset = 0
-    for raw in reader:
-        raw.columns = [c.strip().lower() for c in raw.columns]
-        frame = raw.apply(pd.to_numeric, errors="coerce") if any(raw[c].dtype == object for c in raw) else raw
-        for name in TRACE_COLUMNS:
-            bad = np.flatnonzero(frame[name].isna().to_numpy() & raw[name].notna().to_numpy())
-            if bad.size:
-                k = int(bad[0])
-                raise SoacheckError(
-                    f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; "
-                    "write a plain number"
-                )
-        offset += len(frame)
-        yield frame
+    with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
+        for raw in reader:
+            raw.columns = [c.strip().lower() for c in raw.columns]
+            frame = raw.copy()
+            for name in TRACE_COLUMNS:
+                if pd.api.types.is_numeric_dtype(raw[name]):
+                    continue
+                frame[name] = pd.to_numeric(raw[name], errors="coerce")
+                bad = np.flatnonzero(frame[name].isna().to_numpy() & raw[name].notna().to_numpy())
+                if bad.size:
+                    k = int(bad[0])
+                    raise SoacheckError(
+                        f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; "
+                        "write a plain number"
+                    )
+            offset += len(frame)
+            yield frame
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):

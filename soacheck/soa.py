@@ -446,21 +446,28 @@ class BoundaryPolyline:
         return not np.any(self.current_a > 0)
 
     def current_at(self, voltage_v: np.ndarray) -> np.ndarray:
-        """Allowed current at voltages of any shape: straight between vertices on log-log axes,
-        the end pieces extended below the first vertex, nothing above the last. [A]
+        """Allowed current at voltages of any shape. [A] See :meth:`log_current_at`."""
+        return np.exp(self.log_current_at(voltage_v))
 
-        One ``log``, one ``interp`` and one ``exp`` per point: the fast path for many
-        points at one case temperature.
+    def log_current_at(self, voltage_v: np.ndarray) -> np.ndarray:
+        """ln of the allowed current at voltages of any shape: straight between vertices on
+        log-log axes, the first piece extended below the first vertex, −inf above the last.
+
+        One ``log`` and one ``interp`` per point: the fast path for many points at one case
+        temperature.
         """
         x = np.log(self.voltage_v)
         with np.errstate(divide="ignore"):
             y = np.log(self.current_a)
-            v = np.asarray(voltage_v, dtype=float)
-            lv = np.log(np.maximum(v, self.voltage_v[0] * 1e-12))
+            lv = np.log(voltage_v)
         slope = (y[1] - y[0]) / (x[1] - x[0]) if x.size > 1 and np.isfinite(y[:2]).all() else 0.0
-        inner = np.interp(lv, x, y)
-        out = np.exp(np.where(lv < x[0], y[0] + slope * (lv - x[0]), inner))
-        return np.where(v > self.voltage_v[-1] * (1 + 1e-12), 0.0, out)
+        # extend the first piece to the left by one far vertex, so that interp does it all
+        x_far = x[0] - 1000.0
+        out = np.interp(lv, np.r_[x_far, x], np.r_[y[0] - 1000.0 * slope, y], right=-np.inf)
+        if np.size(lv) and np.min(lv) < x_far:  # below 1e-434 V, or at 0 V: the far left end
+            left = y[0] if slope == 0 else y[0] + slope * (lv - x[0])
+            out = np.where(lv < x_far, left, out)
+        return out
 
 
 def boundary_polyline(

@@ -226,16 +226,28 @@ class TraceChecker:
 
     # ----------------------------------------------------------------- evaluation
 
-    def _allowed(self, index: int, v: np.ndarray, tc: np.ndarray) -> np.ndarray:
+    def _excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
+        """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
+
+        The margin is 1 − exp(excess); working in logs saves a pass over every sample.
+        """
         if self.polylines is not None:
-            return self.polylines[index].current_at(v)
-        allowed, _ = evaluate_lines(np.maximum(v, 1e-9), self.part, self.lines[index], tc_c=tc, policy=self.policy)
-        return np.where((v > self.part.ratings.v_max_v) | (tc >= self.part.ratings.tj_max_c), 0.0, allowed)
+            log_allowed = self.polylines[index].log_current_at(v)
+        else:
+            allowed, _ = evaluate_lines(
+                np.maximum(v, 1e-300), self.part, self.lines[index], tc_c=tc, policy=self.policy
+            )
+            blocked = (v > self.part.ratings.v_max_v) | (tc >= self.part.ratings.tj_max_c)
+            with np.errstate(divide="ignore"):
+                log_allowed = np.where(blocked, -np.inf, np.log(allowed))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            excess = np.log(i) - log_allowed
+        return excess  # NaN only for zero current where nothing is allowed: compares as inside
 
     @staticmethod
-    def _margin(i: np.ndarray, allowed: np.ndarray) -> np.ndarray:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(i <= 0, 1.0, np.where(allowed > 0, 1.0 - i / allowed, -np.inf))
+    def _margin(excess: np.ndarray) -> np.ndarray:
+        margin = -np.expm1(excess)
+        return np.where(np.isnan(margin), 1.0, margin)
 
     # ----------------------------------------------------------------- feeding
 
@@ -252,92 +264,135 @@ class TraceChecker:
             self.first_t = float(t[0])
         p = v * i
         before = {} if self.last_t is None else {"p_before_w": self.last_p, "t_before_s": self.last_t}
+        tc = None
         if self.case is not None:
             rise_c, self.state_c = temperature_rise(t, p, self.case, state=self.state_c, **before)
             tc = self.reference_c + rise_c
+            self.tc_peak = max(self.tc_peak, float(tc.max()))
         else:
-            tc = np.full(t.size, self.reference_c)
+            self.tc_peak = self.reference_c
+        rise_j = None
         if self.junction is not None:
             rise_j, self.state_j = temperature_rise(t, p, self.junction, state=self.state_j, **before)
-            tj = self.reference_c + rise_j
-            self._temperature(t, tj)
-        else:
-            tj = None
-        self.tc_peak = max(self.tc_peak, float(tc.max()))
+            self._temperature(t, rise_j)
 
-        margin_dc = self._margin(i, self._allowed(self.dc, v, tc))
-        outside = margin_dc < 0
-        inside = ~outside
-        if inside.any():
-            k = int(np.argmin(np.where(inside, margin_dc, np.inf)))
-            self.worst.margin_candidate(float(margin_dc[k]), float(t[k]))
-        self._excursions(t, v, i, tc, outside, margin_dc)
-        self._keep_for_plot(t, v, i, tc, tj, margin_dc)
+        excess = self._excess(self.dc, v, i, tc)
+        outside = excess > 0
+        if self.open is not None and not outside[0]:  # the open excursion ended at this chunk's first sample
+            self._close(self.open, float(t[0]))
+            self.open = None
+        if outside.any():
+            worst_inside = np.fmax.reduce(excess, where=~outside, initial=-np.inf)
+            k = int(np.argmax(np.where(outside, -np.inf, excess))) if np.isfinite(worst_inside) else 0
+            self._excursions(t, v, i, tc, outside, excess)
+        else:
+            worst_inside = np.fmax.reduce(excess)
+            k = int(np.argmax(excess)) if np.isfinite(worst_inside) else 0
+        self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
+        self._keep_for_plot(t, v, i, tc, rise_j, excess)
         self.samples += t.size
         self.last_t, self.last_p = float(t[-1]), float(p[-1])
 
-    def _temperature(self, t: np.ndarray, tj: np.ndarray) -> None:
-        k = int(np.argmax(tj))
-        if tj[k] > self.tj_peak:
-            self.tj_peak, self.tj_peak_time = float(tj[k]), float(t[k])
-        over = tj > self.part.ratings.tj_max_c
-        held = np.diff(np.r_[self.last_t if self.last_t is not None else t[0], t])
-        self.time_over += float(np.sum(held * np.r_[self.over_pending, over[:-1]]))
-        self.over_pending = bool(over[-1])
+    def _temperature(self, t: np.ndarray, rise: np.ndarray) -> None:
+        k = int(np.argmax(rise))
+        if self.reference_c + rise[k] > self.tj_peak:
+            self.tj_peak, self.tj_peak_time = float(self.reference_c + rise[k]), float(t[k])
+        over = rise > self.part.ratings.tj_max_c - self.reference_c
+        if self.over_pending:  # the last sample of the previous chunk was over, held until now
+            self.time_over += float(t[0] - self.last_t)
         if over.any():
+            held = np.diff(t, append=t[-1])  # the chunk's last hold is added with the next chunk
+            self.time_over += float(np.sum(held[over]))
             self.worst.violation(float(t[int(np.argmax(over))]), None, "thermal")
+        self.over_pending = bool(over[-1])
 
-    def _excursions(self, t, v, i, tc, outside, margin_dc) -> None:
+    def _excursions(self, t, v, i, tc, outside, excess) -> None:
+        """Reduce each run of samples above the DC boundary per boundary, and judge the runs that ended."""
         n_b = len(self.lines)
-        edges = np.diff(np.r_[0, outside.astype(np.int8), 0])
+        rows = np.flatnonzero(outside)
+        edges = np.diff(outside.astype(np.int8), prepend=np.int8(0), append=np.int8(0))
         starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
-        if self.open is not None and (starts.size == 0 or starts[0] != 0):
-            # the open excursion ended at this chunk's first sample
-            self._close(self.open, float(t[0]))
-            self.open = None
-        if starts.size == 0:
-            return
-        rows = np.concatenate([np.arange(s, e) for s, e in zip(starts, ends, strict=True)])
+        lengths = ends - starts
+        offsets = np.r_[0, np.cumsum(lengths)[:-1]]
+        run_of = np.repeat(np.arange(starts.size), lengths)
         margins = np.empty((n_b, rows.size))
         for b in range(n_b):
-            margins[b] = margin_dc[rows] if b == self.dc else self._margin(i[rows], self._allowed(b, v[rows], tc[rows]))
-        offsets = np.r_[0, np.cumsum(ends - starts)[:-1]]
+            sub = excess[rows] if b == self.dc else self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
+            margins[b] = self._margin(sub)
         t_rows = t[rows]
-        t_next = np.r_[t[1:], np.nan][rows]  # hold until the next sample (unknown past the chunk)
-        hold = t_next - t_rows
+        nxt = rows + 1
+        hold = np.zeros(rows.size)
+        known = nxt < t.size  # the hold of the chunk's last sample is known only with the next chunk
+        hold[known] = t[nxt[known]] - t_rows[known]
         negative = margins < 0
-        min_margin = np.minimum.reduceat(margins, offsets, axis=1)
-        arg_local = [
-            np.argmin(margins[:, o : o + (e - s)], axis=1) for o, s, e in zip(offsets, starts, ends, strict=True)
-        ]
-        neg_time = np.add.reduceat(np.where(negative, np.nan_to_num(hold), 0.0), offsets, axis=1)
-        for r, (s, e) in enumerate(zip(starts.tolist(), ends.tolist(), strict=True)):
-            o = offsets[r]
-            block = slice(o, o + (e - s))
-            first_neg = np.full(n_b, math.inf)
-            first_sample: list = [None] * n_b
-            for b in np.flatnonzero(negative[:, block].any(axis=1)):
-                k = o + int(np.argmax(negative[b, block]))
-                first_neg[b] = t_rows[k]
-                first_sample[b] = (float(v[rows[k]]), float(i[rows[k]]), float(tc[rows[k]]), int(b))
-            run = _OpenRun(
-                start_s=float(t[s]),
-                min_margin=min_margin[:, r],
-                min_time=t_rows[o + arg_local[r]],
-                first_negative_s=first_neg,
-                first_negative_sample=first_sample,
-                negative_s=neg_time[:, r],
-                # the hold of a chunk's last sample is known only when the next chunk comes
-                pending_negative=negative[:, o + (e - s) - 1] if e == t.size else np.zeros(n_b, dtype=bool),
-                last_t=float(t[e - 1]),
+        position = np.arange(rows.size)
+        min_margin = np.minimum.reduceat(margins, offsets, axis=1)  # (boundaries, runs)
+        arg_min = np.stack([np.lexsort((m, run_of))[offsets] for m in margins])
+        first_negative = np.minimum.reduceat(np.where(negative, position, rows.size), offsets, axis=1)
+        negative_s = np.add.reduceat(np.where(negative, hold, 0.0), offsets, axis=1)
+        vit = np.column_stack([v[rows], i[rows], np.full(rows.size, self.reference_c) if tc is None else tc[rows]])
+
+        def run_state(r: int) -> _OpenRun:
+            has_negative = first_negative[:, r] < rows.size
+            k = np.where(has_negative, first_negative[:, r], 0)
+            return _OpenRun(
+                start_s=float(t[starts[r]]),
+                min_margin=min_margin[:, r].copy(),
+                min_time=t_rows[arg_min[:, r]],
+                first_negative_s=np.where(has_negative, t_rows[k], np.inf),
+                first_negative_sample=[(*map(float, vit[k[b]]), b) if has_negative[b] else None for b in range(n_b)],
+                negative_s=negative_s[:, r].copy(),
+                pending_negative=negative[:, offsets[r] + lengths[r] - 1] if ends[r] == t.size else np.zeros(n_b, bool),
+                last_t=float(t[ends[r] - 1]),
             )
-            if s == 0 and self.open is not None:
-                run = self._merge(self.open, run, float(t[0]))
-                self.open = None
-            if e < t.size:
-                self._close(run, float(t[e]))
+
+        closed = np.arange(starts.size)
+        if self.open is not None:  # the first run continues the excursion left open by the last chunk
+            merged = self._merge(self.open, run_state(0), float(t[0]))
+            self.open = None
+            if ends[0] < t.size:
+                self._close(merged, float(t[ends[0]]))
             else:
-                self.open = run
+                self.open = merged
+            closed = closed[1:]
+        if closed.size and ends[closed[-1]] == t.size:
+            self.open = run_state(int(closed[-1]))
+            closed = closed[:-1]
+        if closed.size:
+            self._judge_many(
+                t[ends[closed]] - t[starts[closed]],
+                min_margin[:, closed],
+                t_rows[arg_min[:, closed]],
+                np.where(
+                    first_negative[:, closed] < rows.size,
+                    t_rows[np.minimum(first_negative[:, closed], rows.size - 1)],
+                    np.inf,
+                ),
+                np.minimum(first_negative[:, closed], rows.size - 1),
+                negative_s[:, closed],
+                vit,
+            )
+
+    def _boundary_for(self, duration_s: np.ndarray) -> np.ndarray:
+        """Which boundary judges an excursion of this duration: the next longer pulse curve, or DC."""
+        if self.model is None:
+            return np.full(np.shape(duration_s), self.dc)
+        index = np.searchsorted(self.widths_s, np.asarray(duration_s, dtype=float) * (1 - 1e-9))
+        return np.minimum(index, self.dc)
+
+    def _judge_many(self, duration_s, min_margin, min_time, first_negative_s, first_k, negative_s, vit) -> None:
+        """Judge excursions that ended, all at once; arrays are (boundaries, runs)."""
+        runs = np.arange(duration_s.size)
+        b = self._boundary_for(duration_s)
+        self.excursions += runs.size
+        worst = int(np.argmin(min_margin[b, runs]))
+        self.worst.margin_candidate(float(min_margin[b[worst], worst]), float(min_time[b[worst], worst]))
+        failed = np.isfinite(first_negative_s[b, runs])
+        self.time_outside += float(np.sum(negative_s[b, runs][failed]))
+        if failed.any():
+            first = int(np.argmin(np.where(failed, first_negative_s[b, runs], np.inf)))
+            sample = (*map(float, vit[first_k[b[first], first]]), int(b[first]))
+            self.worst.violation(float(first_negative_s[b[first], first]), sample)
 
     def _merge(self, a: _OpenRun, b: _OpenRun, t_join: float) -> _OpenRun:
         take_b = b.min_margin < a.min_margin
@@ -363,19 +418,17 @@ class TraceChecker:
 
     def _judge(self, run: _OpenRun, duration_s: float) -> None:
         self.excursions += 1
-        if self.model is None or not math.isfinite(duration_s):
-            b = self.dc
-        else:
-            b = int(min(np.searchsorted(self.widths_s, duration_s * (1 - 1e-9)), self.dc))
+        b = int(self._boundary_for(duration_s))
         self.worst.margin_candidate(float(run.min_margin[b]), float(run.min_time[b]))
         if math.isfinite(run.first_negative_s[b]):
             self.time_outside += float(run.negative_s[b])
             self.worst.violation(float(run.first_negative_s[b]), run.first_negative_sample[b])
 
-    def _keep_for_plot(self, t, v, i, tc, tj, margin) -> None:
-        stride = max(1, t.size // max(1, self.plot_points // 10))
-        keep = slice(None, None, stride)
-        self.kept.append((t[keep], v[keep], i[keep], tc[keep], tj[keep] if tj is not None else None, margin[keep]))
+    def _keep_for_plot(self, t, v, i, tc, rise_j, excess) -> None:
+        keep = slice(None, None, max(1, t.size // max(1, self.plot_points // 10)))
+        case = np.full(t[keep].size, self.reference_c) if tc is None else tc[keep]
+        tj = None if rise_j is None else self.reference_c + rise_j[keep]
+        self.kept.append((t[keep], v[keep], i[keep], case, tj, self._margin(excess[keep])))
 
     # ----------------------------------------------------------------- result
 

@@ -344,3 +344,16 @@ def test_every_conservative_choice_is_named_in_the_assumptions(reference_part):
     assert "3ms pulse checked against the dc curve" in text
     assert "100us pulse checked against the 1ms curve" in text
     assert "derated like the thermal limit" in text
+
+
+@settings(max_examples=40, deadline=None)
+@given(index=st.integers(0, 4), tc_c=st.floats(-20, 140), pulse=st.sampled_from([1e-4, 1e-3, 5e-3, math.inf]))
+def test_polyline_fast_path_agrees_with_allowed_current(index, tc_c, pulse):
+    """The exact-vertex polyline (used for long traces) against the general evaluation."""
+    from .conftest import BUNDLED_IDS, bundled_library
+
+    part = read_part(bundled_library() / BUNDLED_IDS[index])
+    poly = boundary_polyline(part, tc_c=tc_c, pulse_s=pulse, v_min_v=1e-3)
+    v = np.geomspace(1e-4, part.ratings.v_max_v * 1.5, 400)
+    expected = allowed_current(v, part, tc_c=tc_c, pulse_s=pulse).current_a
+    assert poly.current_at(v) == pytest.approx(expected, rel=1e-9, abs=1e-300)
