@@ -8,6 +8,7 @@ import pytest
 
 from soacheck.files import read_part
 from soacheck.library import bundled_library, list_parts
+from soacheck.thermal import Foster
 
 # The constructed DC curve of methods.md §1-§2 [con]: current limit 15 A to 8.3333 V,
 # constant power 125 W to 40 V, a second-breakdown line of slope -2 to 100 V.
@@ -48,6 +49,17 @@ def write_part(
     (folder / "part.toml").write_text(text, encoding="utf-8")
     (folder / "soa.csv").write_text(soa, encoding="utf-8")
     return folder
+
+
+# methods.md §3 [con]: a four-term network whose sum, 1.0 K/W, equals the reference part's rth_jc
+FOUR = Foster([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1])
+THERMAL = "[thermal]\nfoster_r = [0.05, 0.15, 0.30, 0.50]\nfoster_tau = [1e-4, 1e-3, 1e-2, 1e-1]\n"
+
+
+@pytest.fixture
+def modelled_part(tmp_path):
+    """The reference part with the four-term thermal model."""
+    return read_part(write_part(tmp_path / "modelled", extra=THERMAL))
 
 
 @pytest.fixture

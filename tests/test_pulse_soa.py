@@ -13,20 +13,11 @@ from typer.testing import CliRunner
 from soacheck.cli import app
 from soacheck.files import read_part
 from soacheck.soa import allowed_current, check_points, model_consistency
-from soacheck.thermal import Foster, thermal_model
+from soacheck.thermal import thermal_model
 
-from .conftest import REFERENCE_SOA, write_part
+from .conftest import FOUR, REFERENCE_SOA, THERMAL, write_part
 
 runner = CliRunner(env={"COLUMNS": "200"})
-
-# methods.md §3 [con] network, its sum (1.0 K/W) equal to the reference part's rth_jc
-THERMAL = "[thermal]\nfoster_r = [0.05, 0.15, 0.30, 0.50]\nfoster_tau = [1e-4, 1e-3, 1e-2, 1e-1]\n"
-FOUR = Foster([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1])
-
-
-@pytest.fixture
-def modelled_part(tmp_path):
-    return read_part(write_part(tmp_path / "modelled", extra=THERMAL))
 
 
 @pytest.mark.parametrize(

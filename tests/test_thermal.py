@@ -26,8 +26,7 @@ from soacheck.thermal import (
     temperature_rise,
 )
 
-# methods.md §3 [con]: a four-term junction-to-case network
-FOUR = Foster([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1])
+from .conftest import FOUR  # methods.md §3 [con]: a four-term junction-to-case network
 
 
 def ladder_rhs(cauer: Cauer, power):

@@ -15,20 +15,17 @@ import pytest
 from typer.testing import CliRunner
 
 from soacheck.cli import app
-from soacheck.files import iter_trace, read_part
-from soacheck.thermal import Foster
+from soacheck.files import iter_trace
 from soacheck.trace import Cooling, TraceChecker
 
-from .conftest import write_part
+from .conftest import FOUR, THERMAL, write_part
 
 runner = CliRunner(env={"COLUMNS": "200"})
-THERMAL = "[thermal]\nfoster_r = [0.05, 0.15, 0.30, 0.50]\nfoster_tau = [1e-4, 1e-3, 1e-2, 1e-1]\n"
-FOUR = Foster([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1])
 
 
 @pytest.fixture
-def modelled(tmp_path):
-    return read_part(write_part(tmp_path / "modelled", extra=THERMAL))
+def modelled(modelled_part):
+    return modelled_part
 
 
 def pulse_train(*, v, i_on, i_off, tp, period, periods, dt=1e-5):
