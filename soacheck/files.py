@@ -19,8 +19,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from soacheck.battery import Chemistry
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import KINDS, Part, Ratings, SoaCurve
+from soacheck.stage import Stage
+from soacheck.trace import Cooling
 from soacheck.units import parse_duration
 
 PART_FILE = "part.toml"
@@ -553,3 +556,112 @@ def _parquet_chunks(path: Path, chunk_rows: int):
         frame = batch.to_pandas()
         frame.columns = list(TRACE_COLUMNS)
         yield frame
+
+
+# --------------------------------------------------------------------------- batteries and stages
+
+
+def read_ocv(path: str | Path) -> Chemistry:
+    """Read a cell's OCV curve: columns ``soc,voltage``; soc as a fraction from 0 to 1, V per cell.
+
+    The voltage must rise with state of charge. The default cut-off is the lowest voltage
+    in the table.
+    """
+    table = read_table(path, numeric=("soc", "voltage"), positive=("voltage",))
+    soc = table.frame["soc"].to_numpy()
+    volts = table.frame["voltage"].to_numpy()
+    order = np.argsort(soc, kind="stable")
+    bad = np.flatnonzero((soc < 0) | (soc > 1))
+    if bad.size:
+        k = int(bad[0])
+        raise SoacheckError(
+            f"{table.where(k)}: soc {soc[k]:g} is outside 0 to 1; write the state of charge as a fraction "
+            "(0.5 for 50 %)"
+        )
+    soc, volts = soc[order], volts[order]
+    if soc.size < 2:
+        raise SoacheckError(f"{path}: an OCV curve needs at least two rows")
+    flat = np.flatnonzero(np.diff(soc) <= 0)
+    if flat.size:
+        raise SoacheckError(f"{path}: soc {soc[flat[0]]:g} appears twice; keep one row per state of charge")
+    falls = np.flatnonzero(np.diff(volts) <= 0)
+    if falls.size:
+        k = int(order[falls[0] + 1])
+        raise SoacheckError(
+            f"{table.where(k)}: voltage {volts[falls[0] + 1]:g} V does not rise above {volts[falls[0]]:g} V as "
+            "the state of charge rises; an OCV curve rises with charge"
+        )
+    return Chemistry(Path(path).name, soc, volts, float(volts[0]), f"the user's OCV table {path}")
+
+
+_STAGE_KEYS = ("part", "count", "ballast", "series_resistance", "vbe_spread", "vbe_tempco", "case_temp", "cooling")
+_COOLING_KEYS = ("interface_rth", "heatsink_rth", "heatsink_capacity", "ambient")
+
+
+def read_stage(path: str | Path, folders) -> Stage:
+    """Read a stage file (TOML); the part is an id in the libraries or a folder path relative to the file.
+
+    The keys are documented in ``examples/stage.toml``.
+    """
+    path = Path(path)
+    try:
+        with open(path, "rb") as handle:
+            data = tomllib.load(handle)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such stage file; check the path") from None
+    except tomllib.TOMLDecodeError as err:
+        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+    return stage_from_table(data, folders, where=str(path), base=path.parent)
+
+
+def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
+    """Build a stage from its TOML table (a stage file, or a stage inline in a plan)."""
+    from soacheck.library import find_part
+
+    _check_keys(where, data, _STAGE_KEYS, ("part", "count"))
+    ref = _text(f"{where}: part", data["part"])
+    local = base / ref
+    part = find_part(str(local) if (local / PART_FILE).is_file() else ref, folders)
+    count = data["count"]
+    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+        raise SoacheckError(f"{where}: count is {count!r}; write a whole number of devices, at least 1")
+    values = {}
+    for key in ("ballast", "series_resistance", "vbe_spread"):
+        value = data.get(key, 0.0)
+        values[key] = _number(f"{where}: {key}", value, positive=False)
+        if values[key] < 0:
+            raise SoacheckError(f"{where}: {key} is {value!r}; it must be zero or more")
+    tempco = _number(f"{where}: vbe_tempco", data.get("vbe_tempco", -0.002), positive=False)
+    cooling = None
+    case_temp = None
+    if "cooling" in data:
+        if "case_temp" in data:
+            raise SoacheckError(f"{where}: give either [cooling] or case_temp, not both")
+        table = data["cooling"]
+        if not isinstance(table, dict):
+            raise SoacheckError(f"{where}: 'cooling' must be a table: write [cooling] on its own line")
+        _check_keys(f"{where} [cooling]", table, _COOLING_KEYS, ("heatsink_rth", "heatsink_capacity"))
+        interface = _number(f"{where}: cooling.interface_rth", table.get("interface_rth", 0.0), positive=False)
+        if interface < 0:
+            raise SoacheckError(f"{where}: cooling.interface_rth is {interface:g}; it must be zero or more")
+        cooling = Cooling(
+            interface,
+            _number(f"{where}: cooling.heatsink_rth", table["heatsink_rth"]),
+            _number(f"{where}: cooling.heatsink_capacity", table["heatsink_capacity"]),
+            _number(f"{where}: cooling.ambient", table.get("ambient", 25.0), positive=False),
+        )
+    elif "case_temp" in data:
+        case_temp = _number(f"{where}: case_temp", data["case_temp"], positive=False)
+    else:
+        raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
+    return Stage(
+        part,
+        count,
+        values["ballast"],
+        values["series_resistance"],
+        values["vbe_spread"],
+        tempco,
+        cooling,
+        case_temp,
+        name=where,
+    )

@@ -17,6 +17,7 @@ from matplotlib.lines import Line2D
 
 from soacheck.parts import Part
 from soacheck.soa import BreakdownDerating, PointCheck, boundary_polyline, mechanism_lines
+from soacheck.stage import StageRun
 from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration
 
@@ -103,7 +104,7 @@ def plot_soa(
             ls="--",
             lw=1.6,
             color=cmap_t[n % len(cmap_t)],
-            label=f"{format_duration(pulse_s)} derated, Tc = {tc:g} °C",
+            label=f"{format_duration(pulse_s)} derated, Tc = {tc:.3g} °C",
         )
     if points is not None and points.voltage_v.size:
         margin = np.where(np.isfinite(points.margin), points.margin, -1.0)
@@ -181,4 +182,55 @@ def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "
     handles = ax_time.get_legend_handles_labels()[0] + margin_ax.get_legend_handles_labels()[0]
     ax_time.legend(handles=handles, fontsize=8, loc="lower right")
     ax_time.grid(True, lw=0.3, alpha=0.6)
+    return fig
+
+
+def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating = "auto") -> Figure:
+    """The worst device's trajectory on its SOA, and the test over time.
+
+    Left: the worst device's (V_CE, I_C) path coloured by time, over its SOA derated at the
+    case temperature at the start and at the hottest point. Right, over time: source voltage
+    and total current; each device's power; case, junction and heatsink temperatures; each
+    device's margin.
+    """
+    fig = Figure(figsize=(14, 8), layout="constrained")
+    grid = fig.add_gridspec(4, 2, width_ratios=[1.1, 1])
+    ax_soa = fig.add_subplot(grid[:, 0])
+    axes = [fig.add_subplot(grid[k, 1]) for k in range(4)]
+    for ax in axes[1:]:
+        ax.sharex(axes[0])
+    part = run.stage.part
+    worst = run.worst_device
+    hottest = float(run.case_c[worst].max())
+    plot_soa(part, case_temps_c=sorted({float(run.case_c[worst, 0]), hottest}), policy=policy, ax=ax_soa)
+    shown = run.device_a[worst] > 0
+    path = ax_soa.scatter(
+        run.device_v[worst][shown], run.device_a[worst][shown], c=run.time_s[shown], cmap="viridis", s=8, zorder=6
+    )
+    fig.colorbar(path, ax=ax_soa, label="time [s]")
+    ax_soa.set_title(f"{title or part.id}: device {worst} (worst)", fontsize=10)
+    t = run.time_s
+    axes[0].plot(t, run.source_v, color="#1f5fa8", label="source V")
+    axes[0].set_ylabel("V")
+    current_ax = axes[0].twinx()
+    current_ax.plot(t, run.total_a, color="#d1495b", label="total I")
+    current_ax.set_ylabel("A")
+    for k in range(run.device_w.shape[0]):
+        axes[1].plot(t, run.device_w[k], lw=1.4 if k == worst else 0.8, label=f"device {k}")
+    axes[1].set_ylabel("device power [W]")
+    axes[2].plot(t, run.junction_c[worst], color="#d1495b", label="junction (worst)")
+    axes[2].plot(t, run.case_c[worst], color="#e08214", label="case (worst)")
+    axes[2].plot(t, run.sink_c, color="#6a3d9a", label="heatsink")
+    axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
+    axes[2].set_ylabel("°C")
+    for k in range(run.margin.shape[0]):
+        axes[3].plot(t, np.clip(run.margin[k], -1, 1), lw=1.4 if k == worst else 0.8, label=f"device {k}")
+    axes[3].axhline(0, color="k", lw=0.6)
+    axes[3].set_ylabel("margin")
+    axes[3].set_xlabel("time [s]")
+    for ax in axes:
+        ax.grid(True, lw=0.3, alpha=0.6)
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(fontsize=7, loc="best")
+    current_ax.legend(fontsize=7, loc="lower right")
     return fig
