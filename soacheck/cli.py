@@ -28,8 +28,8 @@ from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
 from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, demo_points
 from soacheck.errors import SoacheckError
-from soacheck.files import iter_trace, read_ocv, read_part, read_points, read_stage
-from soacheck.library import find_part, library_folders, list_parts
+from soacheck.files import iter_trace, read_ocv, read_part, read_points
+from soacheck.library import find_part, library_folders, list_parts, read_stage
 from soacheck.parts import Part
 from soacheck.plots import plot_soa, plot_stage_run, plot_trace
 from soacheck.soa import BreakdownDerating, PointCheck, check_points
@@ -517,16 +517,14 @@ def _report_run(run: StageRun, label: str, *, as_json: bool, plot: Path | None, 
 @_user_errors
 def discharge(
     stage: Annotated[Path, typer.Argument(help="Stage file (TOML).")],
-    battery: Annotated[
-        str, typer.Option("--battery", "-b", help="nmc, lfp, lead-acid, nimh, or an OCV CSV (soc,voltage per cell).")
-    ],
+    battery: Annotated[str, typer.Option("--battery", "-b", help="nmc, lfp, lead-acid, nimh, or a CSV soc,voltage.")],
     cells: Annotated[int, typer.Option("--cells", help="Cells in series.")],
     capacity: Annotated[float, typer.Option("--capacity", help="Capacity [Ah].")],
     mode: Annotated[str, typer.Option("--mode", help="cc (A), cp (W) or cr (Ω).")],
     setpoint: Annotated[float, typer.Option("--setpoint", help="Current [A], power [W] or resistance [Ω].")],
     cutoff: Annotated[float | None, typer.Option("--cutoff", help="Pack cut-off voltage under load [V].")] = None,
     internal_resistance: Annotated[
-        float, typer.Option("--internal-resistance", help="Pack internal resistance [Ω].")
+        float, typer.Option("--internal-resistance", help="Pack's own resistance [Ω].")
     ] = 0.0,
     find_max: Annotated[bool, typer.Option("--find-max", help="Also find the most demanding safe setpoint.")] = False,
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the trajectory.")] = 2000,
@@ -573,14 +571,12 @@ def sweep(
         str,
         typer.Option(
             "--ramp",
-            help="current (at a fixed voltage), voltage (at a fixed current) or power (constant power over a voltage range).",
+            help="current (at a fixed voltage), voltage (at a fixed current) or power (constant, over voltage).",
         ),
     ],
     start: Annotated[float, typer.Option("--from", help="Start of the ramp [A for current ramps, V otherwise].")],
     stop: Annotated[float, typer.Option("--to", help="End of the ramp [A for current ramps, V otherwise].")],
-    at: Annotated[
-        float, typer.Option("--at", help="The fixed quantity: source voltage [V], current [A] or power [W].")
-    ],
+    at: Annotated[float, typer.Option("--at", help="The fixed source voltage [V], current [A] or power [W].")],
     ramp_time: Annotated[str, typer.Option("--time", help="Ramp duration, such as 10s or 500ms.")] = "10s",
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the ramp.")] = 2000,
     plot: Annotated[Path | None, typer.Option("--plot", help="Write the plots (.png/.svg/.pdf).")] = None,

@@ -22,8 +22,6 @@ import pandas as pd
 from soacheck.battery import Chemistry
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import KINDS, Part, Ratings, SoaCurve
-from soacheck.stage import Stage
-from soacheck.trace import Cooling
 from soacheck.units import parse_duration
 
 PART_FILE = "part.toml"
@@ -183,7 +181,7 @@ _DERATING_KEYS = ("second_breakdown",)
 _THERMAL_KEYS = ("foster_r", "foster_tau")
 
 
-def _check_keys(where: str, table: dict[str, Any], allowed: Sequence[str], required: Sequence[str]) -> None:
+def check_keys(where: str, table: dict[str, Any], allowed: Sequence[str], required: Sequence[str]) -> None:
     for key in table:
         if key not in allowed:
             raise SoacheckError(
@@ -194,7 +192,7 @@ def _check_keys(where: str, table: dict[str, Any], allowed: Sequence[str], requi
             raise SoacheckError(f"{where}: missing key '{key}'; add it")
 
 
-def _number(where: str, value: Any, *, positive: bool = True) -> float:
+def toml_number(where: str, value: Any, *, positive: bool = True) -> float:
     if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
         raise SoacheckError(f"{where} is {value!r}; write a finite number")
     if positive and value <= 0:
@@ -202,7 +200,7 @@ def _number(where: str, value: Any, *, positive: bool = True) -> float:
     return float(value)
 
 
-def _text(where: str, value: Any) -> str:
+def toml_text(where: str, value: Any) -> str:
     if not isinstance(value, str) or not value.strip():
         raise SoacheckError(f"{where} must be a non-empty string in quotes")
     return value.strip()
@@ -211,7 +209,7 @@ def _text(where: str, value: Any) -> str:
 def _number_list(where: str, value: Any) -> np.ndarray:
     if not isinstance(value, list) or not value:
         raise SoacheckError(f"{where} must be a non-empty list of numbers, such as [0.1, 0.2]")
-    return np.array([_number(f"{where}[{i}]", v) for i, v in enumerate(value)])
+    return np.array([toml_number(f"{where}[{i}]", v) for i, v in enumerate(value)])
 
 
 def read_part_toml(path: Path) -> dict[str, Any]:
@@ -235,13 +233,13 @@ def read_part(folder: str | Path) -> Part:
     toml_path = folder / PART_FILE
     data = read_part_toml(toml_path)
     where = str(toml_path)
-    _check_keys(where, data, _TOP_KEYS, _REQUIRED_TOP)
-    part_id = _text(f"{where}: id", data["id"])
+    check_keys(where, data, _TOP_KEYS, _REQUIRED_TOP)
+    part_id = toml_text(f"{where}: id", data["id"])
     if part_id != folder.name:
         raise SoacheckError(
             f"{where}: id '{part_id}' differs from the folder name '{folder.name}'; rename one to match"
         )
-    kind = _text(f"{where}: kind", data["kind"]).lower()
+    kind = toml_text(f"{where}: kind", data["kind"]).lower()
     if kind not in KINDS:
         raise SoacheckError(
             f"{where}: kind '{kind}' is unknown{did_you_mean(kind, KINDS)}; use one of {', '.join(KINDS)}"
@@ -249,8 +247,8 @@ def read_part(folder: str | Path) -> Part:
     ratings_table = data["ratings"]
     if not isinstance(ratings_table, dict):
         raise SoacheckError(f"{where}: 'ratings' must be a table: write [ratings] on its own line")
-    _check_keys(f"{where} [ratings]", ratings_table, _RATING_KEYS, _REQUIRED_RATINGS)
-    r = {k: _number(f"{where}: ratings.{k}", v) for k, v in ratings_table.items()}
+    check_keys(f"{where} [ratings]", ratings_table, _RATING_KEYS, _REQUIRED_RATINGS)
+    r = {k: toml_number(f"{where}: ratings.{k}", v) for k, v in ratings_table.items()}
     if r["tj_max"] <= 25:
         raise SoacheckError(f"{where}: ratings.tj_max is {r['tj_max']:g} °C; it must be above 25 °C")
     ratings = Ratings(
@@ -267,7 +265,7 @@ def read_part(folder: str | Path) -> Part:
         derating = data["derating"]
         if not isinstance(derating, dict):
             raise SoacheckError(f"{where}: 'derating' must be a table: write [derating] on its own line")
-        _check_keys(f"{where} [derating]", derating, _DERATING_KEYS, ())
+        check_keys(f"{where} [derating]", derating, _DERATING_KEYS, ())
         if "second_breakdown" in derating:
             sb_case_c, sb_fraction = _derating_table(
                 f"{where}: derating.second_breakdown", derating["second_breakdown"]
@@ -278,7 +276,7 @@ def read_part(folder: str | Path) -> Part:
         thermal = data["thermal"]
         if not isinstance(thermal, dict):
             raise SoacheckError(f"{where}: 'thermal' must be a table: write [thermal] on its own line")
-        _check_keys(f"{where} [thermal]", thermal, _THERMAL_KEYS, _THERMAL_KEYS)
+        check_keys(f"{where} [thermal]", thermal, _THERMAL_KEYS, _THERMAL_KEYS)
         foster_r = _number_list(f"{where}: thermal.foster_r", thermal["foster_r"])
         foster_tau = _number_list(f"{where}: thermal.foster_tau", thermal["foster_tau"])
         if foster_r.size != foster_tau.size:
@@ -294,8 +292,8 @@ def read_part(folder: str | Path) -> Part:
     return Part(
         id=part_id,
         kind=kind,
-        description=_text(f"{where}: description", data["description"]),
-        source=_text(f"{where}: source", data["source"]),
+        description=toml_text(f"{where}: description", data["description"]),
+        source=toml_text(f"{where}: source", data["source"]),
         ratings=ratings,
         curves=curves,
         breakdown_case_c=sb_case_c,
@@ -315,8 +313,8 @@ def _derating_table(where: str, value: Any) -> tuple[np.ndarray, np.ndarray]:
     for i, row in enumerate(value):
         if not isinstance(row, list) or len(row) != 2:
             raise SoacheckError(f"{where}[{i}] is {row!r}; write a pair [case_c, fraction]")
-        case_c.append(_number(f"{where}[{i}] case temperature", row[0], positive=False))
-        fraction.append(_number(f"{where}[{i}] fraction", row[1], positive=False))
+        case_c.append(toml_number(f"{where}[{i}] case temperature", row[0], positive=False))
+        fraction.append(toml_number(f"{where}[{i}] fraction", row[1], positive=False))
     case = np.array(case_c)
     frac = np.array(fraction)
     if np.any(np.diff(case) <= 0):
@@ -592,76 +590,3 @@ def read_ocv(path: str | Path) -> Chemistry:
             "the state of charge rises; an OCV curve rises with charge"
         )
     return Chemistry(Path(path).name, soc, volts, float(volts[0]), f"the user's OCV table {path}")
-
-
-_STAGE_KEYS = ("part", "count", "ballast", "series_resistance", "vbe_spread", "vbe_tempco", "case_temp", "cooling")
-_COOLING_KEYS = ("interface_rth", "heatsink_rth", "heatsink_capacity", "ambient")
-
-
-def read_stage(path: str | Path, folders) -> Stage:
-    """Read a stage file (TOML); the part is an id in the libraries or a folder path relative to the file.
-
-    The keys are documented in ``examples/stage.toml``.
-    """
-    path = Path(path)
-    try:
-        with open(path, "rb") as handle:
-            data = tomllib.load(handle)
-    except FileNotFoundError:
-        raise SoacheckError(f"{path}: no such stage file; check the path") from None
-    except tomllib.TOMLDecodeError as err:
-        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
-    return stage_from_table(data, folders, where=str(path), base=path.parent)
-
-
-def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
-    """Build a stage from its TOML table (a stage file, or a stage inline in a plan)."""
-    from soacheck.library import find_part
-
-    _check_keys(where, data, _STAGE_KEYS, ("part", "count"))
-    ref = _text(f"{where}: part", data["part"])
-    local = base / ref
-    part = find_part(str(local) if (local / PART_FILE).is_file() else ref, folders)
-    count = data["count"]
-    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-        raise SoacheckError(f"{where}: count is {count!r}; write a whole number of devices, at least 1")
-    values = {}
-    for key in ("ballast", "series_resistance", "vbe_spread"):
-        value = data.get(key, 0.0)
-        values[key] = _number(f"{where}: {key}", value, positive=False)
-        if values[key] < 0:
-            raise SoacheckError(f"{where}: {key} is {value!r}; it must be zero or more")
-    tempco = _number(f"{where}: vbe_tempco", data.get("vbe_tempco", -0.002), positive=False)
-    cooling = None
-    case_temp = None
-    if "cooling" in data:
-        if "case_temp" in data:
-            raise SoacheckError(f"{where}: give either [cooling] or case_temp, not both")
-        table = data["cooling"]
-        if not isinstance(table, dict):
-            raise SoacheckError(f"{where}: 'cooling' must be a table: write [cooling] on its own line")
-        _check_keys(f"{where} [cooling]", table, _COOLING_KEYS, ("heatsink_rth", "heatsink_capacity"))
-        interface = _number(f"{where}: cooling.interface_rth", table.get("interface_rth", 0.0), positive=False)
-        if interface < 0:
-            raise SoacheckError(f"{where}: cooling.interface_rth is {interface:g}; it must be zero or more")
-        cooling = Cooling(
-            interface,
-            _number(f"{where}: cooling.heatsink_rth", table["heatsink_rth"]),
-            _number(f"{where}: cooling.heatsink_capacity", table["heatsink_capacity"]),
-            _number(f"{where}: cooling.ambient", table.get("ambient", 25.0), positive=False),
-        )
-    elif "case_temp" in data:
-        case_temp = _number(f"{where}: case_temp", data["case_temp"], positive=False)
-    else:
-        raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
-    return Stage(
-        part,
-        count,
-        values["ballast"],
-        values["series_resistance"],
-        values["vbe_spread"],
-        tempco,
-        cooling,
-        case_temp,
-        name=where,
-    )

@@ -8,13 +8,17 @@ then the folders in ``SOACHECK_LIBRARY`` (separated like PATH), then the bundled
 from __future__ import annotations
 
 import os
+import tomllib
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from soacheck.errors import SoacheckError, nearest
-from soacheck.files import PART_FILE, read_part
+from soacheck.files import PART_FILE, check_keys, read_part, toml_number, toml_text
 from soacheck.parts import Part
+from soacheck.stage import Stage
+from soacheck.trace import Cooling
 
 LIBRARY_ENV = "SOACHECK_LIBRARY"
 
@@ -82,4 +86,77 @@ def find_part(ref: str, folders: Sequence[Path]) -> Part:
     raise SoacheckError(
         f"unknown part '{ref}'; the nearest ids are {close}; `soacheck parts` lists all {len(ids)}, "
         "or give the path of a part folder"
+    )
+
+
+# --------------------------------------------------------------------------- stages
+
+_STAGE_KEYS = ("part", "count", "ballast", "series_resistance", "vbe_spread", "vbe_tempco", "case_temp", "cooling")
+_COOLING_KEYS = ("interface_rth", "heatsink_rth", "heatsink_capacity", "ambient")
+
+
+def read_stage(path: str | Path, folders) -> Stage:
+    """Read a stage file (TOML); the part is an id in the libraries or a folder path relative to the file.
+
+    The keys are documented in ``examples/stage.toml``.
+    """
+    path = Path(path)
+    try:
+        with open(path, "rb") as handle:
+            data = tomllib.load(handle)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such stage file; check the path") from None
+    except tomllib.TOMLDecodeError as err:
+        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+    return stage_from_table(data, folders, where=str(path), base=path.parent)
+
+
+def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
+    """Build a stage from its TOML table (a stage file, or a stage inline in a plan)."""
+    check_keys(where, data, _STAGE_KEYS, ("part", "count"))
+    ref = toml_text(f"{where}: part", data["part"])
+    local = base / ref
+    part = find_part(str(local) if (local / PART_FILE).is_file() else ref, folders)
+    count = data["count"]
+    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+        raise SoacheckError(f"{where}: count is {count!r}; write a whole number of devices, at least 1")
+    values = {}
+    for key in ("ballast", "series_resistance", "vbe_spread"):
+        value = data.get(key, 0.0)
+        values[key] = toml_number(f"{where}: {key}", value, positive=False)
+        if values[key] < 0:
+            raise SoacheckError(f"{where}: {key} is {value!r}; it must be zero or more")
+    tempco = toml_number(f"{where}: vbe_tempco", data.get("vbe_tempco", -0.002), positive=False)
+    cooling = None
+    case_temp = None
+    if "cooling" in data:
+        if "case_temp" in data:
+            raise SoacheckError(f"{where}: give either [cooling] or case_temp, not both")
+        table = data["cooling"]
+        if not isinstance(table, dict):
+            raise SoacheckError(f"{where}: 'cooling' must be a table: write [cooling] on its own line")
+        check_keys(f"{where} [cooling]", table, _COOLING_KEYS, ("heatsink_rth", "heatsink_capacity"))
+        interface = toml_number(f"{where}: cooling.interface_rth", table.get("interface_rth", 0.0), positive=False)
+        if interface < 0:
+            raise SoacheckError(f"{where}: cooling.interface_rth is {interface:g}; it must be zero or more")
+        cooling = Cooling(
+            interface,
+            toml_number(f"{where}: cooling.heatsink_rth", table["heatsink_rth"]),
+            toml_number(f"{where}: cooling.heatsink_capacity", table["heatsink_capacity"]),
+            toml_number(f"{where}: cooling.ambient", table.get("ambient", 25.0), positive=False),
+        )
+    elif "case_temp" in data:
+        case_temp = toml_number(f"{where}: case_temp", data["case_temp"], positive=False)
+    else:
+        raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
+    return Stage(
+        part,
+        count,
+        values["ballast"],
+        values["series_resistance"],
+        values["vbe_spread"],
+        tempco,
+        cooling,
+        case_temp,
+        name=where,
     )
