@@ -26,7 +26,7 @@ from rich.table import Table as RichTable
 from soacheck.battery import MODES, Battery, chemistry
 from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
-from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, demo_points
+from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, DISCHARGE_A, demo_battery, demo_points, demo_stage
 from soacheck.errors import SoacheckError
 from soacheck.files import iter_trace, read_ocv, read_part, read_points
 from soacheck.library import find_part, library_folders, list_parts, read_stage
@@ -332,39 +332,67 @@ def demo(
     console = _console()
     console.print(
         "[bold]Demo:[/] a workshop bench discharging 10-cell e-bike packs (42 V full) at 6 A through two "
-        "parallel devices, plus a 10 ms 16 A pulse; the hotter device takes 55 % of the current. "
+        "parallel devices on one heatsink, plus a 10 ms 16 A pulse; four candidate devices. "
         "All parts and numbers are invented.",
         highlight=False,
     )
     summary = RichTable(title="candidates for the pass device", title_justify="left")
-    for name in ("part", "verdict", "worst margin", "limit at worst point", "plot"):
+    for name in ("part", "points", "worst point", "6 A discharge", "limit", "Tj peak", "max safe"):
         summary.add_column(name)
     folders = library_folders([])
+    pack = demo_battery()
+    path = battery_discharge(pack, "cc", DISCHARGE_A, samples=1500)
     results = {}
-    for part_id in CANDIDATES:
-        part = find_part(part_id, folders)
-        result = check_points(
-            frame["voltage"].to_numpy(),
-            frame["current"].to_numpy(),
-            part,
-            tc_c=frame["case_temp"].to_numpy(),
-            pulse_s=frame["pulse_s"].to_numpy(),
-        )
-        results[part_id] = _check_payload(result)
-        ax = plot_soa(part, case_temps_c=(25.0, 70.0), points=result)
-        plot_path = out / f"{part_id}-soa.png"
-        ax.figure.savefig(plot_path)
-        margin = np.where(np.isfinite(result.margin), result.margin, -np.inf)
-        worst = int(np.argmin(margin))
-        summary.add_row(
-            part_id,
-            "[green]pass[/]" if result.passed else "[bold red]FAIL[/]",
-            f"{result.margin[worst]:+.1%}" if np.isfinite(result.margin[worst]) else "—",
-            str(result.limit[worst]),
-            plot_path.name,
-        )
+    with Progress(console=Console(stderr=True), transient=True) as progress:
+        task = progress.add_task("candidates", total=len(CANDIDATES))
+        for part_id in CANDIDATES:
+            part = find_part(part_id, folders)
+            checked = check_points(
+                frame["voltage"].to_numpy(),
+                frame["current"].to_numpy(),
+                part,
+                tc_c=frame["case_temp"].to_numpy(),
+                pulse_s=frame["pulse_s"].to_numpy(),
+            )
+            stage = demo_stage(part)
+
+            def run_at(current: float, stage: Stage = stage) -> StageRun:
+                trial = battery_discharge(pack, "cc", current, samples=1500)
+                return run_stage(stage, trial.time_s, trial.source_v, trial.total_a)
+
+            run = run_stage(stage, path.time_s, path.source_v, path.total_a)
+            best = most_demanding_safe(run_at, DISCHARGE_A, rel_tol=1e-2)
+            run_summary = run.summary()
+            results[part_id] = {
+                "points": _check_payload(checked),
+                "discharge": {
+                    "test": path.label,
+                    **run_summary,
+                    "max_safe_setpoint": best,
+                    "assumptions": list(run.assumptions + path.notes),
+                },
+            }
+            plot_soa(part, case_temps_c=(25.0, 70.0), points=checked).figure.savefig(out / f"{part_id}-soa.png")
+            plot_stage_run(run, title=f"{part_id}: {path.label}").savefig(out / f"{part_id}-discharge.png")
+            margin = np.where(np.isfinite(checked.margin), checked.margin, -np.inf)
+            worst = int(np.argmin(margin))
+            summary.add_row(
+                part_id,
+                "[green]pass[/]" if checked.passed else "[bold red]FAIL[/]",
+                f"{checked.margin[worst]:+.0%} ({checked.limit[worst]})" if np.isfinite(margin[worst]) else "—",
+                "[green]pass[/]" if run.passed else "[bold red]FAIL[/]",
+                str(run_summary["limit"] or "—"),
+                f"{run_summary['tj_peak']:.0f} °C",
+                "none" if best is None else f"{best:.2f} A",
+            )
+            progress.advance(task)
     (out / "results.json").write_text(json.dumps(_jsonable(results), indent=2, ensure_ascii=False) + "\n")
     console.print(summary)
+    console.print(
+        "Per part: PART-soa.png (the planned points on the SOA), PART-discharge.png (the discharge over time); "
+        "results.json holds every number and assumption.",
+        highlight=False,
+    )
     console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
     console.print(f"Demo written to {out.resolve()}", highlight=False)
 

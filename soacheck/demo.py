@@ -13,6 +13,11 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from soacheck.battery import PRESETS, Battery
+from soacheck.parts import Part
+from soacheck.stage import Stage
+from soacheck.trace import Cooling
+
 DEMO_FOLDER = "soacheck-demo"
 DEMO_MARKER = ".soacheck-demo"
 """A file the demo leaves in its folder, so that it may rewrite that folder next time."""
@@ -44,3 +49,29 @@ def demo_points() -> pd.DataFrame:
     )
     pulse = pd.DataFrame({"voltage": [41.0], "current": [SHARE_WORST * 16.0], "case_temp": [35.0], "pulse": ["10ms"]})
     return pd.concat([discharge, pulse], ignore_index=True)
+
+
+PACK_CELLS = 10
+PACK_AH = 10.0
+PACK_R_OHM = 0.15
+DISCHARGE_A = 6.0
+
+
+def demo_battery() -> Battery:
+    """The donated pack: 10 NMC cells in series, 10 Ah, 0.15 Ω (invented)."""
+    return Battery(PRESETS["nmc"], PACK_CELLS, PACK_AH, PACK_R_OHM)
+
+
+def demo_stage(part: Part) -> Stage:
+    """The bench's two pass devices on one heatsink (invented): 0.1 Ω ballasts, a 20 mΩ
+    sense resistor, a 20 mV V_BE band, 0.3 K/W pads, a 0.15 K/W finned heatsink of
+    1500 J/K (about 1.7 kg of aluminium) in a 25 °C room."""
+    return Stage(
+        part,
+        2,
+        ballast_ohm=0.1,
+        series_ohm=0.02,
+        vbe_spread_v=0.02,
+        cooling=Cooling(0.3, 0.15, 1500.0, 25.0),
+        name="demo bench",
+    )

@@ -120,8 +120,13 @@ def test_demo_writes_its_folder_and_respects_foreign_ones(tmp_path):
     result = invoke("demo", "--out", out)
     assert result.exit_code == 0, result.output
     assert (out / "results.json").is_file() and len(list(out.glob("*-soa.png"))) == 4
+    assert len(list(out.glob("*-discharge.png"))) == 4
     results = json.loads((out / "results.json").read_text())
-    assert {r["verdict"] for r in results.values()} == {"pass", "fail"}
+    # the scenario separates the candidates: some pass, some fail, each with its reasons
+    assert {r["points"]["verdict"] for r in results.values()} == {"pass", "fail"}
+    assert {r["discharge"]["verdict"] for r in results.values()} == {"pass", "fail"}
+    for r in results.values():
+        assert r["discharge"]["assumptions"] and r["discharge"]["duration"] > 0
     assert invoke("demo", "--out", out).exit_code == 0  # its own folder may be rewritten
     foreign = tmp_path / "mine"
     foreign.mkdir()
