@@ -514,6 +514,14 @@ def _battery(battery: str, cells: int, capacity: float, internal_resistance: flo
     return Battery(chem, cells, capacity, internal_resistance)
 
 
+def _check_outputs(samples: int, plot: Path | None, force: bool) -> None:
+    if samples < 10:
+        raise SoacheckError("--samples must be at least 10")
+    if plot is not None:
+        _plot_suffix(plot)
+        _refuse_overwrite(plot, force)
+
+
 def _report_run(run: StageRun, label: str, *, as_json: bool, plot: Path | None, extra: dict[str, Any]) -> None:
     payload = {"test": label, **run.summary(), **extra, "assumptions": list(run.assumptions)}
     if plot is not None:
@@ -568,11 +576,7 @@ def discharge(
     pack = _battery(battery, cells, capacity, internal_resistance)
     if mode not in MODES:
         raise SoacheckError(f"--mode: '{mode}' is not one of cc, cp, cr")
-    if samples < 10:
-        raise SoacheckError("--samples must be at least 10")
-    if plot is not None:
-        _plot_suffix(plot)
-        _refuse_overwrite(plot, force)
+    _check_outputs(samples, plot, force)
 
     def run_at(value: float) -> StageRun:
         path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
@@ -619,11 +623,7 @@ def sweep(
     seconds = parse_duration(ramp_time, where="--time")
     if math.isinf(seconds):
         raise SoacheckError("--time must be a duration such as 10s, not dc")
-    if samples < 10:
-        raise SoacheckError("--samples must be at least 10")
-    if plot is not None:
-        _plot_suffix(plot)
-        _refuse_overwrite(plot, force)
+    _check_outputs(samples, plot, force)
     path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
     run = run_stage(loaded, path.time_s, path.source_v, path.total_a, policy=policy)
     _report_run(run, path.label, as_json=as_json, plot=plot, extra={})

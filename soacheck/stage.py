@@ -99,6 +99,32 @@ class Stage:
         """Sum of the devices' continuous current ratings; the load should stay well below it. [A]"""
         return self.count * self.part.ratings.i_max_a
 
+    def share(self, total_a: np.ndarray, tj_c: np.ndarray, offsets_v: np.ndarray | None = None) -> np.ndarray:
+        """Each device's current, shape ``(n, m)``; see :func:`share_current`. [A]"""
+        return share_current(
+            total_a,
+            tj_c,
+            self.offsets_v if offsets_v is None else offsets_v,
+            ballast_ohm=self.ballast_ohm,
+            bipolar=self.part.is_bipolar,
+            tempco_v_per_k=self.vbe_tempco_v_per_k,
+        )
+
+    def device_voltage(self, source_v: np.ndarray, total_a: np.ndarray, device_a: np.ndarray) -> np.ndarray:
+        """V_CE of each device: the source less the sense-resistor and ballast drops. [V]"""
+        return source_v - total_a * self.series_ohm - device_a * self.ballast_ohm
+
+    def loop_gain(self, device_a: np.ndarray, vce_v: np.ndarray, rth_k_per_w: float) -> np.ndarray:
+        """Electro-thermal loop gain of each device; see :func:`loop_gain`."""
+        return loop_gain(
+            device_a,
+            vce_v,
+            rth_k_per_w,
+            ballast_ohm=self.ballast_ohm,
+            bipolar=self.part.is_bipolar,
+            tempco_v_per_k=self.vbe_tempco_v_per_k,
+        )
+
     def with_part(self, part: Part) -> Stage:
         """The same stage with another pass device in place."""
         return Stage(
@@ -329,15 +355,12 @@ def run_stage(
     junction, junction_note = _junction_network(part)
     rth_diff = part.ratings.rth_jc_k_per_w + (stage.cooling.case_sink_k_per_w if stage.cooling else 0.0)
     bipolar = part.is_bipolar
-    offsets = stage.offsets_v
 
     tj = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
     converged = False
     for _ in range(max_iterations):
-        currents = share_current(
-            total, tj, offsets, ballast_ohm=stage.ballast_ohm, bipolar=bipolar, tempco_v_per_k=stage.vbe_tempco_v_per_k
-        )
-        vce = src[None, :] - total[None, :] * stage.series_ohm - currents * stage.ballast_ohm
+        currents = stage.share(total, tj)
+        vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
         sink, case, tj_new = _temperatures(stage, junction, t, power)
         change = np.max(np.abs(tj_new - tj))
@@ -345,18 +368,7 @@ def run_stage(
         if change < 1e-6:
             converged = True
             break
-    gain = (
-        loop_gain(
-            currents,
-            vce,
-            rth_diff,
-            ballast_ohm=stage.ballast_ohm,
-            bipolar=bipolar,
-            tempco_v_per_k=stage.vbe_tempco_v_per_k,
-        )
-        if n > 1
-        else np.zeros((n, m))
-    )
+    gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
     runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
     allowed = allowed_current(np.maximum(vce, 1e-12), part, tc_c=case, policy=policy)
     allowed_a = allowed.current_a.reshape(n, m)
@@ -471,27 +483,13 @@ def sharing_monte_carlo(
         total = np.full(size, float(total_a))
         tj = np.full((n, size), float(sink_c))
         for _ in range(200):
-            cur = share_current(
-                total,
-                tj,
-                offsets,
-                ballast_ohm=stage.ballast_ohm,
-                bipolar=part.is_bipolar,
-                tempco_v_per_k=stage.vbe_tempco_v_per_k,
-            )
-            vce = source_v - total_a * stage.series_ohm - cur * stage.ballast_ohm
+            cur = stage.share(total, tj, offsets)
+            vce = stage.device_voltage(source_v, total_a, cur)
             tj_new = sink_c + rth * np.maximum(vce, 0) * cur
             if np.max(np.abs(tj_new - tj)) < 1e-6:
                 break
             tj = tj_new
-        gain = loop_gain(
-            cur,
-            vce,
-            rth,
-            ballast_ohm=stage.ballast_ohm,
-            bipolar=part.is_bipolar,
-            tempco_v_per_k=stage.vbe_tempco_v_per_k,
-        )
+        gain = stage.loop_gain(cur, vce, rth)
         runaway += int((gain >= 1).any(axis=0).sum())
         shares.append(cur.max(axis=0) / total_a)
         done += size
