@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from soacheck.battery import Chemistry
+from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import KINDS, Part, Ratings, SoaCurve
 from soacheck.units import parse_duration
@@ -590,3 +591,58 @@ def read_ocv(path: str | Path) -> Chemistry:
             "the state of charge rises; an OCV curve rises with charge"
         )
     return Chemistry(Path(path).name, soc, volts, float(volts[0]), f"the user's OCV table {path}")
+
+
+# --------------------------------------------------------------------------- envelopes
+
+_ENVELOPE_KEYS = ("voltage", "current", "power", "pulse", "duty", "ambient", "case_temp")
+
+
+def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
+    """Build an envelope from its TOML table (an envelope file, or one inline in a plan)."""
+    check_keys(where, data, _ENVELOPE_KEYS, ("voltage", "current", "power"))
+    span = data["voltage"]
+    if not isinstance(span, list) or len(span) != 2:
+        raise SoacheckError(f"{where}: voltage must be a range [low, high] in V, such as [5, 40]")
+    v_lo = toml_number(f"{where}: voltage[0]", span[0])
+    v_hi = toml_number(f"{where}: voltage[1]", span[1])
+    pulse_s = parse_duration(str(data.get("pulse", "dc")), where=f"{where}: pulse")
+    if "duty" in data:
+        duty = toml_number(f"{where}: duty", data["duty"], positive=False)
+        if not (0 < duty <= 1):
+            raise SoacheckError(
+                f"{where}: duty is {duty:g}; give tp/T in (0, 1], such as 0.1 (leave it out for a single pulse)"
+            )
+        if math.isinf(pulse_s):
+            raise SoacheckError(f'{where}: duty needs a pulse width, such as pulse = "10ms"')
+    else:
+        duty = 1.0 if math.isinf(pulse_s) else 0.0
+    if "ambient" in data and "case_temp" in data:
+        raise SoacheckError(f"{where}: give either ambient or case_temp, not both")
+    case_temp = toml_number(f"{where}: case_temp", data["case_temp"], positive=False) if "case_temp" in data else None
+    ambient = (
+        None if case_temp is not None else toml_number(f"{where}: ambient", data.get("ambient", 25.0), positive=False)
+    )
+    return Envelope(
+        v_lo,
+        v_hi,
+        toml_number(f"{where}: current", data["current"]),
+        toml_number(f"{where}: power", data["power"]),
+        pulse_s,
+        duty,
+        ambient,
+        case_temp,
+    )
+
+
+def read_envelope(path: str | Path) -> Envelope:
+    """Read an envelope file (TOML): voltage = [low, high], current, power, pulse, duty, ambient or case_temp."""
+    path = Path(path)
+    try:
+        with open(path, "rb") as handle:
+            data = tomllib.load(handle)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such envelope file; check the path") from None
+    except tomllib.TOMLDecodeError as err:
+        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+    return envelope_from_table(data, where=str(path))

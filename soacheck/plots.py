@@ -15,6 +15,7 @@ from matplotlib.colors import TwoSlopeNorm
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
+from soacheck.envelope import Envelope, EnvelopeCheck
 from soacheck.parts import Part
 from soacheck.soa import BreakdownDerating, PointCheck, boundary_polyline, mechanism_lines
 from soacheck.stage import StageRun
@@ -234,3 +235,66 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
             ax.legend(fontsize=7, loc="best")
     current_ax.legend(fontsize=7, loc="lower right")
     return fig
+
+
+def plot_envelope_check(check: EnvelopeCheck, *, policy: BreakdownDerating = "auto", most: int = 4) -> Figure:
+    """The envelope's edge, mapped to each device, over that device's SOA derated at its hottest case.
+
+    One panel per device (the ``most`` worst when there are more); the path is red where it
+    lies outside.
+    """
+    devices = np.argsort(np.min(check.margin, axis=1))[:most]
+    fig = Figure(figsize=(6.5 * len(devices), 5.5), layout="constrained")
+    axes = np.atleast_1d(fig.subplots(1, len(devices)))
+    env = check.envelope
+    for ax, d in zip(axes, devices, strict=True):
+        hottest = float(check.state.case_c[d].max())
+        plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, policy=policy, ax=ax)
+        v, i = check.state.device_v[d], check.state.device_a[d]
+        ok = check.margin[d] >= 0
+        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label="envelope edge, this device")
+        ax.scatter(v[~ok], i[~ok], color="#c0392b", s=10, zorder=6, label="outside")
+        ax.legend(fontsize=7, loc="lower left")
+        ax.set_title(f"{check.stage.part.id}, device {d}: {env.label}", fontsize=9)
+    return fig
+
+
+def plot_compare(
+    parts: Sequence[Part],
+    envelope: Envelope,
+    *,
+    case_temp_c: float,
+    count: int = 1,
+    policy: BreakdownDerating = "auto",
+) -> Axes:
+    """Candidates' SOAs derated at one case temperature, overlaid, with the envelope's edge.
+
+    With ``count`` devices the edge is drawn at an even share, I/count per device, for
+    orientation only: the verdicts include the uneven sharing and the resistor drops.
+    """
+    ax = new_axes(9, 6.5)
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    colours = ["#1f5fa8", "#d1495b", "#2a9d8f", "#e08214", "#6a3d9a", "#8c564b", "#17becf", "#bcbd22"]
+    for n, part in enumerate(parts):
+        poly = boundary_polyline(
+            part,
+            tc_c=case_temp_c,
+            pulse_s=envelope.pulse_s,
+            duty=0.0 if np.isinf(envelope.pulse_s) else envelope.duty,
+            policy=policy,
+            v_min_v=min(envelope.v_min_v, part.dc_curve.voltage_v[0]),
+        )
+        if not poly.is_empty:
+            ax.plot(poly.voltage_v, poly.current_a, color=colours[n % len(colours)], lw=1.6, label=part.id)
+    v, i = envelope.edge(400)
+    i = i / count
+    share = "" if count == 1 else f", even share of {count} devices"
+    ax.fill_between(v, i, i.min() / 10, color="#999999", alpha=0.25, label=f"envelope: {envelope.label}{share}")
+    ax.plot(v, i, color="k", lw=1.2)
+    ax.set_xlabel("voltage across one device [V]")
+    ax.set_ylabel("current through one device [A]")
+    ax.set_title(f"candidates derated at {case_temp_c:.3g} °C case", fontsize=10)
+    ax.grid(True, which="both", lw=0.3, alpha=0.6)
+    ax.legend(fontsize=7, loc="lower left")
+    return ax

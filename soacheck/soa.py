@@ -784,3 +784,43 @@ def _assumptions(
                     "derated by the smaller of the thermal and breakdown factors"
                 )
     return tuple(notes)
+
+
+def max_case_temp(
+    voltage_v: np.ndarray,
+    current_a: np.ndarray,
+    part: Part,
+    *,
+    pulse_s: float = DC,
+    duty: float = 0.0,
+    policy: BreakdownDerating = "auto",
+    step_k: float = 0.05,
+    lowest_c: float = -55.0,
+) -> float | None:
+    """The highest case temperature at which every point is still inside. [°C]
+
+    Each mechanism line k allows the point while its derating factor f_k(Tc) stays at or
+    above I/I_k(V); the factors never rise with Tc, so each gives a highest Tc, found by
+    inverting f_k tabulated every ``step_k`` kelvin (rounded down: conservative). The
+    answer is the lowest over lines and points; None when a point is outside even at
+    ``lowest_c`` (or above ``v_max``).
+    """
+    v = np.asarray(voltage_v, dtype=float).ravel()
+    i = np.asarray(current_a, dtype=float).ravel()
+    if np.any(v > part.ratings.v_max_v):
+        return None
+    bound = pulse_lines(part, pulse_s=pulse_s, duty=duty)
+    grid = np.arange(lowest_c, part.ratings.tj_max_c, step_k)
+    factors = mechanism_factors(grid, part, policy)
+    log_v = np.log(v)
+    highest = np.inf
+    for line in bound.lines:
+        with np.errstate(divide="ignore"):
+            need = i / np.exp(line(log_v))  # the factor this line must keep
+        f = factors[line.mechanism]
+        # f is non-increasing on the grid: the last grid point where f >= need
+        count = np.searchsorted(-f, -need, side="right")
+        if np.any(count == 0):
+            return None
+        highest = min(highest, float(grid[count.min() - 1]))
+    return highest

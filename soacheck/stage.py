@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Literal
 
 import numpy as np
 import scipy.special
@@ -31,6 +32,13 @@ from soacheck.parts import Part
 from soacheck.soa import BreakdownDerating, allowed_current
 from soacheck.thermal import Foster, temperature_rise, thermal_model
 from soacheck.trace import Cooling
+from soacheck.units import DC
+
+SETTLED_K = 1e-4
+"""The electro-thermal fixed point counts as settled when no junction moves more than this. [K]"""
+
+RUNAWAY_C = 1000.0
+"""A junction temperature no iteration needs to pass: beyond it the fixed point is abandoned. [°C]"""
 
 THERMAL_VOLTAGE_V = 0.02569
 """kT/q at 25 °C. [V]"""
@@ -322,7 +330,7 @@ def run_stage(
     total_a: np.ndarray,
     *,
     policy: BreakdownDerating = "auto",
-    max_iterations: int = 200,
+    max_iterations: int = 2000,
 ) -> StageRun:
     """Follow a trajectory (source voltage and total current over time) through the stage.
 
@@ -365,19 +373,12 @@ def run_stage(
         sink, case, tj_new = _temperatures(stage, junction, t, power)
         change = np.max(np.abs(tj_new - tj))
         tj = tj_new
-        if change < 1e-6:
+        if change < SETTLED_K:
             converged = True
             break
     gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
     runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
-    allowed = allowed_current(np.maximum(vce, 1e-12), part, tc_c=case, policy=policy)
-    allowed_a = allowed.current_a.reshape(n, m)
-    limit = allowed.limit.reshape(n, m).astype(object)
-    hot = tj > part.ratings.tj_max_c
-    limit = np.where(hot & (currents <= allowed_a), "thermal", limit)
-    limit = np.where(runaway_at[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        margin = np.where(allowed_a > 0, 1.0 - currents / allowed_a, np.where(currents > 0, -np.inf, 1.0))
+    allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, policy=policy)
     notes = [
         junction_note,
         f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: device 0 "
@@ -413,6 +414,38 @@ def run_stage(
         bool(runaway_at.any()),
         tuple(notes),
     )
+
+
+def check_devices(
+    stage: Stage,
+    vce_v: np.ndarray,
+    device_a: np.ndarray,
+    case_c: np.ndarray,
+    junction_c: np.ndarray,
+    runaway_at: np.ndarray,
+    *,
+    pulse_s: float = DC,
+    duty: float = 0.0,
+    policy: BreakdownDerating = "auto",
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Allowed current, margin and limit of every device at every point, each ``(n, m)``.
+
+    Each device is checked against its SOA (for the pulse condition) derated at its own
+    case temperature; a junction above tj_max is labelled ``thermal``; where the stage runs
+    away the hog (device 0) is labelled ``runaway``.
+    """
+    n, m = device_a.shape
+    allowed = allowed_current(
+        np.maximum(vce_v, 1e-12), stage.part, tc_c=case_c, pulse_s=pulse_s, duty=duty, policy=policy
+    )
+    allowed_a = allowed.current_a.reshape(n, m)
+    limit = allowed.limit.reshape(n, m).astype(object)
+    hot = junction_c > stage.part.ratings.tj_max_c
+    limit = np.where(hot & (device_a <= allowed_a), "thermal", limit)
+    limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))
+    return allowed_a, margin, limit
 
 
 def _temperatures(stage: Stage, junction: Foster, t: np.ndarray, power: np.ndarray):
@@ -548,3 +581,90 @@ def most_demanding_safe(run_at, start: float, *, rel_tol: float = 1e-3, max_runs
         else:
             hi = mid
     return lo
+
+
+# --------------------------------------------------------------------------- steady state
+
+
+@dataclass(frozen=True, eq=False)
+class SteadyState:
+    """Operating points of a stage in thermal steady state, each device: arrays ``(n, m)``; sink ``(m,)``."""
+
+    device_a: np.ndarray
+    device_v: np.ndarray
+    device_w: np.ndarray
+    case_c: np.ndarray
+    junction_c: np.ndarray
+    sink_c: np.ndarray
+    gain: np.ndarray
+    runaway_at: np.ndarray
+
+
+def steady_state(
+    stage: Stage,
+    source_v: np.ndarray,
+    total_a: np.ndarray,
+    *,
+    pulse_s: float = DC,
+    duty: float = 1.0,
+    sink: Literal["each", "worst"] = "each",
+    max_iterations: int = 2000,
+) -> SteadyState:
+    """Each device at each operating point once the temperatures have settled.
+
+    Parameters
+    ----------
+    source_v, total_a
+        Operating points of the load, shape ``(m,)``. [V], [A]
+    pulse_s, duty
+        DC, or pulses of width ``pulse_s`` at duty ``duty``: the junction then sits
+        P·Zth(tp, D) above its case (the part's model; rth_jc without one, conservative) and
+        the heatsink sees the average power D·P.
+    sink
+        ``each``: every point with the heatsink at its own steady state; ``worst``: every point
+        with the heatsink at the steady state of the hottest point (an envelope's worst power).
+
+    Notes
+    -----
+    Tc_k = T_sink + D·P_k·R_cs, T_sink = T_a + R_sa·Σ D·P_k (or the fixed case temperature),
+    Tj_k = Tc_k + P_k·Z, solved together with the sharing as a fixed point.
+    """
+    part = stage.part
+    src = np.asarray(source_v, dtype=float)
+    total = np.asarray(total_a, dtype=float)
+    n, m = stage.count, src.size
+    continuous = math.isinf(pulse_s) or duty >= 1.0
+    average = 1.0 if continuous else duty
+    model = thermal_model(part)
+    if continuous or model is None:
+        z = part.ratings.rth_jc_k_per_w
+    else:
+        z = float(model.pulse_zth(pulse_s, duty))
+    cooling = stage.cooling
+    tj = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
+    converged = False
+    for _ in range(max_iterations):
+        currents = stage.share(total, tj)
+        vce = stage.device_voltage(src[None, :], total[None, :], currents)
+        power = np.maximum(vce, 0.0) * currents
+        if cooling is not None:
+            sink_w = average * power.sum(axis=0)
+            if sink == "worst":
+                sink_w = np.full(m, sink_w.max())
+            sink_c = cooling.ambient_c + cooling.sink_ambient_k_per_w * sink_w
+            case = sink_c[None, :] + average * power * cooling.case_sink_k_per_w
+        else:
+            sink_c = np.full(m, stage.case_temp_c)
+            case = np.broadcast_to(sink_c, (n, m)).copy()
+        tj_new = case + power * z
+        change = np.max(np.abs(tj_new - tj))
+        tj = tj_new
+        if change < SETTLED_K:
+            converged = True
+            break
+        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
+            break
+    rth_diff = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
+    gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
+    runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
+    return SteadyState(currents, vce, power, case, tj, sink_c, gain, runaway_at)

@@ -1,0 +1,320 @@
+"""Test envelopes: what a load must cover, whether a stage covers it, and what a stage can promise.
+
+An envelope is a range of source voltages, a largest total current and a largest total
+power, continuous or pulsed, at an ambient (the stage's heatsink then settles at the
+envelope's worst power) or at a fixed case temperature. Device stress rises with both
+voltage and current, so the envelope's upper edge, I(V) = min(I_max, P_max/V), decides:
+it is mapped through the current sharing and the resistor drops to each device.
+
+The largest safe envelope is the opposite question: at each source voltage, the highest
+total current for which every device stays inside, found by bisection vectorized over
+voltages. Its limit table is what a load's controller should enforce.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from soacheck.errors import SoacheckError
+from soacheck.soa import BreakdownDerating
+from soacheck.stage import Stage, SteadyState, check_devices, steady_state
+from soacheck.units import DC, format_duration
+
+
+@dataclass(frozen=True)
+class Envelope:
+    """What a load must cover.
+
+    Attributes
+    ----------
+    v_min_v, v_max_v
+        Range of the source under test. [V]
+    current_a
+        Largest total current. [A]
+    power_w
+        Largest total power into the load. [W]
+    pulse_s, duty
+        DC (``inf``, duty 1), or pulses of a width at a duty cycle in (0, 1], or a single
+        pulse (duty 0). [s], [1]
+    ambient_c, case_temp_c
+        The stage's heatsink settles in this ambient; or the cases are held at this
+        temperature. [°C]
+    """
+
+    v_min_v: float
+    v_max_v: float
+    current_a: float
+    power_w: float
+    pulse_s: float = DC
+    duty: float = 1.0
+    ambient_c: float | None = 25.0
+    case_temp_c: float | None = None
+
+    def __post_init__(self) -> None:
+        if not (0 < self.v_min_v < self.v_max_v and math.isfinite(self.v_max_v)):
+            raise SoacheckError(
+                f"envelope: voltage range [{self.v_min_v:g}, {self.v_max_v:g}] V is empty; give [low, high] with "
+                "0 < low < high"
+            )
+        if not (self.current_a > 0 and self.power_w > 0):
+            raise SoacheckError("envelope: current and power must be above zero")
+        if not (0 <= self.duty <= 1) or (self.duty == 0 and math.isinf(self.pulse_s)):
+            raise SoacheckError(f"envelope: duty {self.duty:g} is outside (0, 1]; give tp/T, such as 0.1")
+
+    @property
+    def label(self) -> str:
+        if math.isinf(self.pulse_s):
+            timing = "dc"
+        elif self.duty == 0:
+            timing = f"single {format_duration(self.pulse_s)} pulse"
+        else:
+            timing = f"{format_duration(self.pulse_s)} pulses at duty {self.duty:g}"
+        return f"{self.v_min_v:g}–{self.v_max_v:g} V, {self.current_a:g} A, {self.power_w:g} W, {timing}"
+
+    def edge(self, points: int = 400) -> tuple[np.ndarray, np.ndarray]:
+        """The upper edge I(V) = min(I_max, P_max/V), log-spaced, with its corner. [V], [A]"""
+        v = np.geomspace(self.v_min_v, self.v_max_v, max(points, 2))
+        corner = self.power_w / self.current_a
+        if self.v_min_v < corner < self.v_max_v:
+            v = np.unique(np.r_[v, corner])
+        return v, np.minimum(self.current_a, self.power_w / v)
+
+
+def stage_for(stage: Stage, envelope: Envelope) -> tuple[Stage, list[str]]:
+    """The stage in the envelope's surroundings: its ambient, or its fixed case temperature."""
+    if envelope.case_temp_c is not None:
+        return replace(stage, cooling=None, case_temp_c=envelope.case_temp_c), [
+            f"cases held at {envelope.case_temp_c:g} °C (the envelope's case_temp)"
+        ]
+    if stage.cooling is not None:
+        cooling = replace(stage.cooling, ambient_c=envelope.ambient_c)
+        return replace(stage, cooling=cooling), [
+            f"heatsink at the steady state of the envelope's worst power, ambient {envelope.ambient_c:g} °C"
+        ]
+    return stage, [f"the stage holds its cases at {stage.case_temp_c:g} °C; the envelope's ambient is not used"]
+
+
+@dataclass(frozen=True, eq=False)
+class EnvelopeCheck:
+    """A stage checked against an envelope, along the envelope's upper edge.
+
+    ``outside`` lists the stretches of source voltage where the edge is not covered:
+    dicts with ``from_voltage``, ``to_voltage``, ``limit`` and ``worst_margin``.
+    """
+
+    envelope: Envelope
+    stage: Stage
+    source_v: np.ndarray
+    total_a: np.ndarray
+    state: SteadyState
+    allowed_a: np.ndarray
+    margin: np.ndarray
+    limit: np.ndarray
+    outside: list[dict]
+    assumptions: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def passed(self) -> bool:
+        return not self.outside
+
+    @property
+    def min_margin(self) -> float:
+        return float(np.min(self.margin))
+
+    @property
+    def worst(self) -> tuple[int, int]:
+        """(device, point) of the least margin."""
+        d, k = np.unravel_index(int(np.argmin(self.margin)), self.margin.shape)
+        return int(d), int(k)
+
+    def summary(self) -> dict[str, object]:
+        d, k = self.worst
+        return {
+            "envelope": self.envelope.label,
+            "part": self.stage.part.id,
+            "count": self.stage.count,
+            "verdict": "pass" if self.passed else "fail",
+            "min_margin": self.min_margin if np.isfinite(self.min_margin) else None,
+            "limit": str(self.limit[d, k]),
+            "worst_voltage": float(self.source_v[k]),
+            "worst_current": float(self.total_a[k]),
+            "heatsink_temp": float(self.state.sink_c.max()),
+            "tj_peak": float(self.state.junction_c.max()),
+            "outside": self.outside,
+            "assumptions": list(self.assumptions),
+        }
+
+
+def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, policy: BreakdownDerating):
+    """Allowed, margin and limit per device and point, with dropout and tj_max folded in."""
+    allowed, margin, limit = check_devices(
+        stage,
+        state.device_v,
+        state.device_a,
+        state.case_c,
+        state.junction_c,
+        state.runaway_at,
+        pulse_s=pulse_s,
+        duty=0.0 if math.isinf(pulse_s) else duty,
+        policy=policy,
+    )
+    dropout = state.device_v <= 0
+    limit = np.where(dropout, "dropout", limit)
+    margin = np.where(dropout, -np.inf, margin)
+    hot = state.junction_c > stage.part.ratings.tj_max_c
+    margin = np.where(hot | (limit == "runaway"), np.minimum(margin, -1e-9), margin)
+    return allowed, margin, limit
+
+
+def check_envelope(
+    stage: Stage, envelope: Envelope, *, policy: BreakdownDerating = "auto", points: int = 400
+) -> EnvelopeCheck:
+    """Check a stage against an envelope along its upper edge, every device.
+
+    A point fails where a device leaves its SOA (derated at its own case temperature, for
+    the envelope's pulse condition), where a junction passes tj_max, where the stage runs
+    away, or where the devices would need a negative V_CE (``dropout``: the resistors alone
+    drop more than the source gives, so the load cannot draw that current).
+    """
+    if envelope.v_min_v > stage.part.ratings.v_max_v:
+        raise SoacheckError(
+            f"envelope: its voltage range starts at {envelope.v_min_v:g} V, above {stage.part.id}'s v_max "
+            f"{stage.part.ratings.v_max_v:g} V"
+        )
+    placed, notes = stage_for(stage, envelope)
+    v, i = envelope.edge(points)
+    state = steady_state(placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, sink="worst")
+    allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, policy)
+    bad = (margin < 0).any(axis=0)
+    outside = []
+    if bad.any():
+        edges = np.diff(bad.astype(np.int8), prepend=np.int8(0), append=np.int8(0))
+        for start, stop in zip(np.flatnonzero(edges == 1), np.flatnonzero(edges == -1), strict=True):
+            block = margin[:, start:stop]
+            d, k = np.unravel_index(int(np.argmin(block)), block.shape)
+            worst = float(block[d, k])
+            outside.append(
+                {
+                    "from_voltage": float(v[start]),
+                    "to_voltage": float(v[stop - 1]),
+                    "limit": str(limit[d, start + k]),
+                    "worst_margin": worst if np.isfinite(worst) else None,
+                }
+            )
+    notes += [
+        f"the envelope's upper edge, {v.size} points, mapped through the current sharing and the resistor drops",
+        f"worst case of the V_BE band ({stage.vbe_spread_v * 1e3:g} mV): device 0 at its bottom",
+    ]
+    return EnvelopeCheck(envelope, placed, v, i, state, allowed, margin, limit, outside, tuple(notes))
+
+
+# --------------------------------------------------------------------------- the largest safe envelope
+
+
+@dataclass(frozen=True, eq=False)
+class SafeEnvelope:
+    """The highest total current a stage takes at each source voltage, and what limits it."""
+
+    stage: Stage
+    voltage_v: np.ndarray
+    max_current_a: np.ndarray
+    limit: np.ndarray
+    pulse_s: float
+    duty: float
+    assumptions: tuple[str, ...]
+
+    def points(self) -> list[dict]:
+        return [
+            {"voltage": float(v), "max_current": float(i), "limit": str(lim)}
+            for v, i, lim in zip(self.voltage_v, self.max_current_a, self.limit, strict=True)
+        ]
+
+
+def largest_safe_envelope(
+    stage: Stage,
+    voltages_v: np.ndarray,
+    *,
+    pulse_s: float = DC,
+    duty: float = 1.0,
+    policy: BreakdownDerating = "auto",
+    iterations: int = 48,
+) -> SafeEnvelope:
+    """Bisect, at every source voltage at once, for the highest safe total current.
+
+    The stage's own surroundings apply: its heatsink settles at each point's own power
+    (steady state), or its cases sit at the fixed temperature. The returned currents are
+    on the safe side of the bisection (relative width 2^-48).
+    """
+    v = np.asarray(voltages_v, dtype=float)
+    if v.size == 0 or np.any(~np.isfinite(v)) or np.any(v <= 0):
+        raise SoacheckError("--voltages: give source voltages above zero, such as 10,20,40")
+    ratings = stage.part.ratings
+    cap = max(ratings.i_max_a, ratings.i_pulse_max_a or 0.0) * stage.count * 2.0
+    lo = np.zeros(v.size)
+    hi = np.full(v.size, cap)
+
+    def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, sink="each")
+        _, margin, limit = _judge(stage, state, pulse_s, duty, policy)
+        d = np.argmin(margin, axis=0)
+        return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
+
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        ok, _ = safe(mid)
+        lo = np.where(ok, mid, lo)
+        hi = np.where(ok, hi, mid)
+    _, limit = safe(hi)
+    timing_note = "dc" if math.isinf(pulse_s) else f"{format_duration(pulse_s)} pulses at duty {duty:g}"
+    surroundings = (
+        f"heatsink at each point's own steady state, ambient {stage.cooling.ambient_c:g} °C"
+        if stage.cooling
+        else f"cases held at {stage.case_temp_c:g} °C"
+    )
+    notes = (
+        f"{stage.count} × {stage.part.id}, {timing_note}; {surroundings}",
+        f"ballast {stage.ballast_ohm:g} Ω each, series {stage.series_ohm:g} Ω, V_BE band {stage.vbe_spread_v * 1e3:g} "
+        "mV with device 0 at its bottom",
+        "each current is the highest at which every device stays inside its derated SOA and below tj_max, "
+        "without runaway and with V_CE above zero",
+        "between breakpoints use the lower of the two neighbouring currents (conservative); outside the "
+        "breakpoints, none",
+    )
+    return SafeEnvelope(stage, v, lo, limit, pulse_s, duty, notes)
+
+
+def round_down(value: float, digits: int = 6) -> float:
+    """``value`` to ``digits`` significant digits, never rounded up (a limit must not grow)."""
+    if value <= 0 or not math.isfinite(value):
+        return max(value, 0.0) if math.isfinite(value) else 0.0
+    scale = 10.0 ** (digits - 1 - math.floor(math.log10(value)))
+    return math.floor(value * scale) / scale
+
+
+def limit_table_c_header(table: SafeEnvelope, *, name: str = "SOA_LIMIT") -> str:
+    """The limit table as a C header a load's controller can include."""
+    n = table.voltage_v.size
+    volts = ", ".join(f"{v:.6g}f" for v in table.voltage_v)
+    amps = ", ".join(f"{round_down(i):.6g}f" for i in table.max_current_a)
+    comment = "\n".join(f" * - {note}" for note in table.assumptions)
+    return f"""/*
+ * Safe total current of a linear load against its source voltage, written by soacheck.
+ * Enforce it in the controller: between two breakpoints limit the current to the lower
+ * of their two currents; outside the breakpoints allow nothing. Values are rounded down.
+ * Assumptions:
+{comment}
+ * It does not replace the datasheet, a measured prototype, local codes or licensed practice.
+ */
+#ifndef {name}_H
+#define {name}_H
+
+#define {name}_POINTS {n}
+
+static const float {name}_VOLTAGE_V[{name}_POINTS] = {{{volts}}};
+static const float {name}_CURRENT_A[{name}_POINTS] = {{{amps}}};
+
+#endif /* {name}_H */
+"""
