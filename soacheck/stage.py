@@ -642,7 +642,8 @@ def steady_state(
         z = float(model.pulse_zth(pulse_s, duty))
     cooling = stage.cooling
     tj = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
-    converged = False
+    settled = np.zeros(m, dtype=bool)
+    gone = np.zeros(m, dtype=bool)
     for _ in range(max_iterations):
         currents = stage.share(total, tj)
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
@@ -656,15 +657,13 @@ def steady_state(
         else:
             sink_c = np.full(m, stage.case_temp_c)
             case = np.broadcast_to(sink_c, (n, m)).copy()
-        tj_new = case + power * z
-        change = np.max(np.abs(tj_new - tj))
+        tj_new = np.minimum(case + power * z, 2 * RUNAWAY_C)  # a point that runs away stops here
+        settled = np.max(np.abs(tj_new - tj), axis=0) < SETTLED_K
         tj = tj_new
-        if change < SETTLED_K:
-            converged = True
-            break
-        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
+        gone = (tj >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
+        if np.all(settled | gone):
             break
     rth_diff = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
     gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
-    runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
+    runaway_at = (gain >= 1.0).any(axis=0) | ((gone | ~settled) & (n > 1))
     return SteadyState(currents, vce, power, case, tj, sink_c, gain, runaway_at)
