@@ -1,0 +1,73 @@
+"""Benchmark: rank a library of 50 parts against a 10,000-point envelope.
+
+Builds 50 parts by scaling the bundled (invented) demo parts in memory, then times
+`soacheck.compare.compare` (margin, limit, fewest devices and highest case temperature
+of each candidate, one device at the envelope's case temperature) against a bare numpy
+pass over the same 10,000 points (``v * i``). Target: under a second for the comparison.
+Prints the time of both and their ratio on its last line as ``ratio_vs_numpy_pass: X``.
+
+Run: ``python benchmarks/compare_library.py [--parts N] [--points N]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+from dataclasses import replace
+
+import numpy as np
+
+from soacheck.compare import compare
+from soacheck.envelope import Envelope
+from soacheck.files import read_part
+from soacheck.library import bundled_library, list_parts
+
+
+def scaled_library(count: int) -> list:
+    """`count` parts: the demo parts with currents and ratings scaled by 0.5-2x (invented)."""
+    base = [read_part(entry.folder) for entry in list_parts([bundled_library()])]
+    parts = []
+    for k in range(count):
+        part = base[k % len(base)]
+        scale = 0.5 + 1.5 * (k / max(count - 1, 1))
+        curves = tuple(replace(c, current_a=c.current_a * scale) for c in part.curves)
+        ratings = replace(
+            part.ratings,
+            i_max_a=part.ratings.i_max_a * scale,
+            p_max_w=part.ratings.p_max_w * scale,
+            rth_jc_k_per_w=part.ratings.rth_jc_k_per_w / scale,
+            i_pulse_max_a=None if part.ratings.i_pulse_max_a is None else part.ratings.i_pulse_max_a * scale,
+        )
+        parts.append(replace(part, id=f"{part.id}-x{scale:.2f}-{k}", curves=curves, ratings=ratings,
+                             foster_r_k_per_w=part.foster_r_k_per_w / scale))
+    return parts
+
+
+def best_of(runs: int, fn) -> float:
+    best = float("inf")
+    for _ in range(runs):
+        start = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - start)
+    return best
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--parts", type=int, default=50)
+    parser.add_argument("--points", type=int, default=10_000)
+    args = parser.parse_args()
+    parts = scaled_library(args.parts)
+    envelope = Envelope(5.0, 60.0, 20.0, 150.0, ambient_c=None, case_temp_c=60.0)
+    v, i = envelope.edge(args.points)
+    ranked = compare(parts, envelope, points=args.points)  # warm-up, and the answer
+    t_compare = best_of(3, lambda: compare(parts, envelope, points=args.points))
+    t_bare = best_of(20, lambda: v * i)
+    passing = sum(c.passes for c in ranked)
+    print(f"parts: {len(parts)}, envelope points: {v.size}, passing: {passing}, best: {ranked[0].part}")
+    print(f"compare: {t_compare * 1e3:.1f} ms (target under 1000 ms); bare numpy pass v*i: {t_bare * 1e6:.1f} us")
+    print(f"ratio_vs_numpy_pass: {t_compare / t_bare:.0f}")
+
+
+if __name__ == "__main__":
+    main()
