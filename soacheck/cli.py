@@ -23,14 +23,24 @@ from rich.markup import escape
 from rich.progress import Progress
 from rich.table import Table as RichTable
 
-from soacheck.battery import MODES, Battery, chemistry
+from soacheck.battery import MODES
 from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
+from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
 from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, DISCHARGE_A, demo_battery, demo_points, demo_stage
 from soacheck.envelope import SafeEnvelope, check_envelope, largest_safe_envelope, limit_table_c_header
 from soacheck.errors import SoacheckError
-from soacheck.files import iter_trace, read_envelope, read_ocv, read_part, read_points
+from soacheck.files import (
+    battery_from,
+    discharge_from_table,
+    iter_trace,
+    read_envelope,
+    read_part,
+    read_points,
+    read_toml,
+    read_trace,
+)
 from soacheck.library import find_part, library_folders, list_parts, read_stage
 from soacheck.parts import Part
 from soacheck.plots import new_axes, plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
@@ -510,12 +520,6 @@ def _stage(path: Path, library: list[Path] | None) -> Stage:
     return read_stage(path, library_folders(library or []))
 
 
-def _battery(battery: str, cells: int, capacity: float, internal_resistance: float) -> Battery:
-    source = Path(battery)
-    chem = read_ocv(source) if source.suffix.lower() == ".csv" or source.exists() else chemistry(battery)
-    return Battery(chem, cells, capacity, internal_resistance)
-
-
 def _check_outputs(samples: int, plot: Path | None, force: bool) -> None:
     if samples < 10:
         raise SoacheckError("--samples must be at least 10")
@@ -575,7 +579,7 @@ def discharge(
     """Discharge a battery through the stage and check every device all the way down."""
     policy = _policy(breakdown_derating)
     loaded = _stage(stage, library)
-    pack = _battery(battery, cells, capacity, internal_resistance)
+    pack = battery_from(battery, cells, capacity, internal_resistance)
     if mode not in MODES:
         raise SoacheckError(f"--mode: '{mode}' is not one of cc, cp, cr")
     _check_outputs(samples, plot, force)
@@ -831,6 +835,13 @@ def compare(
     parts: Annotated[list[str] | None, typer.Argument(help="Part ids or folders; or --all.")] = None,
     all_parts: Annotated[bool, typer.Option("--all", help="Every part in the libraries.")] = False,
     envelope_file: Annotated[Path | None, typer.Option("--envelope", help="Envelope file (TOML).")] = None,
+    discharge_file: Annotated[
+        Path | None, typer.Option("--discharge", help="Discharge file (TOML); needs --stage.")
+    ] = None,
+    trace_file: Annotated[Path | None, typer.Option("--trace", help="Trace CSV: time,voltage,current.")] = None,
+    case_temp: Annotated[
+        float, typer.Option("--case-temp", "-t", help="Case of a single device on a trace [°C].")
+    ] = 25.0,
     stage: Annotated[Path | None, typer.Option("--stage", help="Stage each candidate takes its place in.")] = None,
     plot: Annotated[Path | None, typer.Option("--plot", help="Overlay plot (.png/.svg/.pdf).")] = None,
     breakdown_derating: PolicyOpt = "auto",
@@ -843,17 +854,31 @@ def compare(
     folders = library_folders(library or [])
     if all_parts == bool(parts):
         raise SoacheckError("name the candidate parts, or give --all (not both)")
-    if envelope_file is None:
-        raise SoacheckError("give the job as --envelope FILE")
+    jobs = [f for f in (envelope_file, discharge_file, trace_file) if f is not None]
+    if len(jobs) != 1:
+        raise SoacheckError("give the job as one of --envelope FILE, --discharge FILE or --trace FILE")
+    if discharge_file is not None and stage is None:
+        raise SoacheckError("--discharge needs --stage: a battery discharges through a stage")
     if plot is not None:
         _plot_suffix(plot)
         _refuse_overwrite(plot, force)
     candidates = (
         [read_part(e.folder) for e in list_parts(folders)] if all_parts else [find_part(p, folders) for p in parts]
     )
-    env = read_envelope(envelope_file)
     loaded_stage = read_stage(stage, folders) if stage is not None else None
-    ranked = compare_parts(candidates, env, stage=loaded_stage, policy=policy)
+    if envelope_file is not None:
+        job = env = read_envelope(envelope_file)
+    elif discharge_file is not None:
+        path = discharge_from_table(
+            read_toml(discharge_file, "discharge"), where=str(discharge_file), base=discharge_file.parent
+        )
+        job = TrajectoryJob(path)
+    else:
+        job = TrajectoryJob(read_trace(trace_file), case_temp_c=case_temp)
+    ranked = compare_parts(candidates, job, stage=loaded_stage, policy=policy)
+    label = env.label if envelope_file is not None else job.trajectory.label
+    if plot is not None and envelope_file is None:
+        raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
     if plot is not None:
         if env.case_temp_c is not None:
             tc = env.case_temp_c
@@ -870,14 +895,14 @@ def compare(
             policy=policy,
         ).figure.savefig(plot)
     payload = {
-        "envelope": env.label,
+        "job": label,
         "stage": str(stage) if stage else None,
         "candidates": [c.as_dict() for c in ranked],
     }
     if as_json:
         _echo_json(payload)
     else:
-        out = RichTable(title=escape(f"candidates for {env.label}"), title_justify="left")
+        out = RichTable(title=escape(f"candidates for {label}"), title_justify="left")
         for name in (
             "part",
             "verdict",

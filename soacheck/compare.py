@@ -1,7 +1,8 @@
 """Ranking candidate parts for a job: pass or fail, margin, fewest devices, cooling headroom.
 
+A job is an envelope, or a trajectory of the load (a discharge, a sweep, a recorded trace).
 Each candidate takes the stage's place (its count, resistors and cooling), or stands alone
-at the envelope's case temperature when no stage is given. For each it finds the minimum
+at the job's case temperature when no stage is given. For each it finds the minimum
 margin along the envelope's edge and its limit, the fewest devices in parallel that pass
 (a search over the count; equal sharing with no stage), and how much worse the cooling
 may get: the highest heatsink resistance at which it still passes, or, alone at a fixed
@@ -16,11 +17,13 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from soacheck.envelope import Envelope, check_envelope
+from soacheck.battery import Trajectory
+from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.soa import BreakdownDerating, allowed_current, max_case_temp
-from soacheck.stage import Stage
+from soacheck.stage import Stage, run_stage
+from soacheck.trace import TraceChecker
 
 MAX_COUNT = 256
 SEARCH_POINTS = 100
@@ -105,40 +108,102 @@ def _alone(part: Part, envelope: Envelope, policy: BreakdownDerating, points: in
     )
 
 
-def _in_stage(part: Part, stage: Stage, envelope: Envelope, policy: BreakdownDerating, points: int) -> Candidate:
-    placed = stage.with_part(part)
-    check = check_envelope(placed, envelope, policy=policy, points=points)
-    summary = check.summary()
+@dataclass(frozen=True, eq=False)
+class TrajectoryJob:
+    """A planned test as a trajectory of the load: a discharge, a sweep or a recorded trace.
 
-    coarse = min(points, SEARCH_POINTS)
+    ``case_temp_c`` holds a single device's case when no stage is given. [°C]
+    """
 
-    def passes(count: int) -> bool:
-        return check_envelope(replace(placed, count=count), envelope, policy=policy, points=coarse).passed
+    trajectory: Trajectory
+    case_temp_c: float = 25.0
 
-    min_count = _fewest(passes, placed.count)
-    max_rth = None
-    if placed.cooling is not None and envelope.case_temp_c is None and check.passed:
-        max_rth = _highest(
-            lambda r: (
-                check_envelope(
-                    replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)),
-                    envelope,
-                    policy=policy,
-                    points=points,
-                ).passed
-            ),
-            placed.cooling.sink_ambient_k_per_w,
+
+Job = Envelope | TrajectoryJob
+
+
+def _rate(job: Job, stage: Stage, policy: BreakdownDerating, points: int) -> tuple[bool, float | None, str, float]:
+    """(passes, least margin, limit there, source voltage there) of a stage on a job."""
+    if isinstance(job, Envelope):
+        check = check_envelope(stage, job, policy=policy, points=points)
+        summary = check.summary()
+        return check.passed, summary["min_margin"], str(summary["limit"]), float(summary["worst_voltage"])
+    path = job.trajectory
+    run = run_stage(stage, path.time_s, path.source_v, path.total_a, policy=policy)
+    summary = run.summary()
+    k = int(np.argmin(np.abs(path.time_s - summary["worst_margin_time"])))
+    limit = summary["limit"] or str(run.limit[summary["worst_device"], k])
+    return run.passed, summary["worst_margin"], limit, float(path.source_v[k])
+
+
+def _single_trace(part: Part, job: TrajectoryJob, count: int, policy: BreakdownDerating):
+    """One device's share of a trace at a fixed case temperature, pulses credited as in ``trace``."""
+    checker = TraceChecker(part, tc_c=job.case_temp_c, policy=policy, plot_points=0)
+    path = job.trajectory
+    checker.feed(path.time_s, path.source_v, path.total_a / count)
+    return checker.result()
+
+
+def _trace_alone(part: Part, job: TrajectoryJob, policy: BreakdownDerating) -> Candidate:
+    result = _single_trace(part, job, 1, policy)
+    min_count = _fewest(lambda n: _single_trace(part, job, n, policy).passed, 1)
+    hottest = None
+    if result.passed:
+        hottest = _highest_linear(
+            lambda tc: _single_trace(part, replace(job, case_temp_c=tc), 1, policy).passed,
+            job.case_temp_c,
+            part.ratings.tj_max_c,
         )
+    k = int(np.argmin(np.abs(job.trajectory.time_s - (result.worst_margin_time_s or 0.0))))
     return Candidate(
         part.id,
-        check.passed,
-        summary["min_margin"],
-        summary["limit"],
+        result.passed,
+        result.worst_margin,
+        result.limit or "—",
         min_count,
-        max_rth,
         None,
-        float(summary["worst_voltage"]),
+        hottest,
+        float(job.trajectory.source_v[k]),
     )
+
+
+def _in_stage(part: Part, stage: Stage, job: Job, policy: BreakdownDerating, points: int) -> Candidate:
+    placed = stage.with_part(part)
+    if isinstance(job, Envelope):
+        placed, _ = stage_for(placed, job)
+    passed, margin, limit, worst_v = _rate(job, placed, policy, points)
+    coarse = min(points, SEARCH_POINTS)
+    rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
+    min_count = _fewest(lambda n: _rate(rough, replace(placed, count=n), policy, coarse)[0], placed.count)
+    max_rth = None
+    if placed.cooling is not None and passed:
+        max_rth = _highest(
+            lambda r: _rate(
+                job, replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)), policy, points
+            )[0],
+            placed.cooling.sink_ambient_k_per_w,
+        )
+    return Candidate(part.id, passed, margin, limit, min_count, max_rth, None, worst_v)
+
+
+def _thinned(job: TrajectoryJob, samples: int) -> TrajectoryJob:
+    """The job on about ``samples`` evenly picked samples, for the searches over count."""
+    path = job.trajectory
+    step = max(1, path.time_s.size // samples)
+    keep = slice(None, None, step)
+    thin = Trajectory(path.time_s[keep], path.source_v[keep], path.total_a[keep], path.label, path.notes)
+    return replace(job, trajectory=thin)
+
+
+def _highest_linear(passes: Callable[[float], bool], start: float, stop: float, *, tol: float = 0.1) -> float:
+    """The largest x in [start, stop] that passes, given that ``start`` passes (bisection to ``tol``)."""
+    if passes(stop):
+        return stop
+    lo, hi = start, stop
+    while hi - lo > tol:
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if passes(mid) else (lo, mid)
+    return lo
 
 
 def _highest(passes: Callable[[float], bool], start: float, *, rel_tol: float = 1e-3) -> float:
@@ -158,7 +223,7 @@ def _highest(passes: Callable[[float], bool], start: float, *, rel_tol: float = 
 
 def compare(
     parts: Sequence[Part],
-    envelope: Envelope,
+    job: Job,
     *,
     stage: Stage | None = None,
     policy: BreakdownDerating = "auto",
@@ -166,19 +231,35 @@ def compare(
 ) -> list[Candidate]:
     """Every candidate on the job, best first: passing before failing, then by margin.
 
+    Parameters
+    ----------
+    parts
+        The candidates.
+    job
+        An envelope, or a trajectory (discharge, sweep, trace) of the load.
+    stage
+        The stage each candidate takes its place in. Without one: a single device at the
+        envelope's (or the trajectory job's) case temperature, currents shared evenly
+        when counting devices.
+
     Raises
     ------
     SoacheckError
-        When the envelope's voltage range starts above every candidate's v_max.
+        When the job's voltages start above every candidate's v_max.
     """
-    usable = [p for p in parts if p.ratings.v_max_v >= envelope.v_min_v]
-    if not usable:
+    lowest_v = job.v_min_v if isinstance(job, Envelope) else float(np.min(job.trajectory.source_v))
+    if not any(p.ratings.v_max_v >= lowest_v for p in parts):
         raise SoacheckError(
-            f"envelope: {envelope.v_min_v:g} V and up is past every candidate's v_max "
-            f"(highest {max(p.ratings.v_max_v for p in parts):g} V); lower the range or add parts"
+            f"the job's {lowest_v:g} V and up is past every candidate's v_max "
+            f"(highest {max(p.ratings.v_max_v for p in parts):g} V); lower the voltages or add parts"
         )
-    results = [
-        _alone(p, envelope, policy, points) if stage is None else _in_stage(p, stage, envelope, policy, points)
-        for p in parts
-    ]
+
+    def rate(part: Part) -> Candidate:
+        if stage is not None:
+            return _in_stage(part, stage, job, policy, points)
+        if isinstance(job, Envelope):
+            return _alone(part, job, policy, points)
+        return _trace_alone(part, job, policy)
+
+    results = [rate(p) for p in parts]
     return sorted(results, key=lambda c: (not c.passes, -(c.min_margin if c.min_margin is not None else -math.inf)))

@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from soacheck.battery import Chemistry
+from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, discharge
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import KINDS, Part, Ratings, SoaCurve
@@ -215,13 +215,7 @@ def _number_list(where: str, value: Any) -> np.ndarray:
 
 def read_part_toml(path: Path) -> dict[str, Any]:
     """Parse ``part.toml`` into a dict, turning syntax errors into a clear message."""
-    try:
-        with open(path, "rb") as handle:
-            return tomllib.load(handle)
-    except FileNotFoundError:
-        raise SoacheckError(f"{path}: no such file; a part folder holds {PART_FILE} and {SOA_FILE}") from None
-    except tomllib.TOMLDecodeError as err:
-        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+    return read_toml(path, "part")
 
 
 def read_part(folder: str | Path) -> Part:
@@ -637,12 +631,58 @@ def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
 
 def read_envelope(path: str | Path) -> Envelope:
     """Read an envelope file (TOML): voltage = [low, high], current, power, pulse, duty, ambient or case_temp."""
+    return envelope_from_table(read_toml(path, "envelope"), where=str(path))
+
+
+# --------------------------------------------------------------------------- discharges as files
+
+_DISCHARGE_KEYS = ("battery", "cells", "capacity", "mode", "setpoint", "cutoff", "internal_resistance", "samples")
+
+
+def battery_from(name: str, cells: int, capacity_ah: float, r_int_ohm: float, *, base: Path = Path()) -> Battery:
+    """A pack from a chemistry preset name or the path of an OCV CSV (relative to ``base``)."""
+    source = base / name
+    chem = read_ocv(source) if source.suffix.lower() == ".csv" or source.is_file() else chemistry(name)
+    return Battery(chem, cells, capacity_ah, r_int_ohm)
+
+
+def discharge_from_table(data: dict[str, Any], *, where: str, base: Path) -> Trajectory:
+    """A discharge described in TOML (a discharge file, or a job in a plan) as a trajectory."""
+    check_keys(where, data, _DISCHARGE_KEYS, ("battery", "cells", "capacity", "mode", "setpoint"))
+    cells = data["cells"]
+    if isinstance(cells, bool) or not isinstance(cells, int) or cells < 1:
+        raise SoacheckError(f"{where}: cells is {cells!r}; write a whole number of cells in series")
+    pack = battery_from(
+        toml_text(f"{where}: battery", data["battery"]),
+        cells,
+        toml_number(f"{where}: capacity", data["capacity"]),
+        toml_number(f"{where}: internal_resistance", data.get("internal_resistance", 0.0), positive=False),
+        base=base,
+    )
+    mode = toml_text(f"{where}: mode", data["mode"]).lower()
+    if mode not in MODES:
+        raise SoacheckError(f"{where}: mode '{mode}' is not one of cc, cp, cr{did_you_mean(mode, MODES)}")
+    cutoff = toml_number(f"{where}: cutoff", data["cutoff"]) if "cutoff" in data else None
+    samples = data.get("samples", 2000)
+    if isinstance(samples, bool) or not isinstance(samples, int) or samples < 10:
+        raise SoacheckError(f"{where}: samples is {samples!r}; write a whole number of at least 10")
+    return discharge(pack, mode, toml_number(f"{where}: setpoint", data["setpoint"]), cutoff_v=cutoff, samples=samples)
+
+
+def read_toml(path: str | Path, what: str) -> dict[str, Any]:
+    """Parse a TOML file, turning a missing file or a syntax error into a clear message."""
     path = Path(path)
     try:
         with open(path, "rb") as handle:
-            data = tomllib.load(handle)
+            return tomllib.load(handle)
     except FileNotFoundError:
-        raise SoacheckError(f"{path}: no such envelope file; check the path") from None
+        raise SoacheckError(f"{path}: no such {what} file; check the path") from None
     except tomllib.TOMLDecodeError as err:
         raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
-    return envelope_from_table(data, where=str(path))
+
+
+def read_trace(path: str | Path) -> Trajectory:
+    """A whole trace in memory, as the load's trajectory (for comparisons and plans)."""
+    chunks = list(iter_trace(path))
+    t, v, i = (np.concatenate([c[k] for c in chunks]) for k in range(3))
+    return Trajectory(t, v, i, f"trace {Path(path).name}", (f"recorded trace {path}",))

@@ -8,14 +8,13 @@ then the folders in ``SOACHECK_LIBRARY`` (separated like PATH), then the bundled
 from __future__ import annotations
 
 import os
-import tomllib
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from soacheck.errors import SoacheckError, nearest
-from soacheck.files import PART_FILE, check_keys, read_part, toml_number, toml_text
+from soacheck.files import PART_FILE, check_keys, read_part, read_toml, toml_number, toml_text
 from soacheck.parts import Part
 from soacheck.stage import Stage
 from soacheck.trace import Cooling
@@ -101,13 +100,7 @@ def read_stage(path: str | Path, folders) -> Stage:
     The keys are documented in ``examples/stage.toml``.
     """
     path = Path(path)
-    try:
-        with open(path, "rb") as handle:
-            data = tomllib.load(handle)
-    except FileNotFoundError:
-        raise SoacheckError(f"{path}: no such stage file; check the path") from None
-    except tomllib.TOMLDecodeError as err:
-        raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
+    data = read_toml(path, "stage")
     return stage_from_table(data, folders, where=str(path), base=path.parent)
 
 

@@ -376,6 +376,8 @@ def run_stage(
         if change < SETTLED_K:
             converged = True
             break
+        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
+            break
     gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
     runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
     allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, policy=policy)

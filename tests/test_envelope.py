@@ -260,3 +260,29 @@ def test_envelope_past_v_max_of_the_stage_part_is_refused():
     with pytest.raises(SoacheckError, match="above"):
         check_envelope(Stage(bundled("demo-npn-to220-62w"), 1, case_temp_c=25.0),
                        Envelope(100.0, 200.0, 1.0, 10.0, case_temp_c=25.0))
+
+
+def test_compare_on_a_discharge_and_on_a_trace(tmp_path):
+    discharge = tmp_path / "discharge.toml"
+    discharge.write_text('battery = "nmc"\ncells = 10\ncapacity = 2\ninternal_resistance = 0.1\nmode = "cc"\n'
+                         "setpoint = 3\nsamples = 300\n")
+    stage = tmp_path / "stage.toml"
+    stage.write_text('part = "demo-npn-to3-250w"\ncount = 2\nballast = 0.1\nvbe_spread = 0.02\ncase_temp = 40\n')
+    result = runner.invoke(app, ["compare", "demo-npn-to3-250w", "demo-npn-to247-125w", "--discharge", str(discharge),
+                                 "--stage", str(stage), "--json"])
+    assert result.exit_code == 0, result.output
+    rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
+    # 1.5 A per device at about 40 V: inside the TO-3 part's 250 W curve, far past the TO-247
+    # part's second breakdown (4.167 (40/30)^-2.5 = 2.03 A at 25 °C, derated like thermal)
+    assert rows["demo-npn-to3-250w"]["passes"] and not rows["demo-npn-to247-125w"]["passes"]
+    assert rows["demo-npn-to247-125w"]["limit"] == "second_breakdown"
+    assert rows["demo-npn-to247-125w"]["min_count"] > 2
+    trace = tmp_path / "trace.csv"
+    t = np.linspace(0, 1, 1001)
+    pd.DataFrame({"time": t, "voltage": 40.0, "current": 3.0}).to_csv(trace, index=False)
+    result = runner.invoke(app, ["compare", "demo-npn-to3-250w", "demo-npn-to247-125w", "--trace", str(trace),
+                                 "--case-temp", "25", "--json"])
+    rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
+    # one device, 3 A at 40 V: the TO-247 part allows 2.03 A, so it needs 2 devices sharing evenly
+    assert rows["demo-npn-to247-125w"]["min_count"] == 2
+    assert rows["demo-npn-to3-250w"]["passes"] and rows["demo-npn-to3-250w"]["max_case_temp"] > 25
