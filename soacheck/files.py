@@ -9,7 +9,10 @@ from __future__ import annotations
 
 import contextlib
 import math
+import os
 import re
+import shutil
+import tempfile
 import tomllib
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -23,7 +26,7 @@ from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, d
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import KINDS, Part, Ratings, SoaCurve
-from soacheck.units import parse_duration
+from soacheck.units import format_duration, parse_duration
 
 PART_FILE = "part.toml"
 SOA_FILE = "soa.csv"
@@ -686,3 +689,94 @@ def read_trace(path: str | Path) -> Trajectory:
     chunks = list(iter_trace(path))
     t, v, i = (np.concatenate([c[k] for c in chunks]) for k in range(3))
     return Trajectory(t, v, i, f"trace {Path(path).name}", (f"recorded trace {path}",))
+
+
+# --------------------------------------------------------------------------- writing, never losing what was there
+
+
+def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = False) -> None:
+    """Write a part folder atomically: all its files appear at once, or none.
+
+    The files are written into a hidden folder beside the target and renamed into place.
+    An existing folder is replaced only with ``force`` (and then also atomically).
+    """
+    folder = Path(folder)
+    if folder.exists() and not force:
+        raise SoacheckError(f"{folder}: exists; choose another id or add --force to replace it")
+    folder.parent.mkdir(parents=True, exist_ok=True)
+    staging = Path(tempfile.mkdtemp(prefix=f".{folder.name}.", dir=folder.parent))
+    try:
+        for name, text in files.items():
+            (staging / name).write_text(text, encoding="utf-8")
+        if folder.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{folder.name}.old.", dir=folder.parent))
+            os.replace(folder, old / folder.name)
+            os.replace(staging, folder)
+            shutil.rmtree(old)
+        else:
+            os.replace(staging, folder)
+    finally:
+        if staging.exists():
+            shutil.rmtree(staging)
+
+
+def _replace_text(path: Path, text: str) -> None:
+    """Write a file through a temporary file and an atomic rename."""
+    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8") as out:
+            out.write(text)
+        os.replace(temporary, path)
+    finally:
+        if os.path.exists(temporary):
+            os.remove(temporary)
+
+
+def add_curve(path: Path, pulse: str, voltage_v: np.ndarray, current_a: np.ndarray, *, force: bool = False) -> int:
+    """Add one pulse curve to ``soa.csv``, keeping every other row; returns the rows written.
+
+    A curve of the same pulse width already in the file is replaced only with ``force``.
+    """
+    path = Path(path)
+    label = format_duration(parse_duration(pulse, where="--pulse"))
+    kept: list[str] = []
+    if path.exists():
+        table = read_table(path, numeric=("voltage", "current"), text=("pulse",))
+        frame = table.frame
+        same = np.array([format_duration(parse_duration(p, where=f"{path}: pulse")) == label for p in frame["pulse"]])
+        if same.any() and not force:
+            raise SoacheckError(f"{path}: already has a '{label}' curve; add --force to replace it")
+        kept = [
+            f"{p},{float(v)!r},{float(c)!r}"
+            for p, v, c, s in zip(frame["pulse"], frame["voltage"], frame["current"], same, strict=True)
+            if not s
+        ]
+    rows = [f"{label},{significant(v)},{significant(c)}" for v, c in zip(voltage_v, current_a, strict=True)]
+    _replace_text(path, "\n".join(["pulse,voltage,current", *kept, *rows]) + "\n")
+    return len(rows)
+
+
+def write_zth(path: Path, time_s: np.ndarray, zth_k_per_w: np.ndarray, *, force: bool = False) -> None:
+    """Write ``zth.csv`` (one curve per part); an existing file is replaced only with ``force``."""
+    path = Path(path)
+    if path.exists() and not force:
+        raise SoacheckError(f"{path}: exists; add --force to replace it")
+    rows = [f"{significant(t)},{significant(z)}" for t, z in zip(time_s, zth_k_per_w, strict=True)]
+    _replace_text(path, "\n".join(["time,zth", *rows]) + "\n")
+
+
+def significant(value: float, digits: int = 4) -> str:
+    """A digitized value written to ``digits`` significant digits (more would be false precision)."""
+    return f"{float(f'{value:.{digits}g}'):g}"
+
+
+def read_image(path: str | Path) -> np.ndarray:
+    """A PNG (or another format matplotlib reads) as an array ``(rows, columns, channels)``, 0-1."""
+    import matplotlib.image
+
+    try:
+        return np.asarray(matplotlib.image.imread(str(path)), dtype=float)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such image; check the path") from None
+    except (OSError, ValueError, SyntaxError) as err:
+        raise SoacheckError(f"{path}: not an image matplotlib can read ({err}); save the plot as PNG") from None

@@ -64,6 +64,24 @@ def list_parts(folders: Sequence[Path]) -> list[LibraryEntry]:
     return sorted(seen.values(), key=lambda e: e.id)
 
 
+def find_part_folder(ref: str, folders: Sequence[Path]) -> Path:
+    """The folder of a part given by id (searched in ``folders``) or by path, without reading it."""
+    path = Path(ref)
+    if (path / PART_FILE).is_file():
+        return path
+    if os.sep in ref or (os.altsep and os.altsep in ref) or path.exists():
+        raise SoacheckError(f"{ref}: no {PART_FILE} in that folder; a part folder holds {PART_FILE} and soa.csv")
+    for library in folders:
+        if (library / ref / PART_FILE).is_file():
+            return library / ref
+    ids = [e.id for e in list_parts(folders)]
+    close = ", ".join(f"'{i}'" for i in nearest(ref, ids))
+    raise SoacheckError(
+        f"unknown part '{ref}'; the nearest ids are {close}; `soacheck parts` lists all {len(ids)}, "
+        "or give the path of a part folder"
+    )
+
+
 def find_part(ref: str, folders: Sequence[Path]) -> Part:
     """Load a part given by id (searched in ``folders``) or by the path of its folder.
 
@@ -72,20 +90,7 @@ def find_part(ref: str, folders: Sequence[Path]) -> Part:
     SoacheckError
         When no part has that id, naming the nearest ids.
     """
-    path = Path(ref)
-    if (path / PART_FILE).is_file():
-        return read_part(path)
-    if os.sep in ref or (os.altsep and os.altsep in ref) or path.exists():
-        raise SoacheckError(f"{ref}: no {PART_FILE} in that folder; a part folder holds {PART_FILE} and soa.csv")
-    for library in folders:
-        if (library / ref / PART_FILE).is_file():
-            return read_part(library / ref)
-    ids = [e.id for e in list_parts(folders)]
-    close = ", ".join(f"'{i}'" for i in nearest(ref, ids))
-    raise SoacheckError(
-        f"unknown part '{ref}'; the nearest ids are {close}; `soacheck parts` lists all {len(ids)}, "
-        "or give the path of a part folder"
-    )
+    return read_part(find_part_folder(ref, folders))
 
 
 # --------------------------------------------------------------------------- stages

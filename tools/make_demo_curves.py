@@ -21,6 +21,8 @@ from pathlib import Path
 
 import numpy as np
 
+from soacheck.files import significant
+
 ROOT = Path(__file__).resolve().parents[1] / "curves"
 PULSES_S = {"100us": 1e-4, "1ms": 1e-3, "10ms": 1e-2}
 
@@ -87,10 +89,6 @@ def curve(demo: Demo, label: str) -> tuple[np.ndarray, np.ndarray]:
     if demo.r_on is not None:
         lines.append((-math.log(demo.r_on), 1.0))
     return envelope(lines, demo.v_start, demo.v_max)
-
-
-def significant(x: float, digits: int = 4) -> str:
-    return f"{float(f'{x:.{digits}g}'):g}"
 
 
 def write(demo: Demo) -> None:

@@ -1,0 +1,262 @@
+"""From a datasheet picture to a linted part: digitizing, lint, and parts from ratings.
+
+The round trip draws a known curve with matplotlib (a reference plotting library) on
+log-log axes, takes its pixel positions from matplotlib's own transform, and recovers the
+values within one pixel's error. Lint rules name their sources in soacheck/lint.py.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+from matplotlib.figure import Figure
+from typer.testing import CliRunner
+
+from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
+from soacheck.cli import app
+from soacheck.files import read_image, read_part
+from soacheck.library import bundled_library, list_parts
+from soacheck.lint import lint_part
+from soacheck.soa import allowed_current
+
+from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part
+
+runner = CliRunner(env={"COLUMNS": "200"})
+
+# the reference DC curve of methods.md §1 [con]
+KNOWN_V = np.array([1.0, 8.3333, 40.0, 100.0])
+KNOWN_I = np.array([15.0, 15.0, 3.125, 0.5])
+CURVE_COLOUR = "#d1495b"
+
+
+@pytest.fixture(scope="module")
+def drawn(tmp_path_factory):
+    """The known curve drawn on log-log axes to a PNG, with pixels of reference ticks and vertices."""
+    folder = tmp_path_factory.mktemp("drawn")
+    fig = Figure(figsize=(8, 6), dpi=100)
+    ax = fig.add_axes((0.1, 0.1, 0.85, 0.85))
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    ax.set_xlim(0.5, 200)
+    ax.set_ylim(0.1, 50)
+    ax.plot(KNOWN_V, KNOWN_I, color=CURVE_COLOUR, lw=2)
+    path = folder / "plot.png"
+    fig.savefig(path, dpi=100)
+    height = fig.get_size_inches()[1] * 100
+
+    def pixel(v, i):
+        x, y = ax.transData.transform(np.column_stack([np.atleast_1d(v), np.atleast_1d(i)])).T
+        return x, height - y  # image rows count downward
+
+    ticks_x, _ = pixel([1.0, 100.0], [1.0, 1.0])
+    _, ticks_y = pixel([1.0, 1.0], [0.1, 10.0])
+    return {"path": path, "pixel": pixel, "ticks_x": ticks_x, "ticks_y": ticks_y}
+
+
+def calibrations(drawn):
+    (x1, x2), (y1, y2) = drawn["ticks_x"], drawn["ticks_y"]
+    return f"{x1:.2f}=1,{x2:.2f}=100", f"{y1:.2f}=0.1,{y2:.2f}=10"
+
+
+def one_pixel_relative(drawn):
+    """A pixel's share of a decade on the coarser axis, as a relative error in value."""
+    (x1, x2), (y1, y2) = drawn["ticks_x"], drawn["ticks_y"]
+    pixels_per_decade = min(abs(x2 - x1) / 2, abs(y2 - y1) / 2)
+    return 10 ** (1 / pixels_per_decade) - 1
+
+
+def test_log_axis_calibration_by_hand():
+    axis = AxisCalibration(100, 1.0, 300, 100.0)
+    # two decades over 200 px: pixel 200 is 10, pixel 250 is 10^1.5
+    assert axis.value([200, 250]) == pytest.approx([10.0, 10**1.5])
+    linear = AxisCalibration(0, 0.0, 100, 50.0, log=False)
+    assert linear.value(40) == pytest.approx(20.0)
+
+
+def test_round_trip_of_picked_points_within_one_pixel(drawn, tmp_path):
+    px, py = drawn["pixel"](KNOWN_V, KNOWN_I)
+    picked = tmp_path / "picked.csv"
+    # a person picks to the nearest pixel
+    pd.DataFrame({"x": np.round(px), "y": np.round(py)}).to_csv(picked, index=False)
+    x_cal, y_cal = calibrations(drawn)
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out)
+    tolerance = one_pixel_relative(drawn) + 1e-3  # + the 4-digit rounding of the output
+    assert rows["voltage"].to_numpy() == pytest.approx(KNOWN_V, rel=tolerance)
+    assert rows["current"].to_numpy() == pytest.approx(KNOWN_I, rel=tolerance)
+
+
+def test_following_the_curve_colour_in_the_png(drawn):
+    px, py = follow_colour(read_image(drawn["path"]), (0xD1 / 255, 0x49 / 255, 0x5B / 255))
+    x_axis = AxisCalibration(*drawn["ticks_x"][:1], 1.0, *drawn["ticks_x"][1:], 100.0)
+    y_axis = AxisCalibration(*drawn["ticks_y"][:1], 0.1, *drawn["ticks_y"][1:], 10.0)
+    v, i = pixels_to_values(px, py, x_axis, y_axis)
+    # every followed point lies on the known curve (straight on log-log axes) within two pixels:
+    # the line is 2 px wide and anti-aliased
+    inside = (v >= KNOWN_V[0]) & (v <= KNOWN_V[-1])
+    truth = np.exp(np.interp(np.log(v[inside]), np.log(KNOWN_V), np.log(KNOWN_I)))
+    assert v.size > 50
+    assert i[inside] == pytest.approx(truth, rel=2 * one_pixel_relative(drawn) + 0.02)
+
+
+def test_digitize_adds_a_curve_and_never_loses_rows(tmp_path):
+    out = tmp_path / "soa.csv"
+    out.write_text(REFERENCE_SOA)
+    picked = tmp_path / "p.csv"
+    picked.write_text("x,y\n100,300\n400,100\n")
+    args = ["digitize", str(picked), "--x", "100=1,400=1000", "--y", "300=1,100=100", "-o", str(out)]
+    result = runner.invoke(app, [*args, "--pulse", "100us"])
+    assert result.exit_code == 0, result.output
+    after = out.read_text()
+    for line in REFERENCE_SOA.strip().splitlines()[1:]:
+        pulse, v, i = line.split(",")
+        assert any(row.startswith(f"{pulse},") and float(row.split(",")[1]) == float(v) for row in after.splitlines())
+    assert "100us,1,1" in after and "100us,1000,100" in after
+    again = runner.invoke(app, [*args, "--pulse", "dc"])  # a dc curve is already there
+    assert again.exit_code == 2 and "--force" in again.stderr
+    assert out.read_text() == after
+
+
+def test_digitize_without_a_display_says_how_to_pick(tmp_path, monkeypatch, drawn):
+    monkeypatch.delenv("DISPLAY", raising=False)
+    monkeypatch.delenv("WAYLAND_DISPLAY", raising=False)
+    result = runner.invoke(app, ["digitize", "--image", str(drawn["path"]), "--x", "1=1,2=10", "--y", "1=1,2=10"])
+    assert result.exit_code == 2 and "no display" in result.stderr and "x,y" in result.stderr
+
+
+def test_digitize_a_zth_curve(tmp_path):
+    picked = tmp_path / "z.csv"
+    picked.write_text("x,y\n0,400\n300,100\n")
+    out = tmp_path / "zth.csv"
+    result = runner.invoke(app, ["digitize", str(picked), "--zth", "--x", "0=1e-5,300=1e-2", "--y", "400=0.01,100=1",
+                                 "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    assert out.read_text().splitlines() == ["time,zth", "1e-05,0.01", "0.01,1"]
+
+
+# --------------------------------------------------------------------------- lint
+
+TOML = REFERENCE_TOML.format(id="{id}", kind="npn", extra="", extra_top="")
+
+SEEDED = {
+    # name: (soa.csv, part.toml edits, extra files, expected fragment, severity)
+    "thermal segment off p_max": (REFERENCE_SOA.replace("dc,40,3.125", "dc,40,2.5").replace("dc,8.3333,15", "dc,6.6667,15"),
+                                  {}, {}, "constant-power segment", "error"),
+    "current above i_max": (REFERENCE_SOA.replace("dc,1,15\ndc,8.3333,15", "dc,1,18\ndc,6.944,18"), {}, {}, "above i_max",
+                            "error"),
+    "curve ends early": (REFERENCE_SOA.replace("dc,100,0.5", "dc,70,1.0204"), {}, {}, "below v_max", "warning"),
+    "pulse curve below dc": (REFERENCE_SOA.replace("1ms,1,40\n1ms,10,40\n1ms,40,10\n1ms,100,2",
+                                                   "1ms,1,10\n1ms,8,10\n1ms,40,2\n1ms,100,0.3"),
+                             {}, {}, "allows less", "error"),
+    "slope fits no mechanism": (REFERENCE_SOA.replace("dc,8.3333,15", "dc,4,15\ndc,8.3333,10.5"), {}, {}, "fits no mechanism",
+                                "warning"),
+    "bend the wrong way": (REFERENCE_SOA.replace("dc,40,3.125", "dc,25,3\ndc,40,3.125"), {}, {}, "bends upward", "error"),
+    "points out of order": (REFERENCE_SOA.replace("dc,40,3.125\ndc,100,0.5", "dc,100,0.5\ndc,40,3.125"), {}, {},
+                            "follows", "error"),
+    "repeated voltage": (REFERENCE_SOA.replace("dc,100,0.5", "dc,40,1"), {}, {}, "twice", "error"),
+    "rising current": (REFERENCE_SOA.replace("dc,40,3.125", "dc,40,31.25"), {}, {}, "rises", "error"),
+    "p_max off rth": (REFERENCE_SOA, {"p_max = 125": "p_max = 150"}, {}, "differs from (tj_max - 25)/rth_jc", "error"),
+    "rising derating table": (REFERENCE_SOA, {}, {"append": "[derating]\nsecond_breakdown = [[25, 0.8], [100, 0.9]]\n"},
+                              "rises with temperature", "error"),
+    "zth above rth_jc": (REFERENCE_SOA, {}, {"zth.csv": "time,zth\n0.001,0.1\n0.1,0.8\n10,1.6\n"}, "above rth_jc", "error"),
+    "foster sum off rth_jc": (REFERENCE_SOA, {}, {"append": "[thermal]\nfoster_r = [0.2, 0.3]\nfoster_tau = [0.01, 0.1]\n"},
+                              "differs from rth_jc", "warning"),
+}
+
+
+@pytest.mark.parametrize("case", list(SEEDED), ids=list(SEEDED))
+def test_lint_finds_each_seeded_mistake(tmp_path, case):
+    soa, edits, extra, fragment, severity = SEEDED[case]
+    toml = TOML.replace("{id}", "broken")
+    for old, new in edits.items():
+        toml = toml.replace(old, new)
+    toml += extra.get("append", "")
+    folder = write_part(tmp_path / "broken", soa=soa, toml=toml)
+    for name, text in extra.items():
+        if name != "append":
+            (folder / name).write_text(text)
+    findings = lint_part(folder)
+    hits = [f for f in findings if fragment in f.message]
+    assert hits, [f.message for f in findings]
+    assert hits[0].severity == severity
+    assert hits[0].file in ("soa.csv", "part.toml", "zth.csv")
+
+
+@pytest.mark.parametrize("part_id", [e.id for e in list_parts([bundled_library()])])
+def test_lint_finds_nothing_in_the_bundled_parts(part_id):
+    assert lint_part(bundled_library() / part_id) == []
+
+
+def test_lint_cli_exit_codes_and_json(tmp_path):
+    clean = runner.invoke(app, ["lint", "demo-npn-to3-250w", "--json"])
+    assert clean.exit_code == 0, clean.output
+    assert json.loads(clean.stdout) == {"part": "demo-npn-to3-250w", "findings": []}
+    broken = write_part(tmp_path / "broken", soa=SEEDED["rising current"][0], toml=TOML.replace("{id}", "broken"))
+    result = runner.invoke(app, ["lint", str(broken), "--json"])
+    assert result.exit_code == 1, result.output
+    finding = json.loads(result.stdout)["findings"][0]
+    assert set(finding) == {"severity", "file", "row", "message"} and finding["row"] == 8
+    warned = write_part(tmp_path / "warned", soa=SEEDED["curve ends early"][0], toml=TOML.replace("{id}", "warned"))
+    assert runner.invoke(app, ["lint", str(warned)]).exit_code == 0  # warnings alone exit 0
+
+
+# --------------------------------------------------------------------------- new parts from ratings
+
+
+def test_new_part_thermal_segment_is_exactly_p_max_over_v(tmp_path):
+    result = runner.invoke(app, ["new-part", "lab-npn-1", "--kind", "npn", "--v-max", "100", "--i-max", "10",
+                                 "--p-max", "100", "--tj-max", "150", "--rth-jc", "1.25", "--sb-knee", "40",
+                                 "--sb-exponent", "2", "--library", str(tmp_path)])
+    assert result.exit_code == 0, result.output
+    part = read_part(tmp_path / "lab-npn-1")
+    v = np.array([12.0, 20.0, 39.0])
+    got = allowed_current(v, part)
+    assert got.current_a == pytest.approx(100.0 / v, rel=1e-12)  # I = P/V exactly
+    assert list(got.limit) == ["thermal"] * 3
+    # above the knee: (100/40) (V/40)^-2
+    assert allowed_current(80.0, part).current_a[0] == pytest.approx(2.5 * 0.25, rel=1e-12)
+    assert "synthesized from ratings" in part.source
+    assert lint_part(tmp_path / "lab-npn-1") == []
+
+
+def test_new_part_without_a_knee_warns(tmp_path):
+    result = runner.invoke(app, ["new-part", "lab-npn-2", "--kind", "npn", "--v-max", "100", "--i-max", "10",
+                                 "--p-max", "100", "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)])
+    assert result.exit_code == 0 and "NOT safe above the unknown knee" in result.stderr
+    fet = soa_from_ratings(kind="nmos", v_max_v=100, i_max_a=10, p_max_w=100, tj_max_c=150, rth_jc_k_per_w=1.25)
+    assert any("not valid for long linear-mode operation" in w for w in fet.warnings)
+
+
+@pytest.mark.parametrize("bad_id", ["../escape", "a/b", ".hidden", ""])
+def test_new_part_refuses_unsafe_ids(tmp_path, bad_id):
+    result = runner.invoke(app, ["new-part", bad_id, "--kind", "npn", "--v-max", "100", "--i-max", "10", "--p-max",
+                                 "100", "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)])
+    assert result.exit_code == 2, result.output
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_new_part_never_overwrites_without_force(tmp_path):
+    args = ["new-part", "lab-npn-3", "--kind", "npn", "--v-max", "100", "--i-max", "10", "--p-max", "100",
+            "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)]
+    assert runner.invoke(app, args).exit_code == 0
+    (tmp_path / "lab-npn-3" / "notes.txt").write_text("mine")
+    again = runner.invoke(app, args)
+    assert again.exit_code == 2 and "--force" in again.stderr
+    assert (tmp_path / "lab-npn-3" / "notes.txt").read_text() == "mine"
+    assert runner.invoke(app, [*args, "--force"]).exit_code == 0
+    # replaced whole and atomically: no staging folders left behind
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["lab-npn-3"]
+    assert not (tmp_path / "lab-npn-3" / "notes.txt").exists()
+
+
+def test_inconsistent_ratings_use_the_smaller_power():
+    made = soa_from_ratings(kind="npn", v_max_v=100, i_max_a=10, p_max_w=150, tj_max_c=150, rth_jc_k_per_w=1.25,
+                            sb_knee_v=40, sb_exponent=2)
+    assert made.p_max_w == pytest.approx(100.0) and made.warnings
+    assert math.isclose(made.voltage_v[1], 10.0)  # 100 W / 10 A
