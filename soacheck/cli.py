@@ -36,7 +36,7 @@ from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
 from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
-from soacheck.demo import CANDIDATES, DEMO_FOLDER, DEMO_MARKER, DISCHARGE_A, demo_battery, demo_points, demo_stage
+from soacheck.demo import DEMO_FOLDER, demo_plan_path
 from soacheck.envelope import SafeEnvelope, check_envelope, largest_safe_envelope, limit_table_c_header
 from soacheck.errors import SoacheckError
 from soacheck.files import (
@@ -53,13 +53,17 @@ from soacheck.files import (
     read_table,
     read_toml,
     read_trace,
+    write_folder,
     write_part_folder,
     write_zth,
 )
 from soacheck.library import find_part, find_part_folder, library_folders, list_parts, read_stage
 from soacheck.lint import lint_part
 from soacheck.parts import Part
+from soacheck.plan import read_plan
 from soacheck.plots import new_axes, plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
+from soacheck.report import report_html, report_json, slug, svg_text
+from soacheck.runner import failures_first, run_plan
 from soacheck.soa import BreakdownDerating, PointCheck, check_points
 from soacheck.stage import Stage, StageRun, most_demanding_safe, run_stage, sharing_monte_carlo
 from soacheck.trace import Cooling, TraceChecker, TraceResult
@@ -342,87 +346,81 @@ def show(
     typer.echo(f"wrote {output}")
 
 
+REPORT_MARKER = ".soacheck-report"
+
+
+def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
+    """Read, run and report a plan into ``out``; the report appears whole or not at all."""
+    folders = library_folders(library or [])
+    plan = read_plan(plan_path, folders)
+    if out.exists() and not (out / REPORT_MARKER).is_file() and not force:
+        raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
+    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
+    with progress:
+        task = progress.add_task("jobs", total=len(plan.jobs))
+        results = run_plan(
+            plan, progress=lambda done, total, name: progress.update(task, completed=done, description=name)
+        )
+    files: dict[str, str | bytes] = {}
+    svgs: dict[str, list[str]] = {}
+    plot_files: dict[str, list[str]] = {}
+    for result in results:
+        for name, figure in result.figures.items():
+            svg = svg_text(figure)
+            file = f"plots/{slug(result.name)}-{name}.svg"
+            files[file] = svg
+            svgs.setdefault(result.name, []).append(svg)
+            plot_files.setdefault(result.name, []).append(file)
+    payload = report_json(plan, results, plot_files)
+    files["report.json"] = json.dumps(_jsonable(payload), indent=2, ensure_ascii=False) + "\n"
+    files["report.html"] = report_html(plan, results, svgs)
+    write_folder(out, files, force=True, marker=REPORT_MARKER)
+    if as_json:
+        _echo_json(payload)
+        return payload["verdict"] == "pass"
+    console = _console()
+    table = RichTable(title=escape(plan.title), title_justify="left")
+    for name in ("job", "kind", "verdict", "what decides it"):
+        table.add_column(name)
+    for result in failures_first(results):
+        verdict = "[green]pass[/]" if result.passed else "[bold red]FAIL[/]"
+        table.add_row(escape(result.name), result.kind, verdict, escape(result.headline()))
+    console.print(table)
+    console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
+    console.print(f"Report written to {(out / 'report.html').resolve()}", highlight=False)
+    return payload["verdict"] == "pass"
+
+
+@app.command()
+@_user_errors
+def run(
+    plan: Annotated[Path, typer.Argument(help="Plan file (TOML): a stage and its jobs.")],
+    out: Annotated[
+        Path | None, typer.Option("--out", "-o", help="Folder for the report [default: PLAN-report].")
+    ] = None,
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Run every job of a plan and write report.html, report.json and the plots."""
+    target = out or Path(f"{plan.stem}-report")
+    passed = _run_plan_into(plan, target, force=force, as_json=as_json, library=library)
+    raise typer.Exit(0 if passed else 1)
+
+
 @app.command()
 @_user_errors
 def demo(
-    out: Annotated[Path, typer.Option("--out", "-o", help="Folder for the demo's files.")] = Path(DEMO_FOLDER),
+    out: Annotated[Path, typer.Option("--out", "-o", help="Folder for the demo's report.")] = Path(DEMO_FOLDER),
     force: ForceOpt = False,
 ) -> None:
-    """Run the bundled demo: a bench that discharges e-bike packs, four candidate devices."""
-    if out.exists() and not (out / DEMO_MARKER).exists() and any(out.iterdir()) and not force:
-        raise SoacheckError(f"{out}: exists and was not written by the demo; choose another --out or add --force")
-    out.mkdir(parents=True, exist_ok=True)
-    (out / DEMO_MARKER).write_text("written by soacheck demo; the demo may rewrite this folder\n")
-    points = demo_points()
-    points_path = out / "planned-points.csv"
-    points.to_csv(points_path, index=False)
-    frame = read_points(points_path).frame
-    console = _console()
-    console.print(
-        "[bold]Demo:[/] a workshop bench discharging 10-cell e-bike packs (42 V full) at 6 A through two "
-        "parallel devices on one heatsink, plus a 10 ms 16 A pulse; four candidate devices. "
-        "All parts and numbers are invented.",
+    """Run the bundled demo plan (a workshop's pack-test bench, invented parts) into a report."""
+    _console().print(
+        "[bold]Demo:[/] a workshop bench that discharges donated e-bike packs through two pass transistors on "
+        "one heatsink; every job kind of soacheck, on invented parts. Some jobs fail on purpose.",
         highlight=False,
     )
-    summary = RichTable(title="candidates for the pass device", title_justify="left")
-    for name in ("part", "points", "worst point", "6 A discharge", "limit", "Tj peak", "max safe"):
-        summary.add_column(name)
-    folders = library_folders([])
-    pack = demo_battery()
-    path = battery_discharge(pack, "cc", DISCHARGE_A, samples=1500)
-    results = {}
-    with Progress(console=Console(stderr=True), transient=True) as progress:
-        task = progress.add_task("candidates", total=len(CANDIDATES))
-        for part_id in CANDIDATES:
-            part = find_part(part_id, folders)
-            checked = check_points(
-                frame["voltage"].to_numpy(),
-                frame["current"].to_numpy(),
-                part,
-                tc_c=frame["case_temp"].to_numpy(),
-                pulse_s=frame["pulse_s"].to_numpy(),
-            )
-            stage = demo_stage(part)
-
-            def run_at(current: float, stage: Stage = stage) -> StageRun:
-                trial = battery_discharge(pack, "cc", current, samples=1500)
-                return run_stage(stage, trial.time_s, trial.source_v, trial.total_a)
-
-            run = run_stage(stage, path.time_s, path.source_v, path.total_a)
-            best = most_demanding_safe(run_at, DISCHARGE_A, rel_tol=1e-2)
-            run_summary = run.summary()
-            results[part_id] = {
-                "points": _check_payload(checked),
-                "discharge": {
-                    "test": path.label,
-                    **run_summary,
-                    "max_safe_setpoint": best,
-                    "assumptions": list(run.assumptions + path.notes),
-                },
-            }
-            plot_soa(part, case_temps_c=(25.0, 70.0), points=checked).figure.savefig(out / f"{part_id}-soa.png")
-            plot_stage_run(run, title=f"{part_id}: {path.label}").savefig(out / f"{part_id}-discharge.png")
-            margin = np.where(np.isfinite(checked.margin), checked.margin, -np.inf)
-            worst = int(np.argmin(margin))
-            summary.add_row(
-                part_id,
-                "[green]pass[/]" if checked.passed else "[bold red]FAIL[/]",
-                f"{checked.margin[worst]:+.0%} ({checked.limit[worst]})" if np.isfinite(margin[worst]) else "—",
-                "[green]pass[/]" if run.passed else "[bold red]FAIL[/]",
-                str(run_summary["limit"] or "—"),
-                f"{run_summary['tj_peak']:.0f} °C",
-                "none" if best is None else f"{best:.2f} A",
-            )
-            progress.advance(task)
-    (out / "results.json").write_text(json.dumps(_jsonable(results), indent=2, ensure_ascii=False) + "\n")
-    console.print(summary)
-    console.print(
-        "Per part: PART-soa.png (the planned points on the SOA), PART-discharge.png (the discharge over time); "
-        "results.json holds every number and assumption.",
-        highlight=False,
-    )
-    console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
-    console.print(f"Demo written to {out.resolve()}", highlight=False)
+    _run_plan_into(demo_plan_path(), out, force=force, as_json=False, library=None)
 
 
 @app.command()

@@ -694,20 +694,32 @@ def read_trace(path: str | Path) -> Trajectory:
 # --------------------------------------------------------------------------- writing, never losing what was there
 
 
-def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = False) -> None:
-    """Write a part folder atomically: all its files appear at once, or none.
+def write_folder(
+    folder: Path, files: dict[str, str | bytes], *, force: bool = False, marker: str | None = None
+) -> None:
+    """Write a folder atomically: all its files appear at once, or none.
 
-    The files are written into a hidden folder beside the target and renamed into place.
-    An existing folder is replaced only with ``force`` (and then also atomically).
+    The files (relative paths, text or bytes) are written into a hidden folder beside the
+    target and renamed into place. An existing folder is replaced only with ``force``, or
+    when it holds ``marker`` (a file this program left there, so the folder is its own).
     """
     folder = Path(folder)
-    if folder.exists() and not force:
-        raise SoacheckError(f"{folder}: exists; choose another id or add --force to replace it")
+    ours = marker is not None and (folder / marker).is_file()
+    if folder.exists() and not (force or ours):
+        raise SoacheckError(f"{folder}: exists and is not ours to replace; choose another name or add --force")
     folder.parent.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=f".{folder.name}.", dir=folder.parent))
     try:
-        for name, text in files.items():
-            (staging / name).write_text(text, encoding="utf-8")
+        for name, content in {
+            **files,
+            **({marker: "written by soacheck; it may replace this folder\n"} if marker else {}),
+        }.items():
+            target = staging / name
+            target.parent.mkdir(parents=True, exist_ok=True)
+            if isinstance(content, bytes):
+                target.write_bytes(content)
+            else:
+                target.write_text(content, encoding="utf-8")
         if folder.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{folder.name}.old.", dir=folder.parent))
             os.replace(folder, old / folder.name)
@@ -718,6 +730,13 @@ def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = Fals
     finally:
         if staging.exists():
             shutil.rmtree(staging)
+
+
+def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = False) -> None:
+    """Write a part folder atomically; an existing one is replaced only with ``force``."""
+    if Path(folder).exists() and not force:
+        raise SoacheckError(f"{folder}: exists; choose another id or add --force to replace it")
+    write_folder(folder, files, force=force)
 
 
 def _replace_text(path: Path, text: str) -> None:

@@ -1,0 +1,187 @@
+"""Running a plan: every job through the library, into results with figures and assumptions.
+
+Nothing here touches files; the CLI saves the figures and the report.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from matplotlib.figure import Figure
+
+from soacheck.compare import TrajectoryJob, compare
+from soacheck.envelope import Envelope, check_envelope
+from soacheck.errors import SoacheckError
+from soacheck.files import discharge_from_table
+from soacheck.plan import Job, Plan
+from soacheck.plots import plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
+from soacheck.soa import check_points
+from soacheck.stage import most_demanding_safe, run_stage
+from soacheck.trace import TraceChecker
+
+SAFETY_CAUTIONS = (
+    "A linear stage turns all of its input power into heat: heatsinks, tabs and cases burn skin; sense and "
+    "ballast resistors at tens of amperes run hotter still and can set fire to what touches them.",
+    "Battery packs deliver hundreds of amperes into a short and can vent, burn or explode; mains-powered "
+    "stages carry lethal voltages. Fuse the source, keep a way to disconnect it, never leave a test unattended.",
+    "Meter the power at the load's input and enforce the limits in the load's controller.",
+    "These answers rest on digitized datasheet curves and the assumptions listed with each job. They do not "
+    "replace the datasheet, a prototype measured with a thermocouple, local codes or licensed practice.",
+)
+
+
+@dataclass(frozen=True, eq=False)
+class JobResult:
+    """What one job found: verdict, the figures that tell it, the assumptions behind it."""
+
+    name: str
+    kind: str
+    passed: bool
+    summary: dict[str, Any]
+    assumptions: tuple[str, ...]
+    figures: dict[str, Figure] = field(default_factory=dict)
+    rows: list[dict[str, Any]] = field(default_factory=list)
+
+    @property
+    def verdict(self) -> str:
+        return "pass" if self.passed else "fail"
+
+    def headline(self) -> str:
+        """One line: what limits, and by how much."""
+        s = self.summary
+        margin = s.get("worst_margin", s.get("min_margin"))
+        parts = []
+        if margin is not None and isinstance(margin, float) and math.isfinite(margin):
+            parts.append(f"least margin {margin:+.1%}")
+        if s.get("limit"):
+            parts.append(f"limit {s['limit']}")
+        if s.get("first_violation_time") is not None:
+            parts.append(f"first outside at {s['first_violation_time']:.4g} s")
+        if s.get("best"):
+            parts.append(f"best {s['best']}")
+        return "; ".join(parts) or "—"
+
+
+def run_job(plan: Plan, job: Job) -> JobResult:
+    """Run one validated job of the plan."""
+    stage = plan.stage
+    d = job.data
+    if job.kind == "points":
+        part = d["part"]
+        result = check_points(d["voltage"], d["current"], part, tc_c=d["case_temp"], pulse_s=d["pulse"], duty=d["duty"])
+        margin = np.where(np.isfinite(result.margin), result.margin, -np.inf)
+        k = int(np.argmin(margin))
+        summary = {
+            "part": part.id,
+            "points": int(result.voltage_v.size),
+            "outside": int((~result.inside).sum()),
+            "worst_margin": float(margin[k]) if np.isfinite(margin[k]) else None,
+            "limit": str(result.limit[k]),
+            "worst_voltage": float(result.voltage_v[k]),
+            "worst_current": float(result.current_a[k]),
+        }
+        temps = sorted({25.0, float(np.max(result.tc_c))})
+        figure = plot_soa(part, case_temps_c=temps, points=result).figure
+        return JobResult(
+            job.name,
+            job.kind,
+            result.passed,
+            summary,
+            result.assumptions,
+            {"soa": figure},
+            result.to_frame().to_dict(orient="records"),
+        )
+    if job.kind == "envelope":
+        check = check_envelope(stage, d["envelope"])
+        summary = check.summary()
+        notes = tuple(summary.pop("assumptions"))
+        return JobResult(
+            job.name, job.kind, check.passed, summary, notes, {"envelope": plot_envelope_check(check)}, check.outside
+        )
+    if job.kind in ("discharge", "sweep"):
+        path = d["trajectory"]
+        run = run_stage(stage, path.time_s, path.source_v, path.total_a)
+        summary = {"test": path.label, **run.summary()}
+        if job.kind == "discharge" and d["find_max"]:
+            summary["max_safe_setpoint"] = _max_setpoint(plan, job)
+        figure = plot_stage_run(run, title=f"{job.name}: {path.label}")
+        return JobResult(job.name, job.kind, run.passed, summary, run.assumptions + path.notes, {"run": figure})
+    if job.kind == "trace":
+        part = d["part"]
+        if d["case_temp"] is not None:
+            checker = TraceChecker(part, tc_c=d["case_temp"])
+        elif stage.cooling is not None:
+            checker = TraceChecker(part, cooling=stage.cooling)
+        else:
+            checker = TraceChecker(part, tc_c=stage.case_temp_c)
+        path = d["trajectory"]
+        checker.feed(path.time_s, path.source_v, path.total_a)
+        result = checker.result()
+        summary = result.summary()
+        notes = tuple(summary.pop("assumptions"))
+        return JobResult(job.name, job.kind, result.passed, summary, notes, {"trace": plot_trace(part, result)})
+    if job.kind == "compare":
+        target = d["job"]
+        job_for = target if isinstance(target, Envelope) else TrajectoryJob(target)
+        ranked = compare(d["parts"], job_for, stage=stage if d["use_stage"] else None)
+        rows = [c.as_dict() for c in ranked]
+        best = ranked[0]
+        summary = {
+            "candidates": len(ranked),
+            "passing": sum(c.passes for c in ranked),
+            "best": best.part,
+            "min_margin": best.min_margin,
+            "limit": best.limit,
+        }
+        figures = {}
+        if isinstance(target, Envelope):
+            tc = (
+                target.case_temp_c
+                if target.case_temp_c is not None
+                else (stage.case_temp_c if stage.case_temp_c is not None else target.ambient_c)
+            )
+            by_id = {p.id: p for p in d["parts"]}
+            figures["candidates"] = plot_compare(
+                [by_id[c.part] for c in ranked], target, case_temp_c=tc, count=stage.count if d["use_stage"] else 1
+            ).figure
+        notes = (
+            "each candidate in the stage's place" if d["use_stage"] else "each candidate alone",
+            "sorted: passing first, then by least margin; fewest devices and cooling headroom by search",
+        )
+        return JobResult(job.name, job.kind, best.passes, summary, notes, figures, rows)
+    raise SoacheckError(f"unknown job kind '{job.kind}'")
+
+
+def _max_setpoint(plan: Plan, job: Job) -> float | None:
+    table, origin, base = job.data["table"], job.data["origin"], job.data["base"]
+    mode = str(table["mode"]).lower()
+
+    def run_at(value: float):
+        setpoint = 1.0 / value if mode == "cr" else value
+        path = discharge_from_table({**table, "setpoint": setpoint}, where=origin, base=base)
+        return run_stage(plan.stage, path.time_s, path.source_v, path.total_a)
+
+    start = float(table["setpoint"])
+    best = most_demanding_safe(run_at, 1.0 / start if mode == "cr" else start, rel_tol=1e-2)
+    if best is None:
+        return None
+    return 1.0 / best if mode == "cr" else best
+
+
+def run_plan(plan: Plan, *, progress: Callable[[int, int, str], None] | None = None) -> list[JobResult]:
+    """Run every job, in the plan's order; ``progress(done, total, name)`` after each."""
+    results = []
+    for n, job in enumerate(plan.jobs, start=1):
+        results.append(run_job(plan, job))
+        if progress is not None:
+            progress(n, len(plan.jobs), job.name)
+    return results
+
+
+def failures_first(results: list[JobResult]) -> list[JobResult]:
+    """The results with every failing job before the passing ones, otherwise in plan order."""
+    return sorted(results, key=lambda r: r.passed)
