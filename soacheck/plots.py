@@ -161,7 +161,7 @@ def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "
     ax_soa, ax_time = fig.subplots(1, 2, width_ratios=[1.1, 1])
     data = result.plot
     plot_soa(part, case_temps_c=sorted({float(data["case_temp"].min()), result.tc_peak_c}), policy=policy, ax=ax_soa)
-    shown = data["current"] > 0
+    shown = data["current"] > 1e-3 * max(float(data["current"].max()), 1e-12)  # log axes: skip ~0 A
     dots = ax_soa.scatter(
         data["voltage"][shown], data["current"][shown], c=data["time"][shown], cmap="viridis", s=6, zorder=5
     )
@@ -204,7 +204,7 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
     worst = run.worst_device
     hottest = float(run.case_c[worst].max())
     plot_soa(part, case_temps_c=sorted({float(run.case_c[worst, 0]), hottest}), policy=policy, ax=ax_soa)
-    shown = run.device_a[worst] > 0
+    shown = run.device_a[worst] > 1e-3 * max(float(run.device_a[worst].max()), 1e-12)  # log axes: skip ~0 A
     path = ax_soa.scatter(
         run.device_v[worst][shown], run.device_a[worst][shown], c=run.time_s[shown], cmap="viridis", s=8, zorder=6
     )
