@@ -4,10 +4,18 @@ The package is organised by domain concept:
 
 - :mod:`soacheck.units`    -- durations with SI suffixes, converted once at the edge
 - :mod:`soacheck.parts`    -- the part and its curves (frozen dataclasses, no I/O)
-- :mod:`soacheck.files`    -- reading part folders and CSV tables, with clear errors
-- :mod:`soacheck.library`  -- finding parts by id in the bundled and user libraries
+- :mod:`soacheck.files`    -- reading and writing the user's files, with clear errors
+- :mod:`soacheck.library`  -- finding parts by id; stage files
 - :mod:`soacheck.soa`      -- segment mechanisms, temperature derating, the boundary, point checks
-- :mod:`soacheck.plots`    -- log-log SOA plots
+- :mod:`soacheck.thermal`  -- Foster and Cauer networks, pulse trains, Tj along P(t)
+- :mod:`soacheck.trace`    -- waveforms checked sample by sample, in chunks
+- :mod:`soacheck.stage`    -- parallel devices, current sharing, runaway, steady states
+- :mod:`soacheck.battery`  -- batteries, discharges and sweeps as trajectories
+- :mod:`soacheck.envelope` -- test envelopes and the largest safe envelope
+- :mod:`soacheck.compare`  -- ranking candidate parts for a job
+- :mod:`soacheck.authoring`, :mod:`soacheck.lint` -- making parts from datasheets, checking them
+- :mod:`soacheck.plan`, :mod:`soacheck.runner`, :mod:`soacheck.report` -- plans, runs, reports
+- :mod:`soacheck.plots`    -- log-log SOA plots and time plots
 - :mod:`soacheck.cli`      -- the ``soacheck`` command, a thin layer over the above
 """
 

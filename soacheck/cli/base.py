@@ -1,0 +1,136 @@
+"""Shared pieces of the ``soacheck`` command: the typer app, common options, output helpers.
+
+A :class:`~soacheck.errors.SoacheckError` anywhere becomes one line on stderr and exit
+code 2; that happens in one place, :func:`user_errors`.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import math
+import os
+from pathlib import Path
+from typing import Annotated, Any
+
+import numpy as np
+import typer
+from rich.console import Console
+
+from soacheck.errors import SoacheckError
+from soacheck.library import find_part, library_folders, read_stage
+from soacheck.parts import Part
+from soacheck.soa import BreakdownDerating
+from soacheck.stage import Stage
+
+app = typer.Typer(
+    name="soacheck",
+    help="Check linear-mode operating points of power transistors against their derated safe operating area.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+
+SAFETY_NOTE = (
+    "soacheck's answer rests on digitized datasheet curves and the assumptions listed; it does not replace "
+    "the datasheet, a prototype measured with a thermocouple, local codes or licensed practice."
+)
+
+LibraryOpt = Annotated[
+    list[Path] | None,
+    typer.Option(
+        "--library", "-L", help="Folder of user part folders (repeatable); searched before the bundled demo parts."
+    ),
+]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object instead of a table.")]
+PolicyOpt = Annotated[
+    str,
+    typer.Option(
+        "--breakdown-derating",
+        help="How second breakdown / instability derates: auto (part's table, else like thermal), thermal, none.",
+    ),
+]
+ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
+
+
+def user_errors(command):
+    """Turn a SoacheckError into one line on stderr and exit code 2, without a traceback."""
+
+    @functools.wraps(command)
+    def wrapper(*args, **kwargs):
+        try:
+            return command(*args, **kwargs)
+        except SoacheckError as err:
+            typer.echo(f"soacheck: error: {err}", err=True)
+            raise typer.Exit(2) from None
+
+    return wrapper
+
+
+def console_for_output() -> Console:
+    return Console(width=int(os.environ.get("COLUMNS", "120")), soft_wrap=False)
+
+
+def policy_option(text: str) -> BreakdownDerating:
+    if text not in ("auto", "thermal", "none"):
+        raise SoacheckError(f"--breakdown-derating: '{text}' is not one of auto, thermal, none")
+    return text  # type: ignore[return-value]
+
+
+def duty_option(duty: float | None, pulse_s: float) -> float:
+    """The duty cycle from ``--duty``: 0 (a single pulse) when absent."""
+    if duty is None:
+        return 0.0
+    if not (0 < duty <= 1):
+        raise SoacheckError(f"--duty is {duty:g}; give the duty cycle tp/T in (0, 1], such as 0.1 for 10 %")
+    if math.isinf(pulse_s):
+        raise SoacheckError("--duty needs a pulse width: add --pulse, such as --pulse 3ms --duty 0.1")
+    return duty
+
+
+def part_option(ref: str, library: list[Path] | None) -> Part:
+    return find_part(ref, library_folders(library or []))
+
+
+def jsonable(value: Any) -> Any:
+    """Plain JSON values: NaN becomes null, numpy scalars become Python numbers."""
+    if isinstance(value, dict):
+        return {k: jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [jsonable(v) for v in value]
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def echo_json(payload: dict[str, Any]) -> None:
+    typer.echo(json.dumps(jsonable(payload), indent=2, ensure_ascii=False))
+
+
+def refuse_overwrite(path: Path, force: bool) -> None:
+    if path.exists() and not force:
+        raise SoacheckError(f"{path}: exists; choose another name with -o or add --force to overwrite it")
+
+
+def plot_suffix(path: Path) -> None:
+    if path.suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise SoacheckError(f"'{path}' must end in .png, .svg or .pdf")
+
+
+def stage_option(path: Path, library: list[Path] | None) -> Stage:
+    return read_stage(path, library_folders(library or []))
+
+
+def check_outputs(samples: int, plot: Path | None, force: bool) -> None:
+    if samples < 10:
+        raise SoacheckError("--samples must be at least 10")
+    if plot is not None:
+        plot_suffix(plot)
+        refuse_overwrite(plot, force)
+
+
+def main() -> None:
+    """Entry point of the ``soacheck`` console script."""
+    app()

@@ -1,0 +1,281 @@
+"""What a stage can promise, and choosing parts: envelope, compare."""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import replace
+from pathlib import Path
+from typing import Annotated
+
+import numpy as np
+import typer
+from rich.markup import escape
+from rich.table import Table as RichTable
+
+from soacheck.cli.base import (
+    ForceOpt,
+    JsonOpt,
+    LibraryOpt,
+    PolicyOpt,
+    app,
+    console_for_output,
+    duty_option,
+    echo_json,
+    plot_suffix,
+    policy_option,
+    refuse_overwrite,
+    stage_option,
+    user_errors,
+)
+from soacheck.compare import TrajectoryJob
+from soacheck.compare import compare as compare_parts
+from soacheck.envelope import SafeEnvelope, check_envelope, largest_safe_envelope, limit_table_c_header
+from soacheck.errors import SoacheckError
+from soacheck.files import (
+    discharge_from_table,
+    read_envelope,
+    read_part,
+    read_toml,
+    read_trace,
+)
+from soacheck.library import find_part, library_folders, list_parts, read_stage
+from soacheck.plots import new_axes, plot_compare, plot_envelope_check
+from soacheck.units import parse_duration
+
+
+def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
+    if text is None:
+        return np.geomspace(1.0, v_max_v, 25)
+    try:
+        values = np.array([float(x) for x in text.split(",") if x.strip()])
+    except ValueError:
+        raise SoacheckError(f"--voltages: '{text}' is not a list of voltages such as 10,20,40") from None
+    if values.size == 0 or np.any(~np.isfinite(values)) or np.any(values <= 0):
+        raise SoacheckError("--voltages: give voltages above zero, such as 10,20,40")
+    return np.sort(values)
+
+
+def _export_table(table: SafeEnvelope, path: Path, force: bool) -> None:
+    refuse_overwrite(path, force)
+    suffix = path.suffix.lower()
+    if suffix == ".csv":
+        lines = [f"# {note}" for note in table.assumptions]
+        lines.append("voltage,max_current,limit")
+        lines += [f"{float(p['voltage'])!r},{float(p['max_current'])!r},{p['limit']}" for p in table.points()]
+        text = "\n".join(lines) + "\n"
+    elif suffix == ".json":
+        text = (
+            json.dumps(
+                {
+                    "part": table.stage.part.id,
+                    "count": table.stage.count,
+                    "points": table.points(),
+                    "assumptions": list(table.assumptions),
+                },
+                indent=2,
+                ensure_ascii=False,
+            )
+            + "\n"
+        )
+    elif suffix == ".h":
+        text = limit_table_c_header(table)
+    else:
+        raise SoacheckError(f"--export: '{path}' must end in .csv, .json or .h")
+    path.write_text(text, encoding="utf-8")
+
+
+@app.command()
+@user_errors
+def envelope(
+    stage: Annotated[Path, typer.Argument(help="Stage file (TOML).")],
+    check_file: Annotated[
+        Path | None, typer.Option("--check", help="Envelope (TOML) to check the stage against.")
+    ] = None,
+    case_temp: Annotated[float | None, typer.Option("--case-temp", "-t", help="Hold the cases at this [°C].")] = None,
+    voltages: Annotated[str | None, typer.Option("--voltages", help="Source voltages, such as 10,20,40.")] = None,
+    pulse: Annotated[str, typer.Option("--pulse", help="'dc' or a pulse width, for the limit table.")] = "dc",
+    duty: Annotated[float | None, typer.Option("--duty", help="Duty cycle of the pulses, in (0, 1].")] = None,
+    export: Annotated[Path | None, typer.Option("--export", help="Write the limit table: .csv, .json or .h.")] = None,
+    plot: Annotated[Path | None, typer.Option("--plot", help="Write the plot (.png/.svg/.pdf).")] = None,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """What a stage can safely promise: check an envelope, or find the largest safe one and export it."""
+    policy = policy_option(breakdown_derating)
+    loaded = stage_option(stage, library)
+    if case_temp is not None:
+        loaded = replace(loaded, cooling=None, case_temp_c=case_temp)
+    if plot is not None:
+        plot_suffix(plot)
+        refuse_overwrite(plot, force)
+    console = console_for_output()
+    if check_file is not None:
+        env = read_envelope(check_file)
+        result = check_envelope(loaded, env, policy=policy)
+        if plot is not None:
+            plot_envelope_check(result, policy=policy).savefig(plot)
+        payload = result.summary()
+        if as_json:
+            echo_json(payload)
+        else:
+            console.print(f"{loaded.part.id} × {loaded.count} against {env.label}", highlight=False)
+            console.print(
+                f"least margin {payload['min_margin']:+.1%} ({payload['limit']}) at "
+                f"{payload['worst_voltage']:g} V, {payload['worst_current']:.4g} A"
+                if payload["min_margin"] is not None
+                else "nothing allowed somewhere on the edge",
+                highlight=False,
+            )
+            for part_out in result.outside:
+                console.print(
+                    f"  outside from {part_out['from_voltage']:.4g} V to {part_out['to_voltage']:.4g} V: "
+                    f"{part_out['limit']}",
+                    highlight=False,
+                )
+            for note in result.assumptions:
+                console.print(f"  assumed: {note}", highlight=False, markup=False)
+            console.print(
+                "[green]PASS[/]: the stage covers the envelope"
+                if result.passed
+                else "[bold red]FAIL[/]: part of the envelope lies outside"
+            )
+        raise typer.Exit(0 if result.passed else 1)
+    pulse_s = parse_duration(pulse, where="--pulse")
+    duty_value = 1.0 if math.isinf(pulse_s) else duty_option(duty, pulse_s) if duty is not None else 0.0
+    table = largest_safe_envelope(
+        loaded, _voltages(voltages, loaded.part.ratings.v_max_v), pulse_s=pulse_s, duty=duty_value, policy=policy
+    )
+    if export is not None:
+        _export_table(table, export, force)
+    if plot is not None:
+        ax = new_axes()
+        ax.plot(table.voltage_v, table.max_current_a, marker="o", color="#1f5fa8")
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.set_xlabel("source voltage [V]")
+        ax.set_ylabel("largest safe total current [A]")
+        ax.set_title(f"{loaded.part.id} × {loaded.count}: largest safe envelope", fontsize=10)
+        ax.grid(True, which="both", lw=0.3, alpha=0.6)
+        ax.figure.savefig(plot)
+    payload = {
+        "part": loaded.part.id,
+        "count": loaded.count,
+        "points": table.points(),
+        "assumptions": list(table.assumptions),
+    }
+    if as_json:
+        echo_json(payload)
+        return
+    out = RichTable(title=escape(f"{loaded.part.id} × {loaded.count}: largest safe envelope"), title_justify="left")
+    for name in ("source V", "max total current", "max power", "limit"):
+        out.add_column(name, justify="right" if name != "limit" else "left")
+    for p in table.points():
+        out.add_row(
+            f"{p['voltage']:.4g} V", f"{p['max_current']:.4g} A", f"{p['voltage'] * p['max_current']:.4g} W", p["limit"]
+        )
+    console.print(out)
+    for note in table.assumptions:
+        console.print(f"  assumed: {note}", highlight=False, markup=False)
+    if export is not None:
+        console.print(f"limit table written to {export}", highlight=False)
+
+
+@app.command()
+@user_errors
+def compare(
+    parts: Annotated[list[str] | None, typer.Argument(help="Part ids or folders; or --all.")] = None,
+    all_parts: Annotated[bool, typer.Option("--all", help="Every part in the libraries.")] = False,
+    envelope_file: Annotated[Path | None, typer.Option("--envelope", help="Envelope file (TOML).")] = None,
+    discharge_file: Annotated[
+        Path | None, typer.Option("--discharge", help="Discharge file (TOML); needs --stage.")
+    ] = None,
+    trace_file: Annotated[Path | None, typer.Option("--trace", help="Trace CSV: time,voltage,current.")] = None,
+    case_temp: Annotated[
+        float, typer.Option("--case-temp", "-t", help="Case of a single device on a trace [°C].")
+    ] = 25.0,
+    stage: Annotated[Path | None, typer.Option("--stage", help="Stage each candidate takes its place in.")] = None,
+    plot: Annotated[Path | None, typer.Option("--plot", help="Overlay plot (.png/.svg/.pdf).")] = None,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Rank candidate parts for a job: margin, limit, fewest devices, cooling headroom."""
+    policy = policy_option(breakdown_derating)
+    folders = library_folders(library or [])
+    if all_parts == bool(parts):
+        raise SoacheckError("name the candidate parts, or give --all (not both)")
+    jobs = [f for f in (envelope_file, discharge_file, trace_file) if f is not None]
+    if len(jobs) != 1:
+        raise SoacheckError("give the job as one of --envelope FILE, --discharge FILE or --trace FILE")
+    if discharge_file is not None and stage is None:
+        raise SoacheckError("--discharge needs --stage: a battery discharges through a stage")
+    if plot is not None:
+        plot_suffix(plot)
+        refuse_overwrite(plot, force)
+    candidates = (
+        [read_part(e.folder) for e in list_parts(folders)] if all_parts else [find_part(p, folders) for p in parts]
+    )
+    loaded_stage = read_stage(stage, folders) if stage is not None else None
+    if envelope_file is not None:
+        job = env = read_envelope(envelope_file)
+    elif discharge_file is not None:
+        path = discharge_from_table(
+            read_toml(discharge_file, "discharge"), where=str(discharge_file), base=discharge_file.parent
+        )
+        job = TrajectoryJob(path)
+    else:
+        job = TrajectoryJob(read_trace(trace_file), case_temp_c=case_temp)
+    ranked = compare_parts(candidates, job, stage=loaded_stage, policy=policy)
+    label = env.label if envelope_file is not None else job.trajectory.label
+    if plot is not None and envelope_file is None:
+        raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
+    if plot is not None:
+        if env.case_temp_c is not None:
+            tc = env.case_temp_c
+        elif loaded_stage is not None and loaded_stage.case_temp_c is not None:
+            tc = loaded_stage.case_temp_c
+        else:
+            tc = env.ambient_c
+        by_id = {p.id: p for p in candidates}
+        plot_compare(
+            [by_id[c.part] for c in ranked],
+            env,
+            case_temp_c=tc,
+            count=loaded_stage.count if loaded_stage else 1,
+            policy=policy,
+        ).figure.savefig(plot)
+    payload = {
+        "job": label,
+        "stage": str(stage) if stage else None,
+        "candidates": [c.as_dict() for c in ranked],
+    }
+    if as_json:
+        echo_json(payload)
+    else:
+        out = RichTable(title=escape(f"candidates for {label}"), title_justify="left")
+        for name in (
+            "part",
+            "verdict",
+            "min margin",
+            "limit",
+            "fewest devices",
+            "max heatsink Rth" if loaded_stage else "max case temp",
+        ):
+            out.add_column(name)
+        for c in ranked:
+            headroom = c.max_heatsink_rth if loaded_stage else c.max_case_temp
+            unit = " K/W" if loaded_stage else " °C"
+            out.add_row(
+                escape(c.part),
+                "[green]pass[/]" if c.passes else "[bold red]fail[/]",
+                "—" if c.min_margin is None else f"{c.min_margin:+.1%}",
+                c.limit,
+                "—" if c.min_count is None else str(c.min_count),
+                "—" if headroom is None else f"{headroom:.3g}{unit}",
+            )
+        console_for_output().print(out)
+    raise typer.Exit(0 if ranked and ranked[0].passes else 1)

@@ -1,0 +1,108 @@
+"""Plans and the demo: run, demo."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+from rich.markup import escape
+from rich.progress import Progress
+from rich.table import Table as RichTable
+
+from soacheck.cli.base import (
+    SAFETY_NOTE,
+    ForceOpt,
+    JsonOpt,
+    LibraryOpt,
+    app,
+    console_for_output,
+    echo_json,
+    jsonable,
+    user_errors,
+)
+from soacheck.demo import DEMO_FOLDER, demo_plan_path
+from soacheck.errors import SoacheckError
+from soacheck.files import write_folder
+from soacheck.library import library_folders
+from soacheck.plan import read_plan
+from soacheck.report import report_html, report_json, slug, svg_text
+from soacheck.runner import failures_first, run_plan
+
+REPORT_MARKER = ".soacheck-report"
+
+
+def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
+    """Read, run and report a plan into ``out``; the report appears whole or not at all."""
+    folders = library_folders(library or [])
+    plan = read_plan(plan_path, folders)
+    if out.exists() and not (out / REPORT_MARKER).is_file() and not force:
+        raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
+    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
+    with progress:
+        task = progress.add_task("jobs", total=len(plan.jobs))
+        results = run_plan(
+            plan, progress=lambda done, total, name: progress.update(task, completed=done, description=name)
+        )
+    files: dict[str, str | bytes] = {}
+    svgs: dict[str, list[str]] = {}
+    plot_files: dict[str, list[str]] = {}
+    for result in results:
+        for name, figure in result.figures.items():
+            svg = svg_text(figure)
+            file = f"plots/{slug(result.name)}-{name}.svg"
+            files[file] = svg
+            svgs.setdefault(result.name, []).append(svg)
+            plot_files.setdefault(result.name, []).append(file)
+    payload = report_json(plan, results, plot_files)
+    files["report.json"] = json.dumps(jsonable(payload), indent=2, ensure_ascii=False) + "\n"
+    files["report.html"] = report_html(plan, results, svgs)
+    write_folder(out, files, force=True, marker=REPORT_MARKER)
+    if as_json:
+        echo_json(payload)
+        return payload["verdict"] == "pass"
+    console = console_for_output()
+    table = RichTable(title=escape(plan.title), title_justify="left")
+    for name in ("job", "kind", "verdict", "what decides it"):
+        table.add_column(name)
+    for result in failures_first(results):
+        verdict = "[green]pass[/]" if result.passed else "[bold red]FAIL[/]"
+        table.add_row(escape(result.name), result.kind, verdict, escape(result.headline()))
+    console.print(table)
+    console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
+    console.print(f"Report written to {(out / 'report.html').resolve()}", highlight=False)
+    return payload["verdict"] == "pass"
+
+
+@app.command()
+@user_errors
+def run(
+    plan: Annotated[Path, typer.Argument(help="Plan file (TOML): a stage and its jobs.")],
+    out: Annotated[
+        Path | None, typer.Option("--out", "-o", help="Folder for the report [default: PLAN-report].")
+    ] = None,
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Run every job of a plan and write report.html, report.json and the plots."""
+    target = out or Path(f"{plan.stem}-report")
+    passed = _run_plan_into(plan, target, force=force, as_json=as_json, library=library)
+    raise typer.Exit(0 if passed else 1)
+
+
+@app.command()
+@user_errors
+def demo(
+    out: Annotated[Path, typer.Option("--out", "-o", help="Folder for the demo's report.")] = Path(DEMO_FOLDER),
+    force: ForceOpt = False,
+) -> None:
+    """Run the bundled demo plan (a workshop's pack-test bench, invented parts) into a report."""
+    console_for_output().print(
+        "[bold]Demo:[/] a workshop bench that discharges donated e-bike packs through two pass transistors on "
+        "one heatsink; every job kind of soacheck, on invented parts. Some jobs fail on purpose.",
+        highlight=False,
+    )
+    _run_plan_into(demo_plan_path(), out, force=force, as_json=False, library=None)

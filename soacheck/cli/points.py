@@ -1,0 +1,223 @@
+"""Point checks and the library: check, parts, show."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+from rich.console import Console
+from rich.markup import escape
+from rich.table import Table as RichTable
+
+from soacheck.cli.base import (
+    ForceOpt,
+    JsonOpt,
+    LibraryOpt,
+    PolicyOpt,
+    app,
+    console_for_output,
+    duty_option,
+    echo_json,
+    part_option,
+    plot_suffix,
+    policy_option,
+    refuse_overwrite,
+    user_errors,
+)
+from soacheck.errors import SoacheckError
+from soacheck.files import (
+    read_part,
+    read_points,
+)
+from soacheck.library import library_folders, list_parts
+from soacheck.plots import plot_soa
+from soacheck.soa import PointCheck, check_points
+from soacheck.units import parse_duration
+
+
+def check_payload(result: PointCheck) -> dict[str, Any]:
+    frame = result.to_frame()
+    return {
+        "part": result.part_id,
+        "verdict": result.verdict,
+        "points": frame.to_dict(orient="records"),
+        "assumptions": list(result.assumptions),
+    }
+
+
+def _print_check(console: Console, result: PointCheck) -> None:
+    table = RichTable(title=escape(f"{result.part_id}: operating points"), title_justify="left")
+    for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "curve", "allowed [A]", "margin", "limit", ""):
+        table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
+    frame = result.to_frame()
+    for row in frame.itertuples(index=False):
+        margin = "—" if not math.isfinite(row.margin) else f"{row.margin:+.1%}"
+        allowed = "—" if not math.isfinite(row.allowed_current) else f"{row.allowed_current:.4g}"
+        mark = "[green]inside[/]" if row.inside else "[bold red]OUTSIDE[/]"
+        limit = row.limit + (" (extrapolated)" if row.extrapolated else "")
+        table.add_row(
+            f"{row.voltage:g}",
+            f"{row.current:g}",
+            f"{row.case_temp:g}",
+            row.pulse,
+            f"{row.duty:g}" if row.duty > 0 else "single" if row.pulse != "dc" else "",
+            row.curve,
+            allowed,
+            margin,
+            limit,
+            mark,
+        )
+    console.print(table)
+    for note in result.assumptions:
+        console.print(f"  assumed: {note}", highlight=False, markup=False)
+    verdict = (
+        "[green]PASS[/]: every point is inside"
+        if result.passed
+        else (f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside")
+    )
+    console.print(verdict)
+
+
+@app.command()
+@user_errors
+def check(
+    part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
+    voltage: Annotated[float | None, typer.Option("--voltage", "-v", help="Voltage across the device [V].")] = None,
+    current: Annotated[float | None, typer.Option("--current", "-i", help="Current through the device [A].")] = None,
+    points: Annotated[
+        Path | None, typer.Option("--points", "-p", help="CSV of points: voltage,current[,case_temp,pulse].")
+    ] = None,
+    case_temp: Annotated[
+        float, typer.Option("--case-temp", "-t", help="Case temperature [°C] where the points give none.")
+    ] = 25.0,
+    pulse: Annotated[
+        str, typer.Option("--pulse", help="'dc' or a pulse width such as 1ms, where the points give none.")
+    ] = "dc",
+    duty: Annotated[
+        float | None,
+        typer.Option("--duty", help="Duty cycle of a pulse train, in (0, 1]; a single pulse when absent."),
+    ] = None,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Check operating points against a part's SOA derated at the case temperature."""
+    policy = policy_option(breakdown_derating)
+    pulse_s = parse_duration(pulse, where="--pulse")
+    duty_value = duty_option(duty, pulse_s)
+    if not math.isfinite(case_temp):
+        raise SoacheckError("--case-temp must be a finite temperature in °C")
+    if points is not None:
+        if voltage is not None or current is not None:
+            raise SoacheckError("give either --points FILE or --voltage and --current, not both")
+        frame = read_points(points).frame
+        v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
+        tc = frame["case_temp"].to_numpy() if "case_temp" in frame else case_temp
+        tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
+        d = frame["duty"].to_numpy() if "duty" in frame else duty_value
+    else:
+        if voltage is None or current is None:
+            raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
+        for name, value in (("--voltage", voltage), ("--current", current)):
+            if not (math.isfinite(value) and value > 0):
+                raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
+        v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
+    result = check_points(v, i, part_option(part, library), tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    if as_json:
+        echo_json(check_payload(result))
+    else:
+        _print_check(console_for_output(), result)
+    raise typer.Exit(0 if result.passed else 1)
+
+
+@app.command()
+@user_errors
+def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
+    """List the parts in the libraries, first match of each id."""
+    folders = library_folders(library or [])
+    loaded = [read_part(entry.folder) for entry in list_parts(folders)]
+    rows = [
+        {
+            "id": p.id,
+            "kind": p.kind,
+            "v_max": p.ratings.v_max_v,
+            "i_max": p.ratings.i_max_a,
+            "p_max": p.ratings.p_max_w,
+            "tj_max": p.ratings.tj_max_c,
+            "rth_jc": p.ratings.rth_jc_k_per_w,
+            "curves": [c.label for c in p.curves],
+            "description": p.description,
+            "folder": str(p.folder),
+        }
+        for p in loaded
+    ]
+    if as_json:
+        echo_json({"parts": rows})
+        return
+    table = RichTable(title="soacheck parts", title_justify="left")
+    for name in ("id", "kind", "V max", "I max", "P max", "Tj max", "Rth jc", "curves", "description"):
+        table.add_column(name)
+    for r in rows:
+        table.add_row(
+            escape(r["id"]),
+            r["kind"],
+            f"{r['v_max']:g} V",
+            f"{r['i_max']:g} A",
+            f"{r['p_max']:g} W",
+            f"{r['tj_max']:g} °C",
+            f"{r['rth_jc']:g} K/W",
+            " ".join(r["curves"]),
+            escape(r["description"]),
+        )
+    console_for_output().print(table)
+
+
+def _temperatures(text: str) -> list[float]:
+    try:
+        values = [float(t) for t in text.split(",") if t.strip()]
+    except ValueError:
+        raise SoacheckError(f"--case-temp: '{text}' is not a list of temperatures such as 25,75,125") from None
+    if not all(math.isfinite(t) for t in values):
+        raise SoacheckError("--case-temp: temperatures must be finite numbers in °C")
+    return values
+
+
+@app.command()
+@user_errors
+def show(
+    part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
+    case_temp: Annotated[
+        str, typer.Option("--case-temp", "-t", help="Case temperatures of the derated curves [°C], comma separated.")
+    ] = "25,75,125",
+    pulse: Annotated[str, typer.Option("--pulse", help="Curve to derate: 'dc' or a pulse width.")] = "dc",
+    points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points to check and draw.")] = None,
+    output: Annotated[
+        Path | None, typer.Option("--output", "-o", help="Plot file: .png, .svg or .pdf [default: PART-soa.png].")
+    ] = None,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+) -> None:
+    """Plot a part's SOA: every curve by mechanism, derated curves and checked points."""
+    loaded = part_option(part, library)
+    policy = policy_option(breakdown_derating)
+    pulse_s = parse_duration(pulse, where="--pulse")
+    output = output or Path(f"{loaded.id}-soa.png")
+    plot_suffix(output)
+    refuse_overwrite(output, force)
+    checked = None
+    if points is not None:
+        frame = read_points(points).frame
+        checked = check_points(
+            frame["voltage"].to_numpy(),
+            frame["current"].to_numpy(),
+            loaded,
+            tc_c=frame["case_temp"].to_numpy() if "case_temp" in frame else 25.0,
+            pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
+            policy=policy,
+        )
+    ax = plot_soa(loaded, case_temps_c=_temperatures(case_temp), pulse_s=pulse_s, points=checked, policy=policy)
+    ax.figure.savefig(output)
+    typer.echo(f"wrote {output}")

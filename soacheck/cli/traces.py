@@ -1,0 +1,134 @@
+"""Waveforms: trace."""
+
+from __future__ import annotations
+
+import contextlib
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+from rich.markup import escape
+from rich.progress import Progress
+from rich.table import Table as RichTable
+
+from soacheck.cli.base import (
+    ForceOpt,
+    JsonOpt,
+    LibraryOpt,
+    PolicyOpt,
+    app,
+    console_for_output,
+    echo_json,
+    part_option,
+    plot_suffix,
+    policy_option,
+    refuse_overwrite,
+    user_errors,
+)
+from soacheck.errors import SoacheckError
+from soacheck.files import iter_trace
+from soacheck.plots import plot_trace
+from soacheck.trace import Cooling, TraceChecker, TraceResult
+
+
+@app.command()
+@user_errors
+def trace(
+    part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
+    file: Annotated[
+        Path, typer.Argument(help="Trace: CSV (or Parquet with pyarrow) with columns time,voltage,current.")
+    ],
+    case_temp: Annotated[
+        float | None,
+        typer.Option("--case-temp", "-t", help="Fixed case temperature [°C] (default 25 without a heatsink)."),
+    ] = None,
+    heatsink_rth: Annotated[
+        float | None,
+        typer.Option("--heatsink-rth", help="Heatsink to ambient [K/W]; the case then follows the heatsink."),
+    ] = None,
+    heatsink_capacity: Annotated[
+        float | None, typer.Option("--heatsink-capacity", help="Heat capacity of the heatsink [J/K].")
+    ] = None,
+    interface_rth: Annotated[float, typer.Option("--interface-rth", help="Case to heatsink [K/W].")] = 0.0,
+    ambient: Annotated[float, typer.Option("--ambient", help="Ambient temperature [°C] with a heatsink.")] = 25.0,
+    plot: Annotated[
+        Path | None, typer.Option("--plot", help="Write the trajectory and Tj plot (.png, .svg, .pdf).")
+    ] = None,
+    chunk_rows: Annotated[int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")] = 1_000_000,
+    breakdown_derating: PolicyOpt = "auto",
+    library: LibraryOpt = None,
+    force: ForceOpt = False,
+    as_json: JsonOpt = False,
+) -> None:
+    """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj."""
+    loaded = part_option(part, library)
+    policy = policy_option(breakdown_derating)
+    cooling = None
+    if heatsink_rth is not None or heatsink_capacity is not None:
+        if heatsink_rth is None or heatsink_capacity is None:
+            raise SoacheckError("a heatsink needs both --heatsink-rth (K/W) and --heatsink-capacity (J/K)")
+        if case_temp is not None:
+            raise SoacheckError("give either --case-temp or a heatsink, not both")
+        cooling = Cooling(interface_rth, heatsink_rth, heatsink_capacity, ambient)
+    if plot is not None:
+        plot_suffix(plot)
+        refuse_overwrite(plot, force)
+    if chunk_rows < 2:
+        raise SoacheckError("--chunk-rows must be at least 2")
+    checker = TraceChecker(
+        loaded, tc_c=None if cooling else (25.0 if case_temp is None else case_temp), cooling=cooling, policy=policy
+    )
+    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
+    with progress, contextlib.closing(iter_trace(file, chunk_rows=chunk_rows)) as chunks:
+        task = progress.add_task(f"checking {file.name}: samples", total=None)
+        for t, v, i, first_row in chunks:
+            try:
+                checker.feed(t, v, i)
+            except SoacheckError as err:
+                raise SoacheckError(f"{file} near data row {first_row + 1}: {err}") from None
+            progress.update(task, advance=t.size)
+    result = checker.result()
+    if plot is not None:
+        plot_trace(loaded, result, policy=policy).savefig(plot)
+    if as_json:
+        echo_json(result.summary())
+    else:
+        _print_trace(console_for_output(), result, plot)
+    raise typer.Exit(0 if result.passed else 1)
+
+
+def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> None:
+    table = RichTable(title=escape(f"{result.part_id}: trace of {result.samples} samples"), title_justify="left")
+    table.add_column("quantity")
+    table.add_column("value", justify="right")
+
+    def fmt(value, unit="", spec=".4g"):
+        return "—" if value is None else f"{value:{spec}}{unit}"
+
+    rows = [
+        ("duration", fmt(result.duration_s, " s")),
+        (
+            "junction peak",
+            fmt(result.tj_peak_c, " °C", ".1f")
+            + (f" at {result.tj_peak_time_s:.4g} s" if result.tj_peak_c is not None else ""),
+        ),
+        ("case peak", fmt(result.tc_peak_c, " °C", ".1f")),
+        (
+            "worst margin",
+            fmt(result.worst_margin, "", "+.1%")
+            + (f" at {result.worst_margin_time_s:.4g} s" if result.worst_margin is not None else ""),
+        ),
+        ("excursions above DC", str(result.excursions)),
+        ("first violation", fmt(result.first_violation_time_s, " s") + (f" ({result.limit})" if result.limit else "")),
+        ("time outside", fmt(result.time_outside_s, " s")),
+        ("time above tj_max", fmt(result.time_over_tj_max_s, " s")),
+    ]
+    for name, value in rows:
+        table.add_row(name, value)
+    console.print(table)
+    for note in result.assumptions:
+        console.print(f"  assumed: {note}", highlight=False, markup=False)
+    if plot is not None:
+        console.print(f"plot written to {plot}", highlight=False)
+    console.print("[green]PASS[/]" if result.passed else "[bold red]FAIL[/]: the trace leaves the safe operating area")
