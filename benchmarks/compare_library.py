@@ -12,10 +12,9 @@ Run: ``python benchmarks/compare_library.py [--parts N] [--points N]``.
 from __future__ import annotations
 
 import argparse
-import time
 from dataclasses import replace
 
-import numpy as np
+from _timing import best_of
 
 from soacheck.compare import compare
 from soacheck.envelope import Envelope
@@ -38,18 +37,16 @@ def scaled_library(count: int) -> list:
             rth_jc_k_per_w=part.ratings.rth_jc_k_per_w / scale,
             i_pulse_max_a=None if part.ratings.i_pulse_max_a is None else part.ratings.i_pulse_max_a * scale,
         )
-        parts.append(replace(part, id=f"{part.id}-x{scale:.2f}-{k}", curves=curves, ratings=ratings,
-                             foster_r_k_per_w=part.foster_r_k_per_w / scale))
+        parts.append(
+            replace(
+                part,
+                id=f"{part.id}-x{scale:.2f}-{k}",
+                curves=curves,
+                ratings=ratings,
+                foster_r_k_per_w=part.foster_r_k_per_w / scale,
+            )
+        )
     return parts
-
-
-def best_of(runs: int, fn) -> float:
-    best = float("inf")
-    for _ in range(runs):
-        start = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def main() -> None:

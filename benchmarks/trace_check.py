@@ -14,22 +14,13 @@ from __future__ import annotations
 
 import argparse
 import resource
-import time
 
 import numpy as np
+from _timing import best_of
 
-from soacheck.library import bundled_library
 from soacheck.files import read_part
+from soacheck.library import bundled_library
 from soacheck.trace import TraceChecker
-
-
-def best_of(runs: int, fn) -> float:
-    best = float("inf")
-    for _ in range(runs):
-        start = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def main() -> None:
@@ -59,7 +50,9 @@ def main() -> None:
     t_bare = best_of(5, bare)
     t_check = best_of(3, check)
     peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    print(f"samples: {n}, verdict: {result.verdict}, excursions: {result.excursions}, tj_peak: {result.tj_peak_c:.2f} °C")
+    print(
+        f"samples: {n}, verdict: {result.verdict}, excursions: {result.excursions}, tj_peak: {result.tj_peak_c:.2f} °C"
+    )
     print(f"bare numpy pass v*i: {t_bare * 1e3:.1f} ms; trace check: {t_check * 1e3:.1f} ms")
     print(f"peak resident memory: {peak_mb:.0f} MB")
     print(f"ratio_vs_numpy_pass: {t_check / t_bare:.1f}")

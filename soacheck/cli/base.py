@@ -50,6 +50,7 @@ PolicyOpt = Annotated[
         help="How second breakdown / instability derates: auto (part's table, else like thermal), thermal, none.",
     ),
 ]
+PlotOpt = Annotated[Path | None, typer.Option("--plot", help="Write the plot (.png, .svg or .pdf).")]
 ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
 
 
