@@ -449,8 +449,9 @@ def temperature_rise(
     Notes
     -----
     Per branch, with aᵢ = exp(−Δt/τᵢ): θᵢ[k+1] = aᵢ θᵢ[k] + Rᵢ (1 − aᵢ) P[k], exact for
-    any step (methods.md §3). Uniform steps run through ``scipy.signal.lfilter``; other
-    steps through a blocked prefix sum in which every exponent stays below e^600.
+    any step (methods.md §3). Uniform steps run through ``scipy.signal.lfilter``, two
+    branches at a time as one second-order section where that is accurate; other steps
+    through a blocked prefix sum in which every exponent stays below e^600.
     """
     t = np.asarray(t_s, dtype=float)
     p = np.asarray(p_w, dtype=float)
@@ -459,26 +460,71 @@ def temperature_rise(
         # one held step from the previous chunk's last sample to this chunk's first
         a = np.exp(-(t[0] - t_before_s) / network.tau_s)
         theta0 = a * theta0 + network.r_k_per_w * (1 - a) * p_before_w
-    out = np.zeros(t.size)
-    last = np.empty_like(theta0)
     dt = np.diff(t)
     # uniform to rounding: a relative spread of 1e-6 in Δt changes aᵢ by far less than 1e-6
     uniform = dt.size == 0 or np.ptp(dt) <= 1e-6 * dt.max()
+    if not uniform:
+        thetas = [
+            _branch_any_step(t, p, r, tau, th)
+            for r, tau, th in zip(network.r_k_per_w, network.tau_s, theta0, strict=True)
+        ]
+        return np.sum(thetas, axis=0), ThermalState(np.array([th[-1] for th in thetas]))
     step = (t[-1] - t[0]) / dt.size if dt.size else 0.0
-    for k, (r, tau) in enumerate(zip(network.r_k_per_w, network.tau_s, strict=True)):
-        if uniform:
-            theta = _branch_uniform(p, step, r, tau, theta0[k])
+    a = np.exp(-step / network.tau_s)
+    b = network.r_k_per_w * (1.0 - a)
+    out = np.zeros(t.size)
+    last = np.empty_like(theta0)
+    for group in _pairs(a, t.size):
+        if len(group) == 2:
+            i, j = group
+            y, last[i], last[j] = _pair_uniform(p, a[i], b[i], theta0[i], a[j], b[j], theta0[j])
         else:
-            theta = _branch_any_step(t, p, r, tau, theta0[k])
-        out += theta
-        last[k] = theta[-1]
+            (i,) = group
+            y = _branch_uniform(p, a[i], b[i], theta0[i])
+            last[i] = y[-1]
+        out += y
     return out, ThermalState(last)
 
 
-def _branch_uniform(p: np.ndarray, dt: float, r: float, tau: float, theta0: float) -> np.ndarray:
-    """θ[0] = θ0, θ[k+1] = a θ[k] + r(1 − a) p[k] with constant a, via lfilter."""
-    a = math.exp(-dt / tau)
-    b = r * (1.0 - a)
+def _pairs(a: np.ndarray, n: int) -> list[tuple[int, ...]]:
+    """Branches to run together as one second-order filter: the fastest with the slowest, and so on.
+
+    Pairing halves the passes over the samples. A pair is formed only when its poles are
+    distinct enough (|aᵢ − aⱼ| ≥ 1e-3) and not vanishingly small (a ≥ 1e-3), so that the
+    second-order form stays accurate and the branch states can be told apart again.
+    """
+    order = [int(k) for k in np.argsort(a)]
+    groups: list[tuple[int, ...]] = []
+    while order:
+        i = order.pop(0)
+        if order and n >= 2:
+            j = order[-1]
+            if abs(a[i] - a[j]) >= 1e-3 and min(a[i], a[j]) >= 1e-3:
+                order.pop()
+                groups.append((i, j))
+                continue
+        groups.append((i,))
+    return groups
+
+
+def _pair_uniform(p, a_i, b_i, th_i, a_j, b_j, th_j) -> tuple[np.ndarray, float, float]:
+    """Two first-order branches as one second-order filter; their sum, and each final state.
+
+    H(z) = z⁻¹·[bᵢ/(1 − aᵢz⁻¹) + bⱼ/(1 − aⱼz⁻¹)]. The starting states enter as past outputs
+    of the free response, θ/a and θ/a² (``scipy.signal.lfiltic``); the final states come back
+    from the last two outputs and the last held input.
+    """
+    num = [0.0, b_i + b_j, -(b_i * a_j + b_j * a_i)]
+    den = [1.0, -(a_i + a_j), a_i * a_j]
+    zi = scipy.signal.lfiltic(num, den, [th_i / a_i + th_j / a_j, th_i / a_i**2 + th_j / a_j**2], [0.0, 0.0])
+    y, _ = scipy.signal.lfilter(num, den, p, zi=zi)
+    prev_i = (y[-1] - (b_i + b_j) * p[-2] - a_j * y[-2]) / (a_i - a_j)
+    prev_j = y[-2] - prev_i
+    return y, a_i * prev_i + b_i * p[-2], a_j * prev_j + b_j * p[-2]
+
+
+def _branch_uniform(p: np.ndarray, a: float, b: float, theta0: float) -> np.ndarray:
+    """θ[0] = θ0, θ[k+1] = a θ[k] + b p[k] with constant a, via lfilter."""
     # y[k] = a y[k-1] + b x[k-1]  <=>  lfilter([0, b], [1, -a])
     y, _ = scipy.signal.lfilter([0.0, b], [1.0, -a], p, zi=[theta0])
     return y

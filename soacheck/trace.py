@@ -277,18 +277,21 @@ class TraceChecker:
             self._temperature(t, rise_j)
 
         excess = self._excess(self.dc, v, i, tc)
-        outside = excess > 0
-        if self.open is not None and not outside[0]:  # the open excursion ended at this chunk's first sample
-            self._close(self.open, float(t[0]))
-            self.open = None
-        if outside.any():
+        k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
+        if excess[k] > 0 or np.isnan(excess[k]):
+            outside = excess > 0
             worst_inside = np.fmax.reduce(excess, where=~outside, initial=-np.inf)
             k = int(np.argmax(np.where(outside, -np.inf, excess))) if np.isfinite(worst_inside) else 0
-            self._excursions(t, v, i, tc, outside, excess)
         else:
-            worst_inside = np.fmax.reduce(excess)
-            k = int(np.argmax(excess)) if np.isfinite(worst_inside) else 0
-        self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
+            outside = None
+            worst_inside = excess[k]
+        if self.open is not None and (outside is None or not outside[0]):  # it ended at this chunk's first sample
+            self._close(self.open, float(t[0]))
+            self.open = None
+        if outside is not None and outside.any():
+            self._excursions(t, v, i, tc, outside, excess)
+        if np.isfinite(worst_inside):
+            self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
         self._keep_for_plot(t, v, i, tc, rise_j, excess)
         self.samples += t.size
         self.last_t, self.last_p = float(t[-1]), float(p[-1])

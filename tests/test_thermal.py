@@ -276,3 +276,25 @@ def test_fit_recovers_a_known_curve_with_non_negative_terms():
     assert np.all(fit.foster.r_k_per_w > 0) and np.all(fit.foster.tau_s > 0)
     assert fit.worst_relative_error < 0.02  # digitizing-level agreement
     assert fit.foster.rth_k_per_w == pytest.approx(1.0, rel=0.02)
+
+
+@pytest.mark.parametrize(
+    ("r", "tau", "dt"),
+    [
+        ([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1], 1e-5),  # methods.md §3 [con], paired
+        ([0.02, 0.3, 0.6, 0.4], [1e-4, 2e-3, 5.0, 300.0], 1e-4),  # with a heatsink's minutes: stiff
+        ([0.1, 0.5, 0.4], [1e-6, 1e-2, 1.0], 1e-3),  # a branch far faster than the step: not paired
+    ],
+)
+def test_paired_filters_match_the_exact_branch_recursion(r, tau, dt):
+    """The second-order pairing against the per-branch exact recursion (the prefix-sum path)."""
+    from soacheck.thermal import _branch_any_step
+
+    net = Foster(r, tau)
+    t = np.arange(20001) * dt
+    p = 100 + 80 * np.sin(t * 37.0 / (dt * 1000)) * (np.arange(t.size) % 7 < 4)
+    fast, state = temperature_rise(t, p, net)
+    slow = sum(_branch_any_step(t, p, ri, ti, 0.0) for ri, ti in zip(r, tau, strict=True))
+    assert fast == pytest.approx(slow, rel=1e-8, abs=1e-10)
+    exact_last = [_branch_any_step(t, p, ri, ti, 0.0)[-1] for ri, ti in zip(r, tau, strict=True)]
+    assert state.theta_k == pytest.approx(exact_last, rel=1e-7, abs=1e-10)
