@@ -18,8 +18,8 @@ from _timing import best_of
 
 from soacheck.compare import compare
 from soacheck.envelope import Envelope
-from soacheck.files import read_part
 from soacheck.library import bundled_library, list_parts
+from soacheck.partfiles import read_part
 
 
 def scaled_library(count: int) -> list:

@@ -18,8 +18,8 @@ import resource
 import numpy as np
 from _timing import best_of
 
-from soacheck.files import read_part
 from soacheck.library import bundled_library
+from soacheck.partfiles import read_part
 from soacheck.trace import TraceChecker
 
 

@@ -4,7 +4,8 @@ The package is organised by domain concept:
 
 - :mod:`soacheck.units`    -- durations with SI suffixes, converted once at the edge
 - :mod:`soacheck.parts`    -- the part and its curves (frozen dataclasses, no I/O)
-- :mod:`soacheck.files`    -- reading and writing the user's files, with clear errors
+- :mod:`soacheck.files`    -- CSV tables, TOML, traces and atomic writes, with clear errors
+- :mod:`soacheck.partfiles`, :mod:`soacheck.jobfiles` -- part folders; points, envelopes, discharges
 - :mod:`soacheck.library`  -- finding parts by id; stage files
 - :mod:`soacheck.soa`      -- segment mechanisms, temperature derating, the boundary, point checks
 - :mod:`soacheck.thermal`  -- Foster and Cauer networks, pulse trains, Tj along P(t)

@@ -14,7 +14,8 @@ from pathlib import Path
 from typing import Any
 
 from soacheck.errors import SoacheckError, nearest
-from soacheck.files import PART_FILE, check_keys, read_part, read_toml, toml_number, toml_text
+from soacheck.files import check_keys, read_toml, toml_number, toml_text
+from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
 from soacheck.stage import Stage
 from soacheck.trace import Cooling

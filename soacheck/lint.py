@@ -30,7 +30,8 @@ from typing import Literal
 import numpy as np
 
 from soacheck.errors import SoacheckError
-from soacheck.files import PART_FILE, SOA_FILE, ZTH_FILE, read_part, read_part_toml, read_table
+from soacheck.files import read_table
+from soacheck.partfiles import PART_FILE, SOA_FILE, ZTH_FILE, read_part, read_part_toml
 from soacheck.parts import Part
 from soacheck.soa import (
     CURRENT_BAND,

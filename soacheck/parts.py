@@ -1,6 +1,6 @@
 """The part: a transistor's ratings and its digitized SOA curves.
 
-Frozen dataclasses only; reading files is :mod:`soacheck.files`' job. All values
+Frozen dataclasses only; reading files is :mod:`soacheck.partfiles`' job. All values
 are SI: volts, amperes, watts, degrees Celsius, kelvin per watt, seconds.
 """
 

@@ -16,16 +16,8 @@ from typing import Any, Literal
 from soacheck.battery import sweep
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
-from soacheck.files import (
-    check_keys,
-    discharge_from_table,
-    envelope_from_table,
-    read_points,
-    read_toml,
-    read_trace,
-    toml_number,
-    toml_text,
-)
+from soacheck.files import check_keys, read_toml, read_trace, toml_number, toml_text
+from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_points
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
 from soacheck.stage import Stage

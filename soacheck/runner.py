@@ -16,7 +16,7 @@ from matplotlib.figure import Figure
 from soacheck.compare import TrajectoryJob, compare
 from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
-from soacheck.files import discharge_from_table
+from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
 from soacheck.soa import check_points

@@ -6,8 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from soacheck.files import read_part
 from soacheck.library import bundled_library, list_parts
+from soacheck.partfiles import read_part
 from soacheck.thermal import Foster
 
 # The constructed DC curve of methods.md §1-§2 [con]: current limit 15 A to 8.3333 V,

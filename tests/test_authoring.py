@@ -18,9 +18,10 @@ from typer.testing import CliRunner
 
 from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
 from soacheck.cli import app
-from soacheck.files import read_image, read_part
+from soacheck.files import read_image
 from soacheck.library import bundled_library, list_parts
 from soacheck.lint import lint_part
+from soacheck.partfiles import read_part
 from soacheck.soa import allowed_current
 
 from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part

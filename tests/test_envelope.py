@@ -20,8 +20,8 @@ from soacheck.cli import app
 from soacheck.compare import compare
 from soacheck.envelope import Envelope, check_envelope, largest_safe_envelope, round_down
 from soacheck.errors import SoacheckError
-from soacheck.files import read_part
 from soacheck.library import bundled_library
+from soacheck.partfiles import read_part
 from soacheck.soa import check_points
 from soacheck.stage import Stage, steady_state
 from soacheck.trace import Cooling

@@ -11,7 +11,7 @@ import pytest
 from typer.testing import CliRunner
 
 from soacheck.cli import app
-from soacheck.files import read_part
+from soacheck.partfiles import read_part
 from soacheck.soa import allowed_current, check_points, model_consistency
 from soacheck.thermal import thermal_model
 

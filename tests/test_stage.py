@@ -18,7 +18,7 @@ from typer.testing import CliRunner
 from soacheck.battery import PRESETS, Battery, Chemistry, discharge, discharge_current, sweep
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
-from soacheck.files import read_part
+from soacheck.partfiles import read_part
 from soacheck.stage import Stage, loop_gain, run_stage, share_current, sharing_monte_carlo
 
 from .conftest import write_part

@@ -29,17 +29,10 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
-from soacheck.files import (
-    PART_FILE,
-    SOA_FILE,
-    add_curve,
-    read_image,
-    read_table,
-    write_part_folder,
-    write_zth,
-)
+from soacheck.files import read_image, read_table
 from soacheck.library import find_part_folder, library_folders
 from soacheck.lint import lint_part
+from soacheck.partfiles import PART_FILE, SOA_FILE, add_curve, write_part_folder, write_zth
 
 
 @app.command()

@@ -33,14 +33,10 @@ from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
 from soacheck.envelope import SafeEnvelope, check_envelope, largest_safe_envelope, limit_table_c_header
 from soacheck.errors import SoacheckError
-from soacheck.files import (
-    discharge_from_table,
-    read_envelope,
-    read_part,
-    read_toml,
-    read_trace,
-)
+from soacheck.files import read_toml, read_trace
+from soacheck.jobfiles import discharge_from_table, read_envelope
 from soacheck.library import find_part, library_folders, list_parts, read_stage
+from soacheck.partfiles import read_part
 from soacheck.plots import new_axes, plot_compare, plot_envelope_check
 from soacheck.units import parse_duration
 

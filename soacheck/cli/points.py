@@ -27,11 +27,9 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
-from soacheck.files import (
-    read_part,
-    read_points,
-)
+from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
+from soacheck.partfiles import read_part
 from soacheck.plots import plot_soa
 from soacheck.soa import PointCheck, check_points
 from soacheck.units import parse_duration

@@ -31,7 +31,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
-from soacheck.files import battery_from
+from soacheck.jobfiles import battery_from
 from soacheck.plots import plot_stage_run
 from soacheck.stage import StageRun, most_demanding_safe, run_stage, sharing_monte_carlo
 from soacheck.units import parse_duration

@@ -1,0 +1,155 @@
+"""The files that describe tests: operating points, OCV tables, envelopes and discharges."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, discharge
+from soacheck.envelope import Envelope
+from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.files import Table, check_keys, read_table, read_toml, toml_number, toml_text
+from soacheck.units import parse_duration
+
+
+def read_points(path: str | Path) -> Table:
+    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse,duty``.
+
+    Voltage and current must be above zero (they go on log axes); ``case_temp`` is in °C;
+    ``pulse`` is ``dc`` or a width such as ``1ms``; ``duty`` is the duty cycle of a pulse
+    train in (0, 1], or 0 for a single pulse. The frame gains a column ``pulse_s``
+    (seconds, ``inf`` for DC) when ``pulse`` is present.
+    """
+    table = read_table(
+        path,
+        numeric=("voltage", "current", "case_temp", "duty"),
+        text=("pulse",),
+        optional=("case_temp", "pulse", "duty"),
+        positive=("voltage", "current"),
+    )
+    frame = table.frame
+    if "pulse" in frame:
+        frame["pulse_s"] = [parse_duration(p, where=f"{table.where(i)}: pulse") for i, p in enumerate(frame["pulse"])]
+    if "duty" in frame:
+        bad = np.flatnonzero((frame["duty"] < 0) | (frame["duty"] > 1))
+        if bad.size:
+            row = int(bad[0])
+            raise SoacheckError(
+                f"{table.where(row)}: duty {frame['duty'].iloc[row]:g} is outside 0 to 1; write the duty cycle "
+                "tp/T as a fraction (0.1 for 10 %), or 0 for a single pulse"
+            )
+    return table
+
+
+def read_ocv(path: str | Path) -> Chemistry:
+    """Read a cell's OCV curve: columns ``soc,voltage``; soc as a fraction from 0 to 1, V per cell.
+
+    The voltage must rise with state of charge. The default cut-off is the lowest voltage
+    in the table.
+    """
+    table = read_table(path, numeric=("soc", "voltage"), positive=("voltage",))
+    soc = table.frame["soc"].to_numpy()
+    volts = table.frame["voltage"].to_numpy()
+    order = np.argsort(soc, kind="stable")
+    bad = np.flatnonzero((soc < 0) | (soc > 1))
+    if bad.size:
+        k = int(bad[0])
+        raise SoacheckError(
+            f"{table.where(k)}: soc {soc[k]:g} is outside 0 to 1; write the state of charge as a fraction "
+            "(0.5 for 50 %)"
+        )
+    soc, volts = soc[order], volts[order]
+    if soc.size < 2:
+        raise SoacheckError(f"{path}: an OCV curve needs at least two rows")
+    flat = np.flatnonzero(np.diff(soc) <= 0)
+    if flat.size:
+        raise SoacheckError(f"{path}: soc {soc[flat[0]]:g} appears twice; keep one row per state of charge")
+    falls = np.flatnonzero(np.diff(volts) <= 0)
+    if falls.size:
+        k = int(order[falls[0] + 1])
+        raise SoacheckError(
+            f"{table.where(k)}: voltage {volts[falls[0] + 1]:g} V does not rise above {volts[falls[0]]:g} V as "
+            "the state of charge rises; an OCV curve rises with charge"
+        )
+    return Chemistry(Path(path).name, soc, volts, float(volts[0]), f"the user's OCV table {path}")
+
+
+_ENVELOPE_KEYS = ("voltage", "current", "power", "pulse", "duty", "ambient", "case_temp")
+
+
+def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
+    """Build an envelope from its TOML table (an envelope file, or one inline in a plan)."""
+    check_keys(where, data, _ENVELOPE_KEYS, ("voltage", "current", "power"))
+    span = data["voltage"]
+    if not isinstance(span, list) or len(span) != 2:
+        raise SoacheckError(f"{where}: voltage must be a range [low, high] in V, such as [5, 40]")
+    v_lo = toml_number(f"{where}: voltage[0]", span[0])
+    v_hi = toml_number(f"{where}: voltage[1]", span[1])
+    pulse_s = parse_duration(str(data.get("pulse", "dc")), where=f"{where}: pulse")
+    if "duty" in data:
+        duty = toml_number(f"{where}: duty", data["duty"], positive=False)
+        if not (0 < duty <= 1):
+            raise SoacheckError(
+                f"{where}: duty is {duty:g}; give tp/T in (0, 1], such as 0.1 (leave it out for a single pulse)"
+            )
+        if math.isinf(pulse_s):
+            raise SoacheckError(f'{where}: duty needs a pulse width, such as pulse = "10ms"')
+    else:
+        duty = 1.0 if math.isinf(pulse_s) else 0.0
+    if "ambient" in data and "case_temp" in data:
+        raise SoacheckError(f"{where}: give either ambient or case_temp, not both")
+    case_temp = toml_number(f"{where}: case_temp", data["case_temp"], positive=False) if "case_temp" in data else None
+    ambient = (
+        None if case_temp is not None else toml_number(f"{where}: ambient", data.get("ambient", 25.0), positive=False)
+    )
+    return Envelope(
+        v_lo,
+        v_hi,
+        toml_number(f"{where}: current", data["current"]),
+        toml_number(f"{where}: power", data["power"]),
+        pulse_s,
+        duty,
+        ambient,
+        case_temp,
+    )
+
+
+def read_envelope(path: str | Path) -> Envelope:
+    """Read an envelope file (TOML): voltage = [low, high], current, power, pulse, duty, ambient or case_temp."""
+    return envelope_from_table(read_toml(path, "envelope"), where=str(path))
+
+
+_DISCHARGE_KEYS = ("battery", "cells", "capacity", "mode", "setpoint", "cutoff", "internal_resistance", "samples")
+
+
+def battery_from(name: str, cells: int, capacity_ah: float, r_int_ohm: float, *, base: Path = Path()) -> Battery:
+    """A pack from a chemistry preset name or the path of an OCV CSV (relative to ``base``)."""
+    source = base / name
+    chem = read_ocv(source) if source.suffix.lower() == ".csv" or source.is_file() else chemistry(name)
+    return Battery(chem, cells, capacity_ah, r_int_ohm)
+
+
+def discharge_from_table(data: dict[str, Any], *, where: str, base: Path) -> Trajectory:
+    """A discharge described in TOML (a discharge file, or a job in a plan) as a trajectory."""
+    check_keys(where, data, _DISCHARGE_KEYS, ("battery", "cells", "capacity", "mode", "setpoint"))
+    cells = data["cells"]
+    if isinstance(cells, bool) or not isinstance(cells, int) or cells < 1:
+        raise SoacheckError(f"{where}: cells is {cells!r}; write a whole number of cells in series")
+    pack = battery_from(
+        toml_text(f"{where}: battery", data["battery"]),
+        cells,
+        toml_number(f"{where}: capacity", data["capacity"]),
+        toml_number(f"{where}: internal_resistance", data.get("internal_resistance", 0.0), positive=False),
+        base=base,
+    )
+    mode = toml_text(f"{where}: mode", data["mode"]).lower()
+    if mode not in MODES:
+        raise SoacheckError(f"{where}: mode '{mode}' is not one of cc, cp, cr{did_you_mean(mode, MODES)}")
+    cutoff = toml_number(f"{where}: cutoff", data["cutoff"]) if "cutoff" in data else None
+    samples = data.get("samples", 2000)
+    if isinstance(samples, bool) or not isinstance(samples, int) or samples < 10:
+        raise SoacheckError(f"{where}: samples is {samples!r}; write a whole number of at least 10")
+    return discharge(pack, mode, toml_number(f"{where}: setpoint", data["setpoint"]), cutoff_v=cutoff, samples=samples)

@@ -1,0 +1,275 @@
+"""Part folders: ``part.toml``, ``soa.csv`` and ``zth.csv``, read into a :class:`~soacheck.parts.Part`
+and written atomically (the format is documented in ``docs/part-format.md``).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.files import (
+    check_keys,
+    read_table,
+    read_toml,
+    replace_text,
+    significant,
+    toml_number,
+    toml_text,
+    write_folder,
+)
+from soacheck.parts import KINDS, Part, Ratings, SoaCurve
+from soacheck.units import format_duration, parse_duration
+
+PART_FILE = "part.toml"
+SOA_FILE = "soa.csv"
+ZTH_FILE = "zth.csv"
+_TOP_KEYS = ("id", "kind", "description", "source", "ratings", "derating", "thermal")
+_REQUIRED_TOP = ("id", "kind", "description", "source", "ratings")
+_RATING_KEYS = ("v_max", "i_max", "i_pulse_max", "p_max", "tj_max", "rth_jc")
+_REQUIRED_RATINGS = ("v_max", "i_max", "p_max", "tj_max", "rth_jc")
+_DERATING_KEYS = ("second_breakdown",)
+_THERMAL_KEYS = ("foster_r", "foster_tau")
+
+
+def _number_list(where: str, value: Any) -> np.ndarray:
+    if not isinstance(value, list) or not value:
+        raise SoacheckError(f"{where} must be a non-empty list of numbers, such as [0.1, 0.2]")
+    return np.array([toml_number(f"{where}[{i}]", v) for i, v in enumerate(value)])
+
+
+def read_part_toml(path: Path) -> dict[str, Any]:
+    """Parse ``part.toml`` into a dict, turning syntax errors into a clear message."""
+    return read_toml(path, "part")
+
+
+def read_part(folder: str | Path) -> Part:
+    """Read and validate a part folder holding ``part.toml`` and ``soa.csv``.
+
+    The format is documented in ``docs/part-format.md``. The folder name must equal the
+    part's ``id``, so that a part can be found by its id without reading every part.
+    """
+    folder = Path(folder)
+    toml_path = folder / PART_FILE
+    data = read_part_toml(toml_path)
+    where = str(toml_path)
+    check_keys(where, data, _TOP_KEYS, _REQUIRED_TOP)
+    part_id = toml_text(f"{where}: id", data["id"])
+    if part_id != folder.name:
+        raise SoacheckError(
+            f"{where}: id '{part_id}' differs from the folder name '{folder.name}'; rename one to match"
+        )
+    kind = toml_text(f"{where}: kind", data["kind"]).lower()
+    if kind not in KINDS:
+        raise SoacheckError(
+            f"{where}: kind '{kind}' is unknown{did_you_mean(kind, KINDS)}; use one of {', '.join(KINDS)}"
+        )
+    ratings_table = data["ratings"]
+    if not isinstance(ratings_table, dict):
+        raise SoacheckError(f"{where}: 'ratings' must be a table: write [ratings] on its own line")
+    check_keys(f"{where} [ratings]", ratings_table, _RATING_KEYS, _REQUIRED_RATINGS)
+    r = {k: toml_number(f"{where}: ratings.{k}", v) for k, v in ratings_table.items()}
+    if r["tj_max"] <= 25:
+        raise SoacheckError(f"{where}: ratings.tj_max is {r['tj_max']:g} °C; it must be above 25 °C")
+    ratings = Ratings(
+        v_max_v=r["v_max"],
+        i_max_a=r["i_max"],
+        p_max_w=r["p_max"],
+        tj_max_c=r["tj_max"],
+        rth_jc_k_per_w=r["rth_jc"],
+        i_pulse_max_a=r.get("i_pulse_max"),
+    )
+
+    sb_case_c = sb_fraction = np.zeros(0)
+    if "derating" in data:
+        derating = data["derating"]
+        if not isinstance(derating, dict):
+            raise SoacheckError(f"{where}: 'derating' must be a table: write [derating] on its own line")
+        check_keys(f"{where} [derating]", derating, _DERATING_KEYS, ())
+        if "second_breakdown" in derating:
+            sb_case_c, sb_fraction = _derating_table(
+                f"{where}: derating.second_breakdown", derating["second_breakdown"]
+            )
+
+    foster_r = foster_tau = np.zeros(0)
+    if "thermal" in data:
+        thermal = data["thermal"]
+        if not isinstance(thermal, dict):
+            raise SoacheckError(f"{where}: 'thermal' must be a table: write [thermal] on its own line")
+        check_keys(f"{where} [thermal]", thermal, _THERMAL_KEYS, _THERMAL_KEYS)
+        foster_r = _number_list(f"{where}: thermal.foster_r", thermal["foster_r"])
+        foster_tau = _number_list(f"{where}: thermal.foster_tau", thermal["foster_tau"])
+        if foster_r.size != foster_tau.size:
+            raise SoacheckError(
+                f"{where}: thermal.foster_r has {foster_r.size} terms and foster_tau {foster_tau.size}; "
+                "give one time constant per resistance"
+            )
+
+    curves = read_soa_curves(folder / SOA_FILE, kind=kind, ratings=ratings)
+    zth_time = zth_value = np.zeros(0)
+    if (folder / ZTH_FILE).exists():
+        zth_time, zth_value = read_zth(folder / ZTH_FILE)
+    return Part(
+        id=part_id,
+        kind=kind,
+        description=toml_text(f"{where}: description", data["description"]),
+        source=toml_text(f"{where}: source", data["source"]),
+        ratings=ratings,
+        curves=curves,
+        breakdown_case_c=sb_case_c,
+        breakdown_fraction=sb_fraction,
+        foster_r_k_per_w=foster_r,
+        foster_tau_s=foster_tau,
+        zth_time_s=zth_time,
+        zth_k_per_w=zth_value,
+        folder=folder,
+    )
+
+
+def _derating_table(where: str, value: Any) -> tuple[np.ndarray, np.ndarray]:
+    if not isinstance(value, list) or not value:
+        raise SoacheckError(f"{where} must be a list of [case_c, fraction] pairs, such as [[25, 1.0], [100, 0.7]]")
+    case_c, fraction = [], []
+    for i, row in enumerate(value):
+        if not isinstance(row, list) or len(row) != 2:
+            raise SoacheckError(f"{where}[{i}] is {row!r}; write a pair [case_c, fraction]")
+        case_c.append(toml_number(f"{where}[{i}] case temperature", row[0], positive=False))
+        fraction.append(toml_number(f"{where}[{i}] fraction", row[1], positive=False))
+    case = np.array(case_c)
+    frac = np.array(fraction)
+    if np.any(np.diff(case) <= 0):
+        raise SoacheckError(f"{where}: case temperatures must rise from row to row")
+    if np.any(frac < 0) or np.any(frac > 1):
+        raise SoacheckError(f"{where}: fractions must lie between 0 and 1 (1 = not derated)")
+    return case, frac
+
+
+def read_soa_curves(path: Path, *, kind: str, ratings: Ratings) -> tuple[SoaCurve, ...]:
+    """Read ``soa.csv`` (columns ``pulse,voltage,current``) into curves, shortest pulse first.
+
+    Each curve must list its points from low to high voltage with no repeated voltage,
+    and its current must not rise with voltage, except for an on-resistance line at the
+    start of a FET or IGBT curve and digitizing noise along a current limit (slope
+    within ±0.15 on log-log axes).
+    """
+    table = read_table(path, numeric=("voltage", "current"), text=("pulse",), positive=("voltage", "current"))
+    frame = table.frame
+    pulse_s = np.array([parse_duration(p, where=table.where(i) + ": pulse") for i, p in enumerate(frame["pulse"])])
+    voltage = frame["voltage"].to_numpy()
+    current = frame["current"].to_numpy()
+    may_rise_at_start = kind not in ("npn", "pnp")
+    file_lines = table.lines
+    curves = []
+    for width in np.unique(pulse_s):
+        rows = np.flatnonzero(pulse_s == width)
+        v, i = voltage[rows], current[rows]
+        label = frame["pulse"].iloc[rows[0]]
+        if rows.size < 2:
+            raise SoacheckError(f"{table.where(int(rows[0]))}: curve '{label}' has one point; digitize at least two")
+        dv = np.diff(v)
+        back = np.flatnonzero(dv < 0)
+        if back.size:
+            k = int(rows[back[0] + 1])
+            raise SoacheckError(
+                f"{table.where(k)}: voltage {v[back[0] + 1]:g} V follows {v[back[0]]:g} V in curve '{label}'; "
+                "list each curve's points from low to high voltage"
+            )
+        same = np.flatnonzero(dv == 0)
+        if same.size:
+            k = int(rows[same[0] + 1])
+            raise SoacheckError(
+                f"{table.where(k)}: voltage {v[same[0]]:g} V appears twice in curve '{label}'; keep one point "
+                "(the voltage limit at ratings.v_max is implied, no vertical line is needed)"
+            )
+        slope = np.diff(np.log(i)) / np.diff(np.log(v))
+        rising = slope > 0.15
+        if may_rise_at_start:
+            # an on-resistance line may open a FET or IGBT curve: allow the leading run
+            lead = int(np.argmin(rising)) if not rising.all() else rising.size
+            rising[:lead] = False
+        if rising.any():
+            k = int(np.argmax(rising))
+            raise SoacheckError(
+                f"{table.where(int(rows[k + 1]))}: current rises from {i[k]:g} A to {i[k + 1]:g} A as voltage rises "
+                f"in curve '{label}'; an SOA boundary must fall"
+                + ("" if may_rise_at_start else " (only a FET or IGBT curve may open with an on-resistance line)")
+            )
+        if v[-1] > ratings.v_max_v * 1.0001:
+            k = int(rows[-1])
+            raise SoacheckError(
+                f"{table.where(k)}: curve '{label}' reaches {v[-1]:g} V, above ratings.v_max = "
+                f"{ratings.v_max_v:g} V; end the curve at v_max or correct the rating"
+            )
+        curves.append(SoaCurve(pulse_s=float(width), voltage_v=v, current_a=i, lines=file_lines[rows]))
+    if not curves[-1].is_dc:
+        raise SoacheckError(f"{path}: no 'dc' curve; digitize the DC curve too (pulse = dc)")
+    return tuple(curves)
+
+
+def read_zth(path: Path) -> tuple[np.ndarray, np.ndarray]:
+    """Read a digitized single-pulse thermal impedance curve: columns ``time,zth`` in s and K/W.
+
+    Times must rise from row to row and the impedance must not fall with time (heat only
+    spreads further); both must be above zero.
+    """
+    table = read_table(path, numeric=("time", "zth"), positive=("time", "zth"))
+    t = table.frame["time"].to_numpy()
+    z = table.frame["zth"].to_numpy()
+    if t.size < 2:
+        raise SoacheckError(f"{path}: a Zth curve needs at least two points")
+    step = np.flatnonzero(np.diff(t) <= 0)
+    if step.size:
+        k = int(step[0]) + 1
+        raise SoacheckError(
+            f"{table.where(k)}: time {t[k]:g} s does not rise after {t[k - 1]:g} s; list times from short to long"
+        )
+    fall = np.flatnonzero(np.diff(z) < 0)
+    if fall.size:
+        k = int(fall[0]) + 1
+        raise SoacheckError(
+            f"{table.where(k)}: zth falls from {z[k - 1]:g} to {z[k]:g} K/W; a single-pulse Zth curve never "
+            "falls with time (check for a misread decade)"
+        )
+    return t, z
+
+
+def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = False) -> None:
+    """Write a part folder atomically; an existing one is replaced only with ``force``."""
+    if Path(folder).exists() and not force:
+        raise SoacheckError(f"{folder}: exists; choose another id or add --force to replace it")
+    write_folder(folder, files, force=force)
+
+
+def add_curve(path: Path, pulse: str, voltage_v: np.ndarray, current_a: np.ndarray, *, force: bool = False) -> int:
+    """Add one pulse curve to ``soa.csv``, keeping every other row; returns the rows written.
+
+    A curve of the same pulse width already in the file is replaced only with ``force``.
+    """
+    path = Path(path)
+    label = format_duration(parse_duration(pulse, where="--pulse"))
+    kept: list[str] = []
+    if path.exists():
+        table = read_table(path, numeric=("voltage", "current"), text=("pulse",))
+        frame = table.frame
+        same = np.array([format_duration(parse_duration(p, where=f"{path}: pulse")) == label for p in frame["pulse"]])
+        if same.any() and not force:
+            raise SoacheckError(f"{path}: already has a '{label}' curve; add --force to replace it")
+        kept = [
+            f"{p},{float(v)!r},{float(c)!r}"
+            for p, v, c, s in zip(frame["pulse"], frame["voltage"], frame["current"], same, strict=True)
+            if not s
+        ]
+    rows = [f"{label},{significant(v)},{significant(c)}" for v, c in zip(voltage_v, current_a, strict=True)]
+    replace_text(path, "\n".join(["pulse,voltage,current", *kept, *rows]) + "\n")
+    return len(rows)
+
+
+def write_zth(path: Path, time_s: np.ndarray, zth_k_per_w: np.ndarray, *, force: bool = False) -> None:
+    """Write ``zth.csv`` (one curve per part); an existing file is replaced only with ``force``."""
+    path = Path(path)
+    if path.exists() and not force:
+        raise SoacheckError(f"{path}: exists; add --force to replace it")
+    rows = [f"{significant(t)},{significant(z)}" for t, z in zip(time_s, zth_k_per_w, strict=True)]
+    replace_text(path, "\n".join(["time,zth", *rows]) + "\n")
