@@ -7,7 +7,8 @@ The package is organised by domain concept:
 - :mod:`soacheck.files`    -- CSV tables, TOML, traces and atomic writes, with clear errors
 - :mod:`soacheck.partfiles`, :mod:`soacheck.jobfiles` -- part folders; points, envelopes, discharges
 - :mod:`soacheck.library`  -- finding parts by id; stage files
-- :mod:`soacheck.soa`      -- segment mechanisms, temperature derating, the boundary, point checks
+- :mod:`soacheck.derating` -- each mechanism's derating with case temperature
+- :mod:`soacheck.soa`      -- segment mechanisms, the derated boundary, point checks
 - :mod:`soacheck.thermal`  -- Foster and Cauer networks, pulse trains, Tj along P(t)
 - :mod:`soacheck.trace`    -- waveforms checked sample by sample, in chunks
 - :mod:`soacheck.stage`    -- parallel devices, current sharing, runaway, steady states

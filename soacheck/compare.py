@@ -18,10 +18,11 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from soacheck.battery import Trajectory
+from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
-from soacheck.soa import BreakdownDerating, allowed_current, max_case_temp
+from soacheck.soa import allowed_current, max_case_temp
 from soacheck.stage import Stage, run_stage
 from soacheck.trace import TraceChecker
 

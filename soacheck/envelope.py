@@ -18,8 +18,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
-from soacheck.soa import BreakdownDerating
 from soacheck.stage import Stage, SteadyState, check_devices, steady_state
 from soacheck.units import DC, format_duration
 

@@ -15,9 +15,10 @@ from matplotlib.colors import TwoSlopeNorm
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
+from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, EnvelopeCheck
 from soacheck.parts import Part
-from soacheck.soa import BreakdownDerating, PointCheck, boundary_polyline, mechanism_lines
+from soacheck.soa import PointCheck, boundary_polyline, mechanism_lines
 from soacheck.stage import StageRun
 from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration

@@ -27,9 +27,10 @@ from typing import Literal
 import numpy as np
 import scipy.special
 
+from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
-from soacheck.soa import BreakdownDerating, allowed_current
+from soacheck.soa import allowed_current
 from soacheck.thermal import Foster, temperature_rise, thermal_model
 from soacheck.trace import Cooling
 from soacheck.units import DC

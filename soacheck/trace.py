@@ -21,13 +21,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from soacheck.derating import BreakdownDerating, breakdown_policy_note
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.soa import (
     BoundaryPolyline,
-    BreakdownDerating,
     MechanismLine,
-    breakdown_policy_note,
     envelope_polyline,
     evaluate_lines,
     mechanism_lines,

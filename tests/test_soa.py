@@ -16,16 +16,15 @@ import shapely
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from soacheck.derating import breakdown_factor, thermal_factor
 from soacheck.soa import (
     allowed_current,
     boundary_polyline,
-    breakdown_factor,
     check_points,
     classify_slopes,
     path_crossings,
     region_polygon,
     segment_slopes,
-    thermal_factor,
 )
 
 from .conftest import read_part, write_part

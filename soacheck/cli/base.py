@@ -17,10 +17,10 @@ import numpy as np
 import typer
 from rich.console import Console
 
+from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.library import find_part, library_folders, read_stage
 from soacheck.parts import Part
-from soacheck.soa import BreakdownDerating
 from soacheck.stage import Stage
 
 app = typer.Typer(

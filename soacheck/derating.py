@@ -1,0 +1,87 @@
+"""Temperature derating of each SOA mechanism with case temperature.
+
+The thermal (constant-power) limit falls as (tj_max − Tc)/(tj_max − 25 °C), since
+P = (tj_max − Tc)/Rth_jc (JEDEC JESD51-1 defines Rth_jc). Second breakdown (bipolar) and
+linear-mode instability (FET, IGBT) follow the part's own table, or, where it gives none,
+the thermal factor (conservative; published guidance says only that they do not derate
+like the thermal limit). The current and voltage limits are not derated (common practice).
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+
+from soacheck.parts import REFERENCE_CASE_C, Part
+
+BreakdownDerating = Literal["auto", "thermal", "none"]
+"""How second breakdown (bipolar) or instability (FET, IGBT) is derated with case temperature.
+
+``auto``: the part's ``[derating] second_breakdown`` table where it has one, else like the
+thermal limit (conservative). ``thermal``: always like the thermal limit. ``none``: not at
+all (non-conservative; for comparison only)."""
+
+
+def thermal_factor(tc_c: np.ndarray | float, tj_max_c: float) -> np.ndarray:
+    """Fraction of the 25 °C thermal (constant-power) limit left at case temperature ``tc_c``.
+
+    f = (tj_max − Tc)/(tj_max − 25 °C), clipped to [0, 1]: no extra allowance is taken
+    below 25 °C, and nothing is allowed at or above tj_max.
+
+    References
+    ----------
+    P = (tj_max − Tc)/Rth_jc, the definition of junction-to-case thermal resistance
+    (JEDEC JESD51-1); the linear derating line printed on datasheets (common practice).
+    """
+    tc = np.asarray(tc_c, dtype=float)
+    return np.clip((tj_max_c - tc) / (tj_max_c - REFERENCE_CASE_C), 0.0, 1.0)
+
+
+def breakdown_factor(tc_c: np.ndarray | float, part: Part, policy: BreakdownDerating = "auto") -> np.ndarray:
+    """Fraction of the 25 °C second-breakdown (or instability) limit left at ``tc_c``.
+
+    With the part's table (policy ``auto``): linear between its rows, never rising with
+    temperature (a rising table is read as its running minimum), the first row's
+    fraction below the table, and beyond the last row the smaller of the last fraction
+    and the thermal factor. Without a table, or with policy ``thermal``: the thermal
+    factor (conservative; published guidance says only that second breakdown does not
+    derate like the thermal limit). Policy ``none``: 1 (non-conservative).
+    """
+    tc = np.asarray(tc_c, dtype=float)
+    thermal = thermal_factor(tc, part.ratings.tj_max_c)
+    if policy == "none":
+        return np.where(tc >= part.ratings.tj_max_c, 0.0, 1.0)
+    if policy == "thermal" or part.breakdown_case_c.size == 0:
+        return thermal
+    fraction = np.minimum.accumulate(part.breakdown_fraction)
+    table = np.interp(tc, part.breakdown_case_c, fraction)
+    beyond = tc > part.breakdown_case_c[-1]
+    table = np.where(beyond, np.minimum(table, thermal), table)
+    return np.where(tc >= part.ratings.tj_max_c, 0.0, np.minimum(table, 1.0))
+
+
+def mechanism_factors(tc_c: np.ndarray, part: Part, policy: BreakdownDerating) -> dict[str, np.ndarray]:
+    """Derating factor of each mechanism at ``tc_c`` (any shape)."""
+    thermal = thermal_factor(tc_c, part.ratings.tj_max_c)
+    breakdown = breakdown_factor(tc_c, part, policy)
+    ones = np.ones_like(thermal)
+    return {
+        "on_resistance": ones,
+        "current": ones,
+        "thermal": thermal,
+        "second_breakdown": breakdown,
+        "instability": breakdown,
+        "unclassified": np.minimum(thermal, breakdown),
+    }
+
+
+def breakdown_policy_note(part: Part, policy: BreakdownDerating) -> str:
+    """One sentence on how the steep (breakdown or instability) segments were derated."""
+    name = part.steep_mechanism.replace("_", " ")
+    if policy == "none":
+        return f"{name} not derated with case temperature (chosen by the user; NOT conservative)"
+    if policy == "thermal" or part.breakdown_case_c.size == 0:
+        why = "chosen by the user" if policy == "thermal" else "the part gives no derating table"
+        return f"{name} derated like the thermal limit ({why}; conservative)"
+    return f"{name} derated by the part's table [derating] second_breakdown"
