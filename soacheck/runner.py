@@ -20,7 +20,7 @@ from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
 from soacheck.soa import check_points
-from soacheck.stage import most_demanding_safe, run_stage
+from soacheck.stage import max_safe_setpoint, run_stage
 from soacheck.trace import TraceChecker
 
 SAFETY_CAUTIONS = (
@@ -158,18 +158,12 @@ def run_job(plan: Plan, job: Job) -> JobResult:
 
 def _max_setpoint(plan: Plan, job: Job) -> float | None:
     table, origin, base = job.data["table"], job.data["origin"], job.data["base"]
-    mode = str(table["mode"]).lower()
 
-    def run_at(value: float):
-        setpoint = 1.0 / value if mode == "cr" else value
+    def run_at(setpoint: float):
         path = discharge_from_table({**table, "setpoint": setpoint}, where=origin, base=base)
         return run_stage(plan.stage, path.time_s, path.source_v, path.total_a)
 
-    start = float(table["setpoint"])
-    best = most_demanding_safe(run_at, 1.0 / start if mode == "cr" else start, rel_tol=1e-2)
-    if best is None:
-        return None
-    return 1.0 / best if mode == "cr" else best
+    return max_safe_setpoint(run_at, float(table["setpoint"]), str(table["mode"]).lower(), rel_tol=1e-2)
 
 
 def run_plan(plan: Plan, *, progress: Callable[[int, int, str], None] | None = None) -> list[JobResult]:

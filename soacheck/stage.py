@@ -670,3 +670,16 @@ def steady_state(
     gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
     runaway_at = (gain >= 1.0).any(axis=0) | ((gone | ~settled) & (n > 1))
     return SteadyState(currents, vce, power, case, tj, sink_c, gain, runaway_at)
+
+
+def max_safe_setpoint(run_at, setpoint: float, mode: str, *, rel_tol: float = 1e-3) -> float | None:
+    """The most demanding load setpoint that stays safe, from ``run_at(setpoint) -> StageRun``.
+
+    For ``cc`` (A) and ``cp`` (W) that is the highest setpoint; for ``cr`` (Ω) the lowest
+    resistance, found by searching the conductance 1/R, which grows with the load. None when
+    no setpoint searched is safe.
+    """
+    if mode != "cr":
+        return most_demanding_safe(run_at, setpoint, rel_tol=rel_tol)
+    best = most_demanding_safe(lambda g: run_at(1.0 / g), 1.0 / setpoint, rel_tol=rel_tol)
+    return None if best is None else 1.0 / best

@@ -124,6 +124,18 @@ def stage_option(path: Path, library: list[Path] | None) -> Stage:
     return read_stage(path, library_folders(library or []))
 
 
+def number_list(text: str, option: str, example: str, *, positive: bool = False) -> np.ndarray:
+    """Comma-separated numbers from an option, such as ``25,75,125``; one clear error otherwise."""
+    try:
+        values = np.array([float(x) for x in text.split(",") if x.strip()])
+    except ValueError:
+        raise SoacheckError(f"{option}: '{text}' is not a list of numbers such as {example}") from None
+    if values.size == 0 or not np.all(np.isfinite(values)) or (positive and np.any(values <= 0)):
+        kind = "numbers above zero" if positive else "finite numbers"
+        raise SoacheckError(f"{option}: give {kind}, such as {example}")
+    return values
+
+
 def check_outputs(samples: int, plot: Path | None, force: bool) -> None:
     if samples < 10:
         raise SoacheckError("--samples must be at least 10")

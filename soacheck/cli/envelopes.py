@@ -23,6 +23,7 @@ from soacheck.cli.base import (
     console_for_output,
     duty_option,
     echo_json,
+    number_list,
     plot_suffix,
     policy_option,
     refuse_overwrite,
@@ -44,13 +45,7 @@ from soacheck.units import parse_duration
 def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
     if text is None:
         return np.geomspace(1.0, v_max_v, 25)
-    try:
-        values = np.array([float(x) for x in text.split(",") if x.strip()])
-    except ValueError:
-        raise SoacheckError(f"--voltages: '{text}' is not a list of voltages such as 10,20,40") from None
-    if values.size == 0 or np.any(~np.isfinite(values)) or np.any(values <= 0):
-        raise SoacheckError("--voltages: give voltages above zero, such as 10,20,40")
-    return np.sort(values)
+    return np.sort(number_list(text, "--voltages", "10,20,40", positive=True))
 
 
 def _export_table(table: SafeEnvelope, path: Path, force: bool) -> None:

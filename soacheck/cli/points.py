@@ -20,6 +20,7 @@ from soacheck.cli.base import (
     console_for_output,
     duty_option,
     echo_json,
+    number_list,
     part_option,
     plot_suffix,
     policy_option,
@@ -172,16 +173,6 @@ def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     console_for_output().print(table)
 
 
-def _temperatures(text: str) -> list[float]:
-    try:
-        values = [float(t) for t in text.split(",") if t.strip()]
-    except ValueError:
-        raise SoacheckError(f"--case-temp: '{text}' is not a list of temperatures such as 25,75,125") from None
-    if not all(math.isfinite(t) for t in values):
-        raise SoacheckError("--case-temp: temperatures must be finite numbers in °C")
-    return values
-
-
 @app.command()
 @user_errors
 def show(
@@ -216,6 +207,12 @@ def show(
             pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
             policy=policy,
         )
-    ax = plot_soa(loaded, case_temps_c=_temperatures(case_temp), pulse_s=pulse_s, points=checked, policy=policy)
+    ax = plot_soa(
+        loaded,
+        case_temps_c=number_list(case_temp, "--case-temp", "25,75,125").tolist(),
+        pulse_s=pulse_s,
+        points=checked,
+        policy=policy,
+    )
     ax.figure.savefig(output)
     typer.echo(f"wrote {output}")

@@ -33,7 +33,7 @@ from soacheck.cli.base import (
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import battery_from
 from soacheck.plots import plot_stage_run
-from soacheck.stage import StageRun, most_demanding_safe, run_stage, sharing_monte_carlo
+from soacheck.stage import StageRun, max_safe_setpoint, run_stage, sharing_monte_carlo
 from soacheck.units import parse_duration
 
 
@@ -102,11 +102,7 @@ def discharge(
     label = battery_discharge(pack, mode, setpoint, cutoff_v=cutoff, samples=10).label
     extra: dict[str, Any] = {}
     if find_max:
-        if mode == "cr":  # more load is less resistance: search the conductance
-            best = most_demanding_safe(lambda g: run_at(1.0 / g), 1.0 / setpoint)
-            extra["max_safe_setpoint"] = None if best is None else 1.0 / best
-        else:
-            extra["max_safe_setpoint"] = most_demanding_safe(run_at, setpoint)
+        extra["max_safe_setpoint"] = max_safe_setpoint(run_at, setpoint, mode)
     _report_run(run, label, as_json=as_json, plot=plot, extra=extra)
 
 
