@@ -12,21 +12,22 @@ case temperature, the highest case temperature.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from soacheck.battery import Trajectory
+from soacheck.boundary import allowed_current, max_case_temp
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
-from soacheck.soa import allowed_current, max_case_temp
-from soacheck.stage import Stage, run_stage
+from soacheck.search import MAX_COUNT, fewest, highest, highest_linear
+from soacheck.stage import Stage
+from soacheck.stage_run import run_stage
 from soacheck.trace import TraceChecker
 
-MAX_COUNT = 256
 SEARCH_POINTS = 100
 """Points along the envelope's edge for the searches over count and cooling (the verdict uses all)."""
 
@@ -56,26 +57,6 @@ class Candidate:
             "max_case_temp": self.max_case_temp,
             "worst_voltage": self.worst_voltage,
         }
-
-
-def _fewest(passes: Callable[[int], bool], start: int) -> int | None:
-    """The smallest count in [1, MAX_COUNT] that passes, by doubling then bisecting (monotone)."""
-    lo, hi = 0, max(1, start)  # lo fails (0 devices), hi to be found passing
-    while not passes(hi):
-        lo, hi = hi, hi * 2
-        if hi > MAX_COUNT:
-            return None if not passes(MAX_COUNT) else _bisect_count(passes, lo, MAX_COUNT)
-    return _bisect_count(passes, lo, hi)
-
-
-def _bisect_count(passes: Callable[[int], bool], lo: int, hi: int) -> int:
-    while hi - lo > 1:
-        mid = (lo + hi) // 2
-        if passes(mid):
-            hi = mid
-        else:
-            lo = mid
-    return hi
 
 
 def _alone(part: Part, envelope: Envelope, policy: BreakdownDerating, points: int) -> Candidate:
@@ -147,10 +128,10 @@ def _single_trace(part: Part, job: TrajectoryJob, count: int, policy: BreakdownD
 
 def _trace_alone(part: Part, job: TrajectoryJob, policy: BreakdownDerating) -> Candidate:
     result = _single_trace(part, job, 1, policy)
-    min_count = _fewest(lambda n: _single_trace(part, job, n, policy).passed, 1)
+    min_count = fewest(lambda n: _single_trace(part, job, n, policy).passed, 1)
     hottest = None
     if result.passed:
-        hottest = _highest_linear(
+        hottest = highest_linear(
             lambda tc: _single_trace(part, replace(job, case_temp_c=tc), 1, policy).passed,
             job.case_temp_c,
             part.ratings.tj_max_c,
@@ -175,10 +156,10 @@ def _in_stage(part: Part, stage: Stage, job: Job, policy: BreakdownDerating, poi
     passed, margin, limit, worst_v = _rate(job, placed, policy, points)
     coarse = min(points, SEARCH_POINTS)
     rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
-    min_count = _fewest(lambda n: _rate(rough, replace(placed, count=n), policy, coarse)[0], placed.count)
+    min_count = fewest(lambda n: _rate(rough, replace(placed, count=n), policy, coarse)[0], placed.count)
     max_rth = None
     if placed.cooling is not None and passed:
-        max_rth = _highest(
+        max_rth = highest(
             lambda r: _rate(
                 job, replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)), policy, points
             )[0],
@@ -194,32 +175,6 @@ def _thinned(job: TrajectoryJob, samples: int) -> TrajectoryJob:
     keep = slice(None, None, step)
     thin = Trajectory(path.time_s[keep], path.source_v[keep], path.total_a[keep], path.label, path.notes)
     return replace(job, trajectory=thin)
-
-
-def _highest_linear(passes: Callable[[float], bool], start: float, stop: float, *, tol: float = 0.1) -> float:
-    """The largest x in [start, stop] that passes, given that ``start`` passes (bisection to ``tol``)."""
-    if passes(stop):
-        return stop
-    lo, hi = start, stop
-    while hi - lo > tol:
-        mid = 0.5 * (lo + hi)
-        lo, hi = (mid, hi) if passes(mid) else (lo, mid)
-    return lo
-
-
-def _highest(passes: Callable[[float], bool], start: float, *, rel_tol: float = 1e-3) -> float:
-    """The largest x > 0 that passes, given that ``start`` passes and larger x never helps."""
-    lo, hi = start, start * 2
-    for _ in range(30):
-        if not passes(hi):
-            break
-        lo, hi = hi, hi * 2
-    else:
-        return lo
-    while hi / lo > 1 + rel_tol:
-        mid = math.sqrt(lo * hi)
-        lo, hi = (mid, hi) if passes(mid) else (lo, mid)
-    return lo
 
 
 def compare(

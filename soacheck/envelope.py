@@ -20,7 +20,9 @@ import numpy as np
 
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
-from soacheck.stage import Stage, SteadyState, check_devices, steady_state
+from soacheck.stage import Stage
+from soacheck.stage_run import check_devices
+from soacheck.steady_state import SteadyState, steady_state
 from soacheck.units import DC, format_duration
 
 

@@ -17,8 +17,7 @@ from soacheck.errors import SoacheckError, nearest
 from soacheck.files import check_keys, read_toml, toml_number, toml_text
 from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
-from soacheck.stage import Stage
-from soacheck.trace import Cooling
+from soacheck.stage import Cooling, Stage
 
 LIBRARY_ENV = "SOACHECK_LIBRARY"
 

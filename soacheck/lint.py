@@ -29,18 +29,12 @@ from typing import Literal
 
 import numpy as np
 
+from soacheck.boundary import allowed_current, model_consistency
 from soacheck.errors import SoacheckError
 from soacheck.files import read_table
+from soacheck.mechanisms import CURRENT_BAND, classify_slopes, mechanism_lines, segment_slopes
 from soacheck.partfiles import PART_FILE, SOA_FILE, ZTH_FILE, read_part, read_part_toml
 from soacheck.parts import Part
-from soacheck.soa import (
-    CURRENT_BAND,
-    allowed_current,
-    classify_slopes,
-    mechanism_lines,
-    model_consistency,
-    segment_slopes,
-)
 
 Severity = Literal["error", "warning"]
 

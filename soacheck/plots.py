@@ -15,11 +15,13 @@ from matplotlib.colors import TwoSlopeNorm
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
+from soacheck.boundary import boundary_polyline
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, EnvelopeCheck
+from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import Part
-from soacheck.soa import PointCheck, boundary_polyline, mechanism_lines
-from soacheck.stage import StageRun
+from soacheck.points import PointCheck
+from soacheck.stage_run import StageRun
 from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration
 

@@ -19,8 +19,9 @@ from soacheck.errors import SoacheckError
 from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
-from soacheck.soa import check_points
-from soacheck.stage import max_safe_setpoint, run_stage
+from soacheck.points import check_points
+from soacheck.search import max_safe_setpoint
+from soacheck.stage_run import passes_at, run_stage
 from soacheck.trace import TraceChecker
 
 SAFETY_CAUTIONS = (
@@ -163,7 +164,7 @@ def _max_setpoint(plan: Plan, job: Job) -> float | None:
         path = discharge_from_table({**table, "setpoint": setpoint}, where=origin, base=base)
         return run_stage(plan.stage, path.time_s, path.source_v, path.total_a)
 
-    return max_safe_setpoint(run_at, float(table["setpoint"]), str(table["mode"]).lower(), rel_tol=1e-2)
+    return max_safe_setpoint(passes_at(run_at), float(table["setpoint"]), str(table["mode"]).lower(), rel_tol=1e-2)
 
 
 def run_plan(plan: Plan, *, progress: Callable[[int, int, str], None] | None = None) -> list[JobResult]:

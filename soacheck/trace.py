@@ -21,41 +21,17 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
 from soacheck.derating import BreakdownDerating, breakdown_policy_note
 from soacheck.errors import SoacheckError
+from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
+from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
-from soacheck.soa import (
-    BoundaryPolyline,
-    MechanismLine,
-    envelope_polyline,
-    evaluate_lines,
-    mechanism_lines,
-    pulse_lines,
-)
-from soacheck.thermal import Foster, ThermalState, chain, temperature_rise, thermal_model
+from soacheck.stage import Cooling
+from soacheck.thermal import Foster, chain
+from soacheck.thermal_model import thermal_model
+from soacheck.thermal_response import ThermalState, temperature_rise
 from soacheck.units import format_duration
-
-
-@dataclass(frozen=True)
-class Cooling:
-    """A heatsink the case sits on: interface, heatsink and ambient.
-
-    Attributes
-    ----------
-    case_sink_k_per_w
-        Interface resistance from case to heatsink. [K/W]
-    sink_ambient_k_per_w
-        Heatsink to ambient. [K/W]
-    sink_j_per_k
-        Heat capacity of the heatsink. [J/K]
-    ambient_c
-        Ambient temperature. [°C]
-    """
-
-    case_sink_k_per_w: float
-    sink_ambient_k_per_w: float
-    sink_j_per_k: float
-    ambient_c: float = 25.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -121,20 +97,6 @@ class _Worst:
     def violation(self, time: float, sample=None, limit: str | None = None) -> None:
         if time < self.violation_time:
             self.violation_time, self.violation_sample, self.violation_limit = time, sample, limit
-
-
-@dataclass
-class _OpenRun:
-    """An excursion above the DC boundary that has not ended yet, reduced per boundary."""
-
-    start_s: float
-    min_margin: np.ndarray  # (boundaries,)
-    min_time: np.ndarray
-    first_negative_s: np.ndarray
-    first_negative_sample: list
-    negative_s: np.ndarray
-    pending_negative: np.ndarray  # flags of the last sample, whose hold time is not known yet
-    last_t: float
 
 
 class TraceChecker:
@@ -218,7 +180,7 @@ class TraceChecker:
         self.over_pending = False
         self.time_outside = 0.0
         self.excursions = 0
-        self.open: _OpenRun | None = None
+        self.open: OpenRun | None = None
         self.worst = _Worst()
         self.plot_points = plot_points
         self.kept: list[tuple[np.ndarray, ...]] = []
@@ -242,11 +204,6 @@ class TraceChecker:
         with np.errstate(divide="ignore", invalid="ignore"):
             excess = np.log(i) - log_allowed
         return excess  # NaN only for zero current where nothing is allowed: compares as inside
-
-    @staticmethod
-    def _margin(excess: np.ndarray) -> np.ndarray:
-        margin = -np.expm1(excess)
-        return np.where(np.isnan(margin), 1.0, margin)
 
     # ----------------------------------------------------------------- feeding
 
@@ -312,15 +269,14 @@ class TraceChecker:
         """Reduce each run of samples above the DC boundary per boundary, and judge the runs that ended."""
         n_b = len(self.lines)
         rows = np.flatnonzero(outside)
-        edges = np.diff(outside.astype(np.int8), prepend=np.int8(0), append=np.int8(0))
-        starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+        starts, ends = run_edges(outside)
         lengths = ends - starts
         offsets = np.r_[0, np.cumsum(lengths)[:-1]]
         run_of = np.repeat(np.arange(starts.size), lengths)
         margins = np.empty((n_b, rows.size))
         for b in range(n_b):
             sub = excess[rows] if b == self.dc else self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
-            margins[b] = self._margin(sub)
+            margins[b] = excess_margin(sub)
         t_rows = t[rows]
         nxt = rows + 1
         hold = np.zeros(rows.size)
@@ -334,10 +290,10 @@ class TraceChecker:
         negative_s = np.add.reduceat(np.where(negative, hold, 0.0), offsets, axis=1)
         vit = np.column_stack([v[rows], i[rows], np.full(rows.size, self.reference_c) if tc is None else tc[rows]])
 
-        def run_state(r: int) -> _OpenRun:
+        def run_state(r: int) -> OpenRun:
             has_negative = first_negative[:, r] < rows.size
             k = np.where(has_negative, first_negative[:, r], 0)
-            return _OpenRun(
+            return OpenRun(
                 start_s=float(t[starts[r]]),
                 min_margin=min_margin[:, r].copy(),
                 min_time=t_rows[arg_min[:, r]],
@@ -350,7 +306,7 @@ class TraceChecker:
 
         closed = np.arange(starts.size)
         if self.open is not None:  # the first run continues the excursion left open by the last chunk
-            merged = self._merge(self.open, run_state(0), float(t[0]))
+            merged = merge_runs(self.open, run_state(0), float(t[0]))
             self.open = None
             if ends[0] < t.size:
                 self._close(merged, float(t[ends[0]]))
@@ -396,29 +352,12 @@ class TraceChecker:
             sample = (*map(float, vit[first_k[b[first], first]]), int(b[first]))
             self.worst.violation(float(first_negative_s[b[first], first]), sample)
 
-    def _merge(self, a: _OpenRun, b: _OpenRun, t_join: float) -> _OpenRun:
-        take_b = b.min_margin < a.min_margin
-        first_b = ~np.isfinite(a.first_negative_s)
-        return _OpenRun(
-            start_s=a.start_s,
-            min_margin=np.where(take_b, b.min_margin, a.min_margin),
-            min_time=np.where(take_b, b.min_time, a.min_time),
-            first_negative_s=np.where(first_b, b.first_negative_s, a.first_negative_s),
-            first_negative_sample=[
-                sb if fb else sa
-                for sa, sb, fb in zip(a.first_negative_sample, b.first_negative_sample, first_b, strict=True)
-            ],
-            negative_s=a.negative_s + b.negative_s + a.pending_negative * (t_join - a.last_t),
-            pending_negative=b.pending_negative,
-            last_t=b.last_t,
-        )
-
-    def _close(self, run: _OpenRun, end_s: float) -> None:
+    def _close(self, run: OpenRun, end_s: float) -> None:
         """An excursion ended at ``end_s`` (the first sample back inside): judge it."""
         run.negative_s = run.negative_s + run.pending_negative * (end_s - run.last_t)
         self._judge(run, end_s - run.start_s)
 
-    def _judge(self, run: _OpenRun, duration_s: float) -> None:
+    def _judge(self, run: OpenRun, duration_s: float) -> None:
         self.excursions += 1
         b = int(self._boundary_for(duration_s))
         self.worst.margin_candidate(float(run.min_margin[b]), float(run.min_time[b]))
@@ -430,7 +369,7 @@ class TraceChecker:
         keep = slice(None, None, max(1, t.size // max(1, self.plot_points // 10)))
         case = np.full(t[keep].size, self.reference_c) if tc is None else tc[keep]
         tj = None if rise_j is None else self.reference_c + rise_j[keep]
-        self.kept.append((t[keep], v[keep], i[keep], case, tj, self._margin(excess[keep])))
+        self.kept.append((t[keep], v[keep], i[keep], case, tj, excess_margin(excess[keep])))
 
     # ----------------------------------------------------------------- result
 

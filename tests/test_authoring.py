@@ -17,12 +17,12 @@ from matplotlib.figure import Figure
 from typer.testing import CliRunner
 
 from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
+from soacheck.boundary import allowed_current
 from soacheck.cli import app
 from soacheck.files import read_image
 from soacheck.library import bundled_library, list_parts
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
-from soacheck.soa import allowed_current
 
 from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part
 
@@ -135,8 +135,9 @@ def test_digitize_a_zth_curve(tmp_path):
     picked = tmp_path / "z.csv"
     picked.write_text("x,y\n0,400\n300,100\n")
     out = tmp_path / "zth.csv"
-    result = runner.invoke(app, ["digitize", str(picked), "--zth", "--x", "0=1e-5,300=1e-2", "--y", "400=0.01,100=1",
-                                 "-o", str(out)])
+    result = runner.invoke(
+        app, ["digitize", str(picked), "--zth", "--x", "0=1e-5,300=1e-2", "--y", "400=0.01,100=1", "-o", str(out)]
+    )
     assert result.exit_code == 0, result.output
     assert out.read_text().splitlines() == ["time,zth", "1e-05,0.01", "0.01,1"]
 
@@ -147,27 +148,73 @@ TOML = REFERENCE_TOML.format(id="{id}", kind="npn", extra="", extra_top="")
 
 SEEDED = {
     # name: (soa.csv, part.toml edits, extra files, expected fragment, severity)
-    "thermal segment off p_max": (REFERENCE_SOA.replace("dc,40,3.125", "dc,40,2.5").replace("dc,8.3333,15", "dc,6.6667,15"),
-                                  {}, {}, "constant-power segment", "error"),
-    "current above i_max": (REFERENCE_SOA.replace("dc,1,15\ndc,8.3333,15", "dc,1,18\ndc,6.944,18"), {}, {}, "above i_max",
-                            "error"),
+    "thermal segment off p_max": (
+        REFERENCE_SOA.replace("dc,40,3.125", "dc,40,2.5").replace("dc,8.3333,15", "dc,6.6667,15"),
+        {},
+        {},
+        "constant-power segment",
+        "error",
+    ),
+    "current above i_max": (
+        REFERENCE_SOA.replace("dc,1,15\ndc,8.3333,15", "dc,1,18\ndc,6.944,18"),
+        {},
+        {},
+        "above i_max",
+        "error",
+    ),
     "curve ends early": (REFERENCE_SOA.replace("dc,100,0.5", "dc,70,1.0204"), {}, {}, "below v_max", "warning"),
-    "pulse curve below dc": (REFERENCE_SOA.replace("1ms,1,40\n1ms,10,40\n1ms,40,10\n1ms,100,2",
-                                                   "1ms,1,10\n1ms,8,10\n1ms,40,2\n1ms,100,0.3"),
-                             {}, {}, "allows less", "error"),
-    "slope fits no mechanism": (REFERENCE_SOA.replace("dc,8.3333,15", "dc,4,15\ndc,8.3333,10.5"), {}, {}, "fits no mechanism",
-                                "warning"),
-    "bend the wrong way": (REFERENCE_SOA.replace("dc,40,3.125", "dc,25,3\ndc,40,3.125"), {}, {}, "bends upward", "error"),
-    "points out of order": (REFERENCE_SOA.replace("dc,40,3.125\ndc,100,0.5", "dc,100,0.5\ndc,40,3.125"), {}, {},
-                            "follows", "error"),
+    "pulse curve below dc": (
+        REFERENCE_SOA.replace("1ms,1,40\n1ms,10,40\n1ms,40,10\n1ms,100,2", "1ms,1,10\n1ms,8,10\n1ms,40,2\n1ms,100,0.3"),
+        {},
+        {},
+        "allows less",
+        "error",
+    ),
+    "slope fits no mechanism": (
+        REFERENCE_SOA.replace("dc,8.3333,15", "dc,4,15\ndc,8.3333,10.5"),
+        {},
+        {},
+        "fits no mechanism",
+        "warning",
+    ),
+    "bend the wrong way": (
+        REFERENCE_SOA.replace("dc,40,3.125", "dc,25,3\ndc,40,3.125"),
+        {},
+        {},
+        "bends upward",
+        "error",
+    ),
+    "points out of order": (
+        REFERENCE_SOA.replace("dc,40,3.125\ndc,100,0.5", "dc,100,0.5\ndc,40,3.125"),
+        {},
+        {},
+        "follows",
+        "error",
+    ),
     "repeated voltage": (REFERENCE_SOA.replace("dc,100,0.5", "dc,40,1"), {}, {}, "twice", "error"),
     "rising current": (REFERENCE_SOA.replace("dc,40,3.125", "dc,40,31.25"), {}, {}, "rises", "error"),
     "p_max off rth": (REFERENCE_SOA, {"p_max = 125": "p_max = 150"}, {}, "differs from (tj_max - 25)/rth_jc", "error"),
-    "rising derating table": (REFERENCE_SOA, {}, {"append": "[derating]\nsecond_breakdown = [[25, 0.8], [100, 0.9]]\n"},
-                              "rises with temperature", "error"),
-    "zth above rth_jc": (REFERENCE_SOA, {}, {"zth.csv": "time,zth\n0.001,0.1\n0.1,0.8\n10,1.6\n"}, "above rth_jc", "error"),
-    "foster sum off rth_jc": (REFERENCE_SOA, {}, {"append": "[thermal]\nfoster_r = [0.2, 0.3]\nfoster_tau = [0.01, 0.1]\n"},
-                              "differs from rth_jc", "warning"),
+    "rising derating table": (
+        REFERENCE_SOA,
+        {},
+        {"append": "[derating]\nsecond_breakdown = [[25, 0.8], [100, 0.9]]\n"},
+        "rises with temperature",
+        "error",
+    ),
+    "zth above rth_jc": (
+        REFERENCE_SOA,
+        {},
+        {"zth.csv": "time,zth\n0.001,0.1\n0.1,0.8\n10,1.6\n"},
+        "above rth_jc",
+        "error",
+    ),
+    "foster sum off rth_jc": (
+        REFERENCE_SOA,
+        {},
+        {"append": "[thermal]\nfoster_r = [0.2, 0.3]\nfoster_tau = [0.01, 0.1]\n"},
+        "differs from rth_jc",
+        "warning",
+    ),
 }
 
 
@@ -211,9 +258,31 @@ def test_lint_cli_exit_codes_and_json(tmp_path):
 
 
 def test_new_part_thermal_segment_is_exactly_p_max_over_v(tmp_path):
-    result = runner.invoke(app, ["new-part", "lab-npn-1", "--kind", "npn", "--v-max", "100", "--i-max", "10",
-                                 "--p-max", "100", "--tj-max", "150", "--rth-jc", "1.25", "--sb-knee", "40",
-                                 "--sb-exponent", "2", "--library", str(tmp_path)])
+    result = runner.invoke(
+        app,
+        [
+            "new-part",
+            "lab-npn-1",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1.25",
+            "--sb-knee",
+            "40",
+            "--sb-exponent",
+            "2",
+            "--library",
+            str(tmp_path),
+        ],
+    )
     assert result.exit_code == 0, result.output
     part = read_part(tmp_path / "lab-npn-1")
     v = np.array([12.0, 20.0, 39.0])
@@ -227,8 +296,27 @@ def test_new_part_thermal_segment_is_exactly_p_max_over_v(tmp_path):
 
 
 def test_new_part_without_a_knee_warns(tmp_path):
-    result = runner.invoke(app, ["new-part", "lab-npn-2", "--kind", "npn", "--v-max", "100", "--i-max", "10",
-                                 "--p-max", "100", "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)])
+    result = runner.invoke(
+        app,
+        [
+            "new-part",
+            "lab-npn-2",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1.25",
+            "--library",
+            str(tmp_path),
+        ],
+    )
     assert result.exit_code == 0 and "NOT safe above the unknown knee" in result.stderr
     fet = soa_from_ratings(kind="nmos", v_max_v=100, i_max_a=10, p_max_w=100, tj_max_c=150, rth_jc_k_per_w=1.25)
     assert any("not valid for long linear-mode operation" in w for w in fet.warnings)
@@ -236,15 +324,50 @@ def test_new_part_without_a_knee_warns(tmp_path):
 
 @pytest.mark.parametrize("bad_id", ["../escape", "a/b", ".hidden", ""])
 def test_new_part_refuses_unsafe_ids(tmp_path, bad_id):
-    result = runner.invoke(app, ["new-part", bad_id, "--kind", "npn", "--v-max", "100", "--i-max", "10", "--p-max",
-                                 "100", "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)])
+    result = runner.invoke(
+        app,
+        [
+            "new-part",
+            bad_id,
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1.25",
+            "--library",
+            str(tmp_path),
+        ],
+    )
     assert result.exit_code == 2, result.output
     assert list(tmp_path.iterdir()) == []
 
 
 def test_new_part_never_overwrites_without_force(tmp_path):
-    args = ["new-part", "lab-npn-3", "--kind", "npn", "--v-max", "100", "--i-max", "10", "--p-max", "100",
-            "--tj-max", "150", "--rth-jc", "1.25", "--library", str(tmp_path)]
+    args = [
+        "new-part",
+        "lab-npn-3",
+        "--kind",
+        "npn",
+        "--v-max",
+        "100",
+        "--i-max",
+        "10",
+        "--p-max",
+        "100",
+        "--tj-max",
+        "150",
+        "--rth-jc",
+        "1.25",
+        "--library",
+        str(tmp_path),
+    ]
     assert runner.invoke(app, args).exit_code == 0
     (tmp_path / "lab-npn-3" / "notes.txt").write_text("mine")
     again = runner.invoke(app, args)
@@ -257,7 +380,8 @@ def test_new_part_never_overwrites_without_force(tmp_path):
 
 
 def test_inconsistent_ratings_use_the_smaller_power():
-    made = soa_from_ratings(kind="npn", v_max_v=100, i_max_a=10, p_max_w=150, tj_max_c=150, rth_jc_k_per_w=1.25,
-                            sb_knee_v=40, sb_exponent=2)
+    made = soa_from_ratings(
+        kind="npn", v_max_v=100, i_max_a=10, p_max_w=150, tj_max_c=150, rth_jc_k_per_w=1.25, sb_knee_v=40, sb_exponent=2
+    )
     assert made.p_max_w == pytest.approx(100.0) and made.warnings
     assert math.isclose(made.voltage_v[1], 10.0)  # 100 W / 10 A

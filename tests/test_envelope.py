@@ -22,9 +22,9 @@ from soacheck.envelope import Envelope, check_envelope, largest_safe_envelope, r
 from soacheck.errors import SoacheckError
 from soacheck.library import bundled_library
 from soacheck.partfiles import read_part
-from soacheck.soa import check_points
-from soacheck.stage import Stage, steady_state
-from soacheck.trace import Cooling
+from soacheck.points import check_points
+from soacheck.stage import Cooling, Stage
+from soacheck.steady_state import steady_state
 
 from .conftest import write_part
 
@@ -94,8 +94,9 @@ def test_exported_limit_table_passes_point_by_point_and_fails_two_percent_above(
         "vbe_spread = 0.02\ncase_temp = 50\n"
     )
     table_file = tmp_path / "limits.csv"
-    result = runner.invoke(app, ["envelope", str(stage_file), "--voltages", "8,15,25,40,60,90", "--export",
-                                 str(table_file)])
+    result = runner.invoke(
+        app, ["envelope", str(stage_file), "--voltages", "8,15,25,40,60,90", "--export", str(table_file)]
+    )
     assert result.exit_code == 0, result.output
     table = pd.read_csv(table_file, comment="#")
     stage = stage_for_table()
@@ -179,8 +180,13 @@ def test_two_to247_devices_and_the_forty_volt_rule():
     small devices is kept under about 40 V and 150 W. Two demo TO-247 bipolars with 0.22 ohm
     ballasts on a shared 0.25 K/W heatsink dissipate about 140 W at low voltage (the ballast
     resistors take the rest of the input power), far less above 40 V."""
-    stage = Stage(bundled("demo-npn-to247-125w"), 2, ballast_ohm=0.22, vbe_spread_v=0.01,
-                  cooling=Cooling(TYPICAL["TO-247"], 0.25, 1000.0, 25.0))
+    stage = Stage(
+        bundled("demo-npn-to247-125w"),
+        2,
+        ballast_ohm=0.22,
+        vbe_spread_v=0.01,
+        cooling=Cooling(TYPICAL["TO-247"], 0.25, 1000.0, 25.0),
+    )
     power = max_power_w(stage, np.array([10.0, 20.0, 30.0, 45.0, 60.0]))
     assert 125 <= power[:2].max() <= 155
     assert power[-1] < 0.5 * power[:2].max()
@@ -190,8 +196,16 @@ def test_two_to247_devices_and_the_forty_volt_rule():
 
 
 def test_compare_ranks_by_margin_and_finds_the_fewest_devices_by_search():
-    parts = [bundled(p) for p in ("demo-npn-to3-250w", "demo-npn-to247-125w", "demo-npn-to220-62w",
-                                  "demo-nmos-to247-300w", "demo-igbt-to247-200w")]
+    parts = [
+        bundled(p)
+        for p in (
+            "demo-npn-to3-250w",
+            "demo-npn-to247-125w",
+            "demo-npn-to220-62w",
+            "demo-nmos-to247-300w",
+            "demo-igbt-to247-200w",
+        )
+    ]
     env = Envelope(5.0, 40.0, 20.0, 150.0, ambient_c=None, case_temp_c=60.0)
     ranked = compare(parts, env, points=2000)
     margins = [c.min_margin if c.min_margin is not None else -math.inf for c in ranked]
@@ -212,8 +226,14 @@ def test_compare_ranks_by_margin_and_finds_the_fewest_devices_by_search():
 
 
 def test_compare_with_a_stage_searches_count_and_heatsink(tmp_path):
-    stage = Stage(bundled("demo-npn-to3-250w"), 2, ballast_ohm=0.1, series_ohm=0.02, vbe_spread_v=0.02,
-                  cooling=Cooling(0.3, 0.4, 600.0, 25.0))
+    stage = Stage(
+        bundled("demo-npn-to3-250w"),
+        2,
+        ballast_ohm=0.1,
+        series_ohm=0.02,
+        vbe_spread_v=0.02,
+        cooling=Cooling(0.3, 0.4, 600.0, 25.0),
+    )
     env = Envelope(5.0, 42.0, 10.0, 150.0)
     (best,) = compare([stage.part], env, stage=stage)
     assert best.passes and best.min_count in (1, 2)
@@ -226,9 +246,10 @@ def test_compare_with_a_stage_searches_count_and_heatsink(tmp_path):
 
 def test_compare_cli_json(tmp_path):
     env = tmp_path / "env.toml"
-    env.write_text("voltage = [5, 40]\ncurrent = 20\npower = 150\npulse = \"dc\"\ncase_temp = 60\n")
-    result = runner.invoke(app, ["compare", "--all", "--envelope", str(env), "--json", "--plot",
-                                 str(tmp_path / "c.svg")])
+    env.write_text('voltage = [5, 40]\ncurrent = 20\npower = 150\npulse = "dc"\ncase_temp = 60\n')
+    result = runner.invoke(
+        app, ["compare", "--all", "--envelope", str(env), "--json", "--plot", str(tmp_path / "c.svg")]
+    )
     assert result.exit_code in (0, 1), result.output
     rows = json.loads(result.stdout)["candidates"]
     assert {"part", "passes", "min_margin", "limit", "min_count", "max_heatsink_rth"} <= set(rows[0])
@@ -242,7 +263,7 @@ def test_compare_cli_json(tmp_path):
     ("text", "fragment"),
     [
         ("voltage = [40, 5]\ncurrent = 20\npower = 150\ncase_temp = 60\n", "is empty"),
-        ("voltage = [5, 40]\ncurrent = 20\npower = 150\npulse = \"10ms\"\nduty = 0\ncase_temp = 60\n", "duty is 0"),
+        ('voltage = [5, 40]\ncurrent = 20\npower = 150\npulse = "10ms"\nduty = 0\ncase_temp = 60\n', "duty is 0"),
         ("voltage = [700, 900]\ncurrent = 20\npower = 150\ncase_temp = 60\n", "past every candidate's v_max"),
         ("voltage = [5, 40]\ncurrent = 20\npowr = 150\ncase_temp = 60\n", "did you mean 'power'"),
         ("voltage = [5, 40]\ncurrent = 20\npower = 150\nambient = 25\ncase_temp = 60\n", "not both"),
@@ -258,18 +279,33 @@ def test_bad_envelopes_exit_2(tmp_path, text, fragment):
 
 def test_envelope_past_v_max_of_the_stage_part_is_refused():
     with pytest.raises(SoacheckError, match="above"):
-        check_envelope(Stage(bundled("demo-npn-to220-62w"), 1, case_temp_c=25.0),
-                       Envelope(100.0, 200.0, 1.0, 10.0, case_temp_c=25.0))
+        check_envelope(
+            Stage(bundled("demo-npn-to220-62w"), 1, case_temp_c=25.0),
+            Envelope(100.0, 200.0, 1.0, 10.0, case_temp_c=25.0),
+        )
 
 
 def test_compare_on_a_discharge_and_on_a_trace(tmp_path):
     discharge = tmp_path / "discharge.toml"
-    discharge.write_text('battery = "nmc"\ncells = 10\ncapacity = 2\ninternal_resistance = 0.1\nmode = "cc"\n'
-                         "setpoint = 3\nsamples = 300\n")
+    discharge.write_text(
+        'battery = "nmc"\ncells = 10\ncapacity = 2\ninternal_resistance = 0.1\nmode = "cc"\n'
+        "setpoint = 3\nsamples = 300\n"
+    )
     stage = tmp_path / "stage.toml"
     stage.write_text('part = "demo-npn-to3-250w"\ncount = 2\nballast = 0.1\nvbe_spread = 0.02\ncase_temp = 40\n')
-    result = runner.invoke(app, ["compare", "demo-npn-to3-250w", "demo-npn-to247-125w", "--discharge", str(discharge),
-                                 "--stage", str(stage), "--json"])
+    result = runner.invoke(
+        app,
+        [
+            "compare",
+            "demo-npn-to3-250w",
+            "demo-npn-to247-125w",
+            "--discharge",
+            str(discharge),
+            "--stage",
+            str(stage),
+            "--json",
+        ],
+    )
     assert result.exit_code == 0, result.output
     rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
     # 1.5 A per device at about 40 V: inside the TO-3 part's 250 W curve, far past the TO-247
@@ -280,8 +316,10 @@ def test_compare_on_a_discharge_and_on_a_trace(tmp_path):
     trace = tmp_path / "trace.csv"
     t = np.linspace(0, 1, 1001)
     pd.DataFrame({"time": t, "voltage": 40.0, "current": 3.0}).to_csv(trace, index=False)
-    result = runner.invoke(app, ["compare", "demo-npn-to3-250w", "demo-npn-to247-125w", "--trace", str(trace),
-                                 "--case-temp", "25", "--json"])
+    result = runner.invoke(
+        app,
+        ["compare", "demo-npn-to3-250w", "demo-npn-to247-125w", "--trace", str(trace), "--case-temp", "25", "--json"],
+    )
     rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
     # one device, 3 A at 40 V: the TO-247 part allows 2.03 A, so it needs 2 devices sharing evenly
     assert rows["demo-npn-to247-125w"]["min_count"] == 2

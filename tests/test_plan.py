@@ -79,13 +79,15 @@ def small_plan(tmp_path, jobs: str, stage: str = 'part = "ref-bjt"\ncount = 1\nc
 
 
 def run_plan(tmp_path, plan, *extra):
-    return runner.invoke(app, ["run", str(plan), "-o", str(tmp_path / "out"), "--library", str(tmp_path / "parts"),
-                               *extra])
+    return runner.invoke(
+        app, ["run", str(plan), "-o", str(tmp_path / "out"), "--library", str(tmp_path / "parts"), *extra]
+    )
 
 
 def test_one_failing_job_exits_1_and_is_shown_first(tmp_path):
-    plan = small_plan(tmp_path, '[[points]]\nname = "fine"\nfile = "ok.csv"\n\n[[points]]\nname = "too much"\n'
-                                'file = "bad.csv"\n')
+    plan = small_plan(
+        tmp_path, '[[points]]\nname = "fine"\nfile = "ok.csv"\n\n[[points]]\nname = "too much"\nfile = "bad.csv"\n'
+    )
     result = run_plan(tmp_path, plan, "--json")
     assert result.exit_code == 1, result.output
     report = json.loads((tmp_path / "out" / "report.json").read_text())
@@ -106,8 +108,11 @@ def test_one_failing_job_exits_1_and_is_shown_first(tmp_path):
         ('[[points]]\nname = "pts"\nfile = "ok.csv"\npart = "no-such-part"\n', ["plan.toml", "'pts'", "unknown part"]),
         ('[[trace]]\nname = "log"\nfile = "gone.csv"\n', ["plan.toml", "'log'", "gone.csv"]),
         ('[[envelope]]\nname = "env"\nvoltage = [40, 5]\ncurrent = 1\npower = 1\n', ["'env'", "is empty"]),
-        ('[[discharge]]\nname = "d"\nbattery = "nmc"\ncells = 10\ncapacity = 2\nmode = "cc"\nsetpoint = 1\n'
-         "cutoff = 60\n", ["'d'", "full-charge"]),
+        (
+            '[[discharge]]\nname = "d"\nbattery = "nmc"\ncells = 10\ncapacity = 2\nmode = "cc"\nsetpoint = 1\n'
+            "cutoff = 60\n",
+            ["'d'", "full-charge"],
+        ),
         ("", ["plan.toml", "no jobs"]),
     ],
 )
@@ -138,10 +143,17 @@ def test_run_never_replaces_a_folder_that_is_not_a_report(tmp_path):
 # --------------------------------------------------------------------------- a real browser
 
 CHROMIUM_FLAGS = [
-    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-    "--disable-background-networking", "--disable-component-update", "--disable-sync",
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
     # nothing may leave this machine: every request goes to a dead proxy on loopback, no name is resolved
-    "--proxy-server=http://127.0.0.1:9", "--host-resolver-rules=MAP * ~NOTFOUND , EXCLUDE 127.0.0.1",
+    "--proxy-server=http://127.0.0.1:9",
+    "--host-resolver-rules=MAP * ~NOTFOUND , EXCLUDE 127.0.0.1",
 ]
 
 
@@ -161,8 +173,12 @@ def open_in_chromium(page: Path, workdir: Path) -> tuple[str, Path, list[str]]:
     common = [browser, *CHROMIUM_FLAGS, f"--user-data-dir={workdir / 'profile'}", "--window-size=1280,3000"]
     env = {**os.environ, "HOME": str(workdir)}
     dom = subprocess.run([*common, "--dump-dom", page.as_uri()], capture_output=True, text=True, timeout=120, env=env)
-    subprocess.run([*common, f"--screenshot={shot}", f"--log-net-log={netlog}", page.as_uri()], capture_output=True,
-                   timeout=120, env=env)
+    subprocess.run(
+        [*common, f"--screenshot={shot}", f"--log-net-log={netlog}", page.as_uri()],
+        capture_output=True,
+        timeout=120,
+        env=env,
+    )
     log = json.loads(netlog.read_text())
     event_names = {v: k for k, v in log["constants"]["logEventTypes"].items()}
     from_page = [

@@ -10,10 +10,11 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
+from soacheck.boundary import allowed_current, model_consistency
 from soacheck.cli import app
 from soacheck.partfiles import read_part
-from soacheck.soa import allowed_current, check_points, model_consistency
-from soacheck.thermal import thermal_model
+from soacheck.points import check_points
+from soacheck.thermal_model import thermal_model
 
 from .conftest import FOUR, REFERENCE_SOA, THERMAL, write_part
 

@@ -16,16 +16,11 @@ import shapely
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from soacheck.boundary import allowed_current, boundary_polyline
 from soacheck.derating import breakdown_factor, thermal_factor
-from soacheck.soa import (
-    allowed_current,
-    boundary_polyline,
-    check_points,
-    classify_slopes,
-    path_crossings,
-    region_polygon,
-    segment_slopes,
-)
+from soacheck.mechanisms import classify_slopes, segment_slopes
+from soacheck.points import check_points
+from soacheck.region import path_crossings, region_polygon
 
 from .conftest import read_part, write_part
 

@@ -19,7 +19,9 @@ from soacheck.battery import PRESETS, Battery, Chemistry, discharge, discharge_c
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
 from soacheck.partfiles import read_part
-from soacheck.stage import Stage, loop_gain, run_stage, share_current, sharing_monte_carlo
+from soacheck.sharing import loop_gain, share_current, sharing_monte_carlo
+from soacheck.stage import Stage
+from soacheck.stage_run import run_stage
 
 from .conftest import write_part
 
@@ -71,7 +73,9 @@ def test_sharing_conserves_the_total_and_is_vectorized():
 
 def test_fet_sharing_is_set_by_the_source_resistors():
     # with 1/g_m neglected: I1 - I2 = ΔV / R_S exactly (methods.md §6 with g_m -> infinity)
-    split = share_current(np.array([10.0]), np.full((2, 1), 25.0), np.array([-0.05, 0.0]), ballast_ohm=0.1, bipolar=False)
+    split = share_current(
+        np.array([10.0]), np.full((2, 1), 25.0), np.array([-0.05, 0.0]), ballast_ohm=0.1, bipolar=False
+    )
     assert split[0, 0] - split[1, 0] == pytest.approx(0.5, rel=1e-9)
 
 
@@ -94,8 +98,12 @@ def test_runaway_is_found_and_reported_as_a_failure(ref_part):
     assert summary["loop_gain_peak"] > 1
     assert any("thermal runaway" in note for note in run.assumptions)
     # enough ballast cures it: G = 1 * 30 * 0.002 / (0.5 + 0.026) = 0.11
-    cured = run_stage(Stage(ref_part, 2, ballast_ohm=0.5, vbe_spread_v=0.02, case_temp_c=25.0), t,
-                      np.full(t.size, 30.0), np.full(t.size, 2.0))
+    cured = run_stage(
+        Stage(ref_part, 2, ballast_ohm=0.5, vbe_spread_v=0.02, case_temp_c=25.0),
+        t,
+        np.full(t.size, 30.0),
+        np.full(t.size, 2.0),
+    )
     assert not cured.runaway and cured.passed
 
 
@@ -103,7 +111,11 @@ def test_load_current_must_stay_below_the_sum_of_ratings(tmp_path):
     """Fact of the trade (common practice, no source): the load's current is bounded by the sum
     of the devices' rated collector currents, with a margin kept below it (15 A where it is 20 A)."""
     soa = "pulse,voltage,current\ndc,1,10\ndc,10,10\ndc,100,1\n"
-    part = read_part(write_part(tmp_path / "ten-amp", soa=soa, toml="""id = "ten-amp"
+    part = read_part(
+        write_part(
+            tmp_path / "ten-amp",
+            soa=soa,
+            toml="""id = "ten-amp"
 kind = "npn"
 description = "constructed"
 source = "constructed"
@@ -113,7 +125,9 @@ i_max = 10
 p_max = 100
 tj_max = 150
 rth_jc = 1.25
-"""))
+""",
+        )
+    )
     stage = Stage(part, 2, ballast_ohm=0.1, vbe_spread_v=0.02, case_temp_c=25.0)
     assert stage.rated_current_a() == 20.0
     t = np.linspace(0, 1, 50)
@@ -154,8 +168,9 @@ def run_discharge(tmp_path, ocv_csv, *args):
     stage = tmp_path / "stage.toml"
     write_part(tmp_path / "ref-bjt")
     stage.write_text('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n')
-    return runner.invoke(app, ["discharge", str(stage), "--battery", str(ocv_csv), "--cells", "1", "--capacity", "2",
-                               "--json", *args])
+    return runner.invoke(
+        app, ["discharge", str(stage), "--battery", str(ocv_csv), "--cells", "1", "--capacity", "2", "--json", *args]
+    )
 
 
 def test_cc_discharge_lasts_capacity_over_current_and_fails_at_its_start(tmp_path, ocv_csv):
@@ -237,8 +252,26 @@ def test_sweep_cli(tmp_path):
     stage = tmp_path / "stage.toml"
     stage.write_text('part = "ref-bjt"\ncount = 2\nballast = 0.1\nvbe_spread = 0.01\ncase_temp = 40\n')
     plot = tmp_path / "sweep.png"
-    result = runner.invoke(app, ["sweep", str(stage), "--ramp", "current", "--from", "0", "--to", "4", "--at", "20",
-                                 "--time", "5s", "--plot", str(plot), "--json"])
+    result = runner.invoke(
+        app,
+        [
+            "sweep",
+            str(stage),
+            "--ramp",
+            "current",
+            "--from",
+            "0",
+            "--to",
+            "4",
+            "--at",
+            "20",
+            "--time",
+            "5s",
+            "--plot",
+            str(plot),
+            "--json",
+        ],
+    )
     assert result.exit_code == 0, result.output
     assert json.loads(result.stdout)["verdict"] == "pass" and plot.stat().st_size > 10000
 
@@ -264,11 +297,27 @@ def test_monte_carlo_is_seedable_and_bounded_by_the_worst_case(ref_part):
 @pytest.mark.parametrize(
     ("stage_text", "args", "fragment"),
     [
-        ('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n', ["--mode", "cc", "--setpoint", "1", "--cutoff", "70"], "at or above the full-charge"),
-        ('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n', ["--mode", "cp", "--setpoint", "5000", "--internal-resistance", "0.5"], "cannot give it"),
+        (
+            'part = "ref-bjt"\ncount = 1\ncase_temp = 25\n',
+            ["--mode", "cc", "--setpoint", "1", "--cutoff", "70"],
+            "at or above the full-charge",
+        ),
+        (
+            'part = "ref-bjt"\ncount = 1\ncase_temp = 25\n',
+            ["--mode", "cp", "--setpoint", "5000", "--internal-resistance", "0.5"],
+            "cannot give it",
+        ),
         ('part = "ref-bjt"\ncount = 0\ncase_temp = 25\n', ["--mode", "cc", "--setpoint", "1"], "count is 0"),
-        ('part = "ref-bjt"\ncount = 2\nballast = -0.1\ncase_temp = 25\n', ["--mode", "cc", "--setpoint", "1"], "ballast is -0.1"),
-        ('part = "ref-bjt"\ncount = 2\nbalast = 0.1\ncase_temp = 25\n', ["--mode", "cc", "--setpoint", "1"], "did you mean 'ballast'"),
+        (
+            'part = "ref-bjt"\ncount = 2\nballast = -0.1\ncase_temp = 25\n',
+            ["--mode", "cc", "--setpoint", "1"],
+            "ballast is -0.1",
+        ),
+        (
+            'part = "ref-bjt"\ncount = 2\nbalast = 0.1\ncase_temp = 25\n',
+            ["--mode", "cc", "--setpoint", "1"],
+            "did you mean 'ballast'",
+        ),
         ('part = "ref-bjt"\ncount = 2\n', ["--mode", "cc", "--setpoint", "1"], "[cooling] table or a fixed case_temp"),
         ('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n', ["--mode", "cx", "--setpoint", "1"], "--mode"),
     ],
@@ -277,7 +326,9 @@ def test_impossible_plans_exit_2(tmp_path, ocv_csv, stage_text, args, fragment):
     write_part(tmp_path / "ref-bjt")
     stage = tmp_path / "stage.toml"
     stage.write_text(stage_text)
-    result = runner.invoke(app, ["discharge", str(stage), "--battery", str(ocv_csv), "--cells", "1", "--capacity", "2", *args])
+    result = runner.invoke(
+        app, ["discharge", str(stage), "--battery", str(ocv_csv), "--cells", "1", "--capacity", "2", *args]
+    )
     assert result.exit_code == 2, result.output
     assert fragment in result.stderr and len(result.stderr.strip().splitlines()) == 1
 
@@ -288,8 +339,23 @@ def test_battery_csv_whose_voltage_does_not_rise_exits_2(tmp_path):
     stage.write_text('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n')
     ocv = tmp_path / "bad.csv"
     ocv.write_text("soc,voltage\n0,3.0\n0.5,3.7\n1,3.6\n")
-    result = runner.invoke(app, ["discharge", str(stage), "--battery", str(ocv), "--cells", "10", "--capacity", "2",
-                                 "--mode", "cc", "--setpoint", "1"])
+    result = runner.invoke(
+        app,
+        [
+            "discharge",
+            str(stage),
+            "--battery",
+            str(ocv),
+            "--cells",
+            "10",
+            "--capacity",
+            "2",
+            "--mode",
+            "cc",
+            "--setpoint",
+            "1",
+        ],
+    )
     assert result.exit_code == 2 and "bad.csv line 4" in result.stderr and "does not rise" in result.stderr
 
 
@@ -297,8 +363,23 @@ def test_unknown_chemistry_exits_2(tmp_path):
     write_part(tmp_path / "ref-bjt")
     stage = tmp_path / "stage.toml"
     stage.write_text('part = "ref-bjt"\ncount = 1\ncase_temp = 25\n')
-    result = runner.invoke(app, ["discharge", str(stage), "--battery", "lipo", "--cells", "10", "--capacity", "2",
-                                 "--mode", "cc", "--setpoint", "1"])
+    result = runner.invoke(
+        app,
+        [
+            "discharge",
+            str(stage),
+            "--battery",
+            "lipo",
+            "--cells",
+            "10",
+            "--capacity",
+            "2",
+            "--mode",
+            "cc",
+            "--setpoint",
+            "1",
+        ],
+    )
     assert result.exit_code == 2 and "unknown chemistry" in result.stderr
 
 

@@ -16,15 +16,9 @@ import pytest
 import scipy.integrate
 import scipy.optimize
 
-from soacheck.thermal import (
-    Cauer,
-    Foster,
-    chain,
-    fit_foster,
-    foster_zth,
-    pulse_train_zth_superposition,
-    temperature_rise,
-)
+from soacheck.thermal import Cauer, Foster, chain, foster_zth, pulse_train_zth_superposition
+from soacheck.thermal_model import fit_foster
+from soacheck.thermal_response import temperature_rise
 
 from .conftest import FOUR  # methods.md §3 [con]: a four-term junction-to-case network
 
@@ -288,7 +282,7 @@ def test_fit_recovers_a_known_curve_with_non_negative_terms():
 )
 def test_paired_filters_match_the_exact_branch_recursion(r, tau, dt):
     """The second-order pairing against the per-branch exact recursion (the prefix-sum path)."""
-    from soacheck.thermal import _branch_any_step
+    from soacheck.thermal_response import _branch_any_step
 
     net = Foster(r, tau)
     t = np.arange(20001) * dt

@@ -16,7 +16,8 @@ from typer.testing import CliRunner
 
 from soacheck.cli import app
 from soacheck.files import iter_trace
-from soacheck.trace import Cooling, TraceChecker
+from soacheck.stage import Cooling
+from soacheck.trace import TraceChecker
 
 from .conftest import FOUR, THERMAL, write_part
 
@@ -125,8 +126,9 @@ def test_chunked_trace_equals_one_pass(modelled, chunks, heatsink):
 def test_heatsink_warms_the_case(modelled):
     # 60 W for 600 s on the methods.md §5 heatsink: the case reaches about 76.8 °C [con]
     t = np.linspace(0, 600, 60001)
-    result = check(modelled, t, np.full(t.size, 10.0), np.full(t.size, 6.0), tc_c=None,
-                   cooling=Cooling(0.3, 0.6, 358.8, 25.0))
+    result = check(
+        modelled, t, np.full(t.size, 10.0), np.full(t.size, 6.0), tc_c=None, cooling=Cooling(0.3, 0.6, 358.8, 25.0)
+    )
     assert result.tc_peak_c == pytest.approx(76.78, abs=0.1)
 
 
@@ -136,7 +138,9 @@ def test_cli_trace_json_and_plot(tmp_path):
     path = tmp_path / "trace.csv"
     pd.DataFrame({"time": t, "voltage": v, "current": i}).to_csv(path, index=False)
     plot = tmp_path / "trace.svg"
-    result = runner.invoke(app, ["trace", str(folder), str(path), "--json", "--plot", str(plot), "--chunk-rows", "5000"])
+    result = runner.invoke(
+        app, ["trace", str(folder), str(path), "--json", "--plot", str(plot), "--chunk-rows", "5000"]
+    )
     assert result.exit_code == 0, result.output
     payload = json.loads(result.stdout)
     for key in ("verdict", "tj_peak", "first_violation_time", "worst_margin", "worst_margin_time", "time_outside"):

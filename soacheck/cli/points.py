@@ -32,7 +32,7 @@ from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
 from soacheck.partfiles import read_part
 from soacheck.plots import plot_soa
-from soacheck.soa import PointCheck, check_points
+from soacheck.points import PointCheck, check_points
 from soacheck.units import parse_duration
 
 

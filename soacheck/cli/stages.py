@@ -33,7 +33,9 @@ from soacheck.cli.base import (
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import battery_from
 from soacheck.plots import plot_stage_run
-from soacheck.stage import StageRun, max_safe_setpoint, run_stage, sharing_monte_carlo
+from soacheck.search import max_safe_setpoint
+from soacheck.sharing import sharing_monte_carlo
+from soacheck.stage_run import StageRun, passes_at, run_stage
 from soacheck.units import parse_duration
 
 
@@ -102,7 +104,7 @@ def discharge(
     label = battery_discharge(pack, mode, setpoint, cutoff_v=cutoff, samples=10).label
     extra: dict[str, Any] = {}
     if find_max:
-        extra["max_safe_setpoint"] = max_safe_setpoint(run_at, setpoint, mode)
+        extra["max_safe_setpoint"] = max_safe_setpoint(passes_at(run_at), setpoint, mode)
     _report_run(run, label, as_json=as_json, plot=plot, extra=extra)
 
 

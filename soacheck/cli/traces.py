@@ -29,7 +29,8 @@ from soacheck.cli.base import (
 from soacheck.errors import SoacheckError
 from soacheck.files import iter_trace
 from soacheck.plots import plot_trace
-from soacheck.trace import Cooling, TraceChecker, TraceResult
+from soacheck.stage import Cooling
+from soacheck.trace import TraceChecker, TraceResult
 
 
 @app.command()

@@ -1,21 +1,16 @@
-"""The SOA boundary: segment mechanisms, temperature derating, and point checks.
+"""The derated SOA boundary: pulse lines, the allowed current, exact polylines.
 
-A digitized SOA curve is a polyline on log-log axes. Each segment is classified by its
-slope m = ln(I2/I1) / ln(V2/V1) into the physical mechanism that draws it; a run of
-segments with one mechanism is a *mechanism line*. Derating for case temperature scales
-each mechanism line by its own factor, and the derated boundary is the lower envelope of
-the derated lines, each extended as a straight line in log-log space across the voltage
-range. Corners therefore move with temperature; at 25 °C the envelope is the digitized
-polyline itself (for a curve that is concave in log-log space, as a physical SOA is).
+Derating for case temperature scales each mechanism line by its own factor, and the
+derated boundary is the lower envelope of the derated lines, each extended as a straight
+line in log-log space across the voltage range. Corners therefore move with temperature;
+at 25 °C the envelope is the digitized polyline itself (for a curve that is concave in
+log-log space, as a physical SOA is).
 
 All functions are vectorized over arrays of points; loops run only over the few
 mechanism lines of a curve and the few digitized pulse widths.
 
 References
 ----------
-- Slope bands and mechanisms: ``methods.md`` §1 (common practice); second breakdown:
-  Scarlett & Shockley, IEEE Int. Conv. Rec. 1963; MOSFET linear-mode instability:
-  Spirito et al., MIEL 2002.
 - Derating: the thermal limit falls as (tj_max − Tc)/(tj_max − 25 °C), i.e.
   P = (tj_max − Tc)/Rth (common practice, the definition of Rth in JEDEC JESD51-1);
   current and voltage limits are not derated (common practice).
@@ -24,149 +19,15 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
-from typing import Literal, get_args
+from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
-import shapely
 
-from soacheck.derating import BreakdownDerating, breakdown_policy_note, mechanism_factors
+from soacheck.derating import BreakdownDerating, mechanism_factors
+from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
-from soacheck.thermal import thermal_model
-from soacheck.units import DC, format_duration
-
-Mechanism = Literal["on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified"]
-Limit = Literal[
-    "on_resistance",
-    "current",
-    "thermal",
-    "second_breakdown",
-    "instability",
-    "unclassified",
-    "voltage",
-    "temperature",
-    "invalid",
-]
-
-
-LIMITS: tuple[str, ...] = get_args(Limit)
-
-# Slope bands on log-log axes (methods.md §1, common practice): digitizing error of about
-# ±2 % per coordinate gives slope errors of a few hundredths.
-CURRENT_BAND = 0.15
-ON_RESISTANCE_BAND = 0.15
-THERMAL_BAND = 0.12
-STEEPEST_SLOPE = -8.0
-
-
-# --------------------------------------------------------------------------- classification
-
-
-def segment_slopes(voltage_v: np.ndarray, current_a: np.ndarray) -> np.ndarray:
-    """Slopes of a polyline's segments on log-log axes, shape ``(n - 1,)``.
-
-    m = ln(I₂/I₁) / ln(V₂/V₁), independent of the logarithm's base.
-    """
-    lv = np.log(np.asarray(voltage_v, dtype=float))
-    li = np.log(np.asarray(current_a, dtype=float))
-    return np.diff(li) / np.diff(lv)
-
-
-def classify_slopes(slopes: np.ndarray, *, bipolar: bool) -> np.ndarray:
-    """Name the mechanism of each segment from its log-log slope.
-
-    Parameters
-    ----------
-    slopes
-        Segment slopes in curve order, shape ``(k,)``.
-    bipolar
-        True for a bipolar part: a steep segment is second breakdown and no segment may be
-        an on-resistance line. False for FETs and IGBTs: a steep segment is linear-mode
-        instability, and a leading run of slopes near +1 is the on-resistance line.
-
-    Returns
-    -------
-    numpy.ndarray of str, shape ``(k,)``
-        ``current`` for \\|m\\| ≤ 0.15, ``thermal`` for \\|m + 1\\| ≤ 0.12, ``second_breakdown`` or
-        ``instability`` for −8 ≤ m < −1.12, ``on_resistance`` for a leading \\|m − 1\\| ≤ 0.15
-        (FET, IGBT), else ``unclassified`` (kept as geometry; derated conservatively).
-    """
-    m = np.asarray(slopes, dtype=float)
-    steep = "second_breakdown" if bipolar else "instability"
-    names = np.full(m.shape, "unclassified", dtype=object)
-    names[np.abs(m) <= CURRENT_BAND] = "current"
-    names[np.abs(m + 1) <= THERMAL_BAND] = "thermal"
-    names[(m >= STEEPEST_SLOPE) & (m < -1 - THERMAL_BAND)] = steep
-    if not bipolar:
-        on_res = np.abs(m - 1) <= ON_RESISTANCE_BAND
-        leading = np.logical_and.accumulate(on_res) if on_res.size else on_res
-        names[leading] = "on_resistance"
-    return names.astype(str)
-
-
-@dataclass(frozen=True, eq=False)
-class MechanismLine:
-    """A run of consecutive segments of one mechanism, as a piecewise-linear function on log axes.
-
-    Attributes
-    ----------
-    mechanism
-        What draws this part of the boundary.
-    log_v, log_i
-        Natural logs of the vertices, shape ``(k + 1,)``, ``log_v`` increasing. Outside
-        its vertices the line extends with its end slopes.
-    lines
-        File lines of the first and last vertex, for messages (0, 0 when implicit).
-    """
-
-    mechanism: Mechanism
-    log_v: np.ndarray
-    log_i: np.ndarray
-    lines: tuple[int, int] = (0, 0)
-
-    def __call__(self, log_v: np.ndarray) -> np.ndarray:
-        """ln I of the line at ``log_v`` (any shape), extended straight beyond its ends."""
-        x = np.asarray(log_v, dtype=float)
-        if self.log_v.size == 1:
-            return np.full(x.shape, self.log_i[0])
-        y = np.interp(x, self.log_v, self.log_i)
-        left = (self.log_i[1] - self.log_i[0]) / (self.log_v[1] - self.log_v[0])
-        right = (self.log_i[-1] - self.log_i[-2]) / (self.log_v[-1] - self.log_v[-2])
-        y = np.where(x < self.log_v[0], self.log_i[0] + left * (x - self.log_v[0]), y)
-        return np.where(x > self.log_v[-1], self.log_i[-1] + right * (x - self.log_v[-1]), y)
-
-
-def current_cap_a(part: Part, curve: SoaCurve) -> float:
-    """Rated current that caps a curve: ``i_max`` for DC, ``i_pulse_max`` for pulses.
-
-    Never above the highest digitized current of the curve, so that extending the first
-    segment below the lowest digitized voltage allows no more than the data supports.
-    """
-    rated = part.ratings.i_max_a if curve.is_dc else (part.ratings.i_pulse_max_a or math.inf)
-    return float(min(rated, curve.current_a.max()))
-
-
-def mechanism_lines(part: Part, curve: SoaCurve) -> tuple[MechanismLine, ...]:
-    """Split a curve into mechanism lines, and add the rated current cap as a line of its own."""
-    mechanisms = classify_slopes(segment_slopes(curve.voltage_v, curve.current_a), bipolar=part.is_bipolar)
-    lv, li = np.log(curve.voltage_v), np.log(curve.current_a)
-    starts = np.flatnonzero(np.r_[True, mechanisms[1:] != mechanisms[:-1]])
-    ends = np.r_[starts[1:], mechanisms.size]
-    lines = [
-        MechanismLine(
-            mechanism=str(mechanisms[s]),
-            log_v=lv[s : e + 1],
-            log_i=li[s : e + 1],
-            lines=(int(curve.lines[s]), int(curve.lines[e])) if curve.lines.size else (0, 0),
-        )
-        for s, e in zip(starts, ends, strict=True)
-    ]
-    cap = MechanismLine("current", np.array([lv[0]]), np.array([math.log(current_cap_a(part, curve))]))
-    return (*lines, cap)
-
-
-# --------------------------------------------------------------------------- the boundary
+from soacheck.thermal_model import thermal_model
+from soacheck.units import DC
 
 
 @dataclass(frozen=True, eq=False)
@@ -472,157 +333,6 @@ def evaluate_lines(
     return np.exp(log_i), np.array([line.mechanism for line in lines])[which]
 
 
-def region_polygon(
-    part: Part,
-    *,
-    tc_c: float = REFERENCE_CASE_C,
-    pulse_s: float = DC,
-    duty: float = 0.0,
-    policy: BreakdownDerating = "auto",
-    use_model: bool = True,
-    v_min_v: float | None = None,
-    i_floor_a: float | None = None,
-) -> shapely.Polygon:
-    """The derated safe region as a shapely polygon in (log10 V, log10 I) coordinates.
-
-    The region lies under the boundary from ``v_min_v`` to ``v_max`` and above
-    ``i_floor_a`` (default: a thousandth of the lowest boundary current). Distances in
-    these coordinates are in decades. Empty at or above ``tj_max``.
-    """
-    poly = boundary_polyline(
-        part, tc_c=tc_c, pulse_s=pulse_s, duty=duty, policy=policy, use_model=use_model, v_min_v=v_min_v
-    )
-    if poly.is_empty:
-        return shapely.Polygon()
-    floor = i_floor_a if i_floor_a is not None else poly.current_a.min() / 1000
-    x = np.log10(poly.voltage_v)
-    y = np.log10(poly.current_a)
-    ring = np.column_stack([np.r_[x[0], x, x[-1]], np.r_[math.log10(floor), y, math.log10(floor)]])
-    return shapely.Polygon(ring)
-
-
-def path_crossings(voltage_v: np.ndarray, current_a: np.ndarray, polygon: shapely.Polygon) -> np.ndarray:
-    """Where a V–I path crosses the boundary of a :func:`region_polygon`, shape ``(k, 2)`` in V and A.
-
-    The path is the polyline through the points in order, straight on log-log axes.
-    """
-    path = shapely.linestrings(np.log10(voltage_v), np.log10(current_a))
-    hits = shapely.get_coordinates(shapely.intersection(path, polygon.exterior))
-    return 10.0**hits
-
-
-# --------------------------------------------------------------------------- point checks
-
-
-@dataclass(frozen=True, eq=False)
-class PointCheck:
-    """The result of checking operating points against a part's derated SOA.
-
-    Arrays have shape ``(n,)``. ``margin`` = 1 − current/allowed_current, NaN where
-    nothing is allowed or the point cannot be evaluated; ``inside`` is True only where
-    the point was evaluated and its current is at most the allowed current (a point on
-    the boundary is inside).
-    """
-
-    part_id: str
-    voltage_v: np.ndarray
-    current_a: np.ndarray
-    tc_c: np.ndarray
-    pulse_s: np.ndarray
-    duty: np.ndarray
-    allowed_current_a: np.ndarray
-    margin: np.ndarray
-    inside: np.ndarray
-    limit: np.ndarray
-    curve_pulse_s: np.ndarray
-    extrapolated: np.ndarray
-    assumptions: tuple[str, ...] = field(default_factory=tuple)
-
-    @property
-    def passed(self) -> bool:
-        return bool(np.all(self.inside))
-
-    @property
-    def verdict(self) -> Literal["pass", "fail"]:
-        return "pass" if self.passed else "fail"
-
-    def to_frame(self) -> pd.DataFrame:
-        """One row per point, columns named as in the JSON output."""
-        return pd.DataFrame(
-            {
-                "voltage": self.voltage_v,
-                "current": self.current_a,
-                "case_temp": self.tc_c,
-                "pulse": [format_duration(t) for t in self.pulse_s],
-                "duty": self.duty,
-                "inside": self.inside,
-                "allowed_current": self.allowed_current_a,
-                "margin": self.margin,
-                "limit": self.limit,
-                "curve": [format_duration(t) if np.isfinite(t) or np.isinf(t) else "" for t in self.curve_pulse_s],
-                "extrapolated": self.extrapolated,
-            }
-        )
-
-
-def check_points(
-    voltage_v: np.ndarray | float,
-    current_a: np.ndarray | float,
-    part: Part,
-    *,
-    tc_c: np.ndarray | float = REFERENCE_CASE_C,
-    pulse_s: np.ndarray | float = DC,
-    duty: np.ndarray | float = 0.0,
-    policy: BreakdownDerating = "auto",
-) -> PointCheck:
-    """Check operating points against the part's SOA derated at their case temperatures.
-
-    Parameters
-    ----------
-    voltage_v, current_a
-        Operating points, broadcast together. [V], [A]
-    part
-        The part.
-    tc_c
-        Case temperature of each point. [°C]
-    pulse_s
-        Pulse width of each point, ``inf`` for DC. [s]
-    duty
-        Duty cycle of each point's pulse train, 0 for a single pulse. [1]
-    policy
-        Derating of second breakdown or instability.
-
-    Returns
-    -------
-    PointCheck
-        Per-point verdicts with the assumptions made, in words.
-    """
-    v, i, tc, tp, d = (
-        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty)
-    )
-    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
-    evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
-    inside = evaluated & (i <= result.current_a)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        margin = np.where(evaluated & (result.current_a > 0), 1.0 - i / result.current_a, np.nan)
-    limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
-    return PointCheck(
-        part_id=part.id,
-        voltage_v=v,
-        current_a=i,
-        tc_c=tc,
-        pulse_s=tp,
-        duty=d,
-        allowed_current_a=result.current_a,
-        margin=margin,
-        inside=inside,
-        limit=limit,
-        curve_pulse_s=result.curve_pulse_s,
-        extrapolated=result.extrapolated,
-        assumptions=_assumptions(part, tc, tp, d, result, policy),
-    )
-
-
 def model_consistency(part: Part, *, tolerance: float = 0.10) -> list[str]:
     """Where a part's thermal model and its other data disagree, in words (lint-level).
 
@@ -653,66 +363,6 @@ def model_consistency(part: Part, *, tolerance: float = 0.10) -> list[str]:
                 f"gives {model_w:.4g} W (check the Zth data or the digitized curve)"
             )
     return found
-
-
-def _assumptions(
-    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, policy: BreakdownDerating
-) -> tuple[str, ...]:
-    notes = [
-        f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
-        f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
-        "current limit and voltage limit not derated",
-        breakdown_policy_note(part, policy),
-    ]
-    shortest = part.pulse_widths_s[0]
-    conditions = zip(tp.tolist(), d.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True)
-    for asked, duty, used, modelled in sorted(set(conditions)):
-        if math.isnan(used) or (math.isinf(asked) and duty == 0):
-            continue
-        label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")
-        if modelled:
-            model = thermal_model(part)
-            form = "Zth(tp, D), exact periodic steady state" if duty > 0 else "Zth(tp), single pulse"
-            notes.append(
-                f"{label}: thermal limit (tj_max − Tc)/{form}, from the {model.origin}; other limits from the "
-                f"{format_duration(used)} curve (the next longer digitized width; conservative)"
-            )
-            continue
-        if asked == used:
-            continue
-        if duty > 0:
-            why = "a repetitive train without a thermal model; single-pulse curves would not be safe"
-        elif asked < shortest:
-            why = "shorter than every digitized curve, so the shortest is used"
-        elif math.isinf(used):
-            why = "longer than every pulse curve, so DC is used"
-        else:
-            why = "between digitized widths, so the next longer is used"
-        notes.append(f"{label} checked against the {format_duration(used)} curve ({why}; conservative)")
-    if result.modelled.any():
-        notes.extend(f"warning: {finding}" for finding in model_consistency(part))
-    low = result.below_data
-    if low.any():
-        notes.append(
-            f"{int(low.sum())} point(s) below the lowest digitized voltage: the first segment was extended "
-            "(capped by the rated current)"
-        )
-    high = result.above_data
-    if high.any():
-        notes.append(
-            f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended"
-        )
-    if np.any(tc < REFERENCE_CASE_C):
-        notes.append("case temperatures below 25 °C get no more than the 25 °C limits")
-    used = np.unique(result.curve_pulse_s[~np.isnan(result.curve_pulse_s)])
-    for curve in (part.curve_for(width) for width in used):
-        for line in mechanism_lines(part, curve):
-            if line.mechanism == "unclassified":
-                notes.append(
-                    f"curve '{curve.label}' lines {line.lines[0]}–{line.lines[1]}: slope fits no mechanism; "
-                    "derated by the smaller of the thermal and breakdown factors"
-                )
-    return tuple(notes)
 
 
 def max_case_temp(

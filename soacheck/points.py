@@ -1,0 +1,199 @@
+"""Operating points checked against a part's derated SOA.
+
+Each point gets the allowed current at its voltage, case temperature and pulse
+condition, its margin 1 − I/I_allowed (:func:`margin`), the limit that bounds it, and the
+assumptions made, in words.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from soacheck.boundary import Allowed, allowed_current, model_consistency
+from soacheck.derating import BreakdownDerating, breakdown_policy_note
+from soacheck.mechanisms import mechanism_lines
+from soacheck.parts import REFERENCE_CASE_C, Part
+from soacheck.thermal_model import thermal_model
+from soacheck.units import DC, format_duration
+
+
+@dataclass(frozen=True, eq=False)
+class PointCheck:
+    """The result of checking operating points against a part's derated SOA.
+
+    Arrays have shape ``(n,)``. ``margin`` = 1 − current/allowed_current, NaN where
+    nothing is allowed or the point cannot be evaluated; ``inside`` is True only where
+    the point was evaluated and its current is at most the allowed current (a point on
+    the boundary is inside).
+    """
+
+    part_id: str
+    voltage_v: np.ndarray
+    current_a: np.ndarray
+    tc_c: np.ndarray
+    pulse_s: np.ndarray
+    duty: np.ndarray
+    allowed_current_a: np.ndarray
+    margin: np.ndarray
+    inside: np.ndarray
+    limit: np.ndarray
+    curve_pulse_s: np.ndarray
+    extrapolated: np.ndarray
+    assumptions: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def passed(self) -> bool:
+        return bool(np.all(self.inside))
+
+    @property
+    def verdict(self) -> Literal["pass", "fail"]:
+        return "pass" if self.passed else "fail"
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per point, columns named as in the JSON output."""
+        return pd.DataFrame(
+            {
+                "voltage": self.voltage_v,
+                "current": self.current_a,
+                "case_temp": self.tc_c,
+                "pulse": [format_duration(t) for t in self.pulse_s],
+                "duty": self.duty,
+                "inside": self.inside,
+                "allowed_current": self.allowed_current_a,
+                "margin": self.margin,
+                "limit": self.limit,
+                "curve": [format_duration(t) if np.isfinite(t) or np.isinf(t) else "" for t in self.curve_pulse_s],
+                "extrapolated": self.extrapolated,
+            }
+        )
+
+
+def margin(current_a: np.ndarray, allowed_a: np.ndarray, evaluated: np.ndarray) -> np.ndarray:
+    """Margin of each point, 1 − I/I_allowed. [1]
+
+    Edge rule: NaN where nothing is allowed (``allowed_a`` 0) or the point was not
+    ``evaluated``; a point on the boundary has margin 0.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(evaluated & (allowed_a > 0), 1.0 - current_a / allowed_a, np.nan)
+
+
+def check_points(
+    voltage_v: np.ndarray | float,
+    current_a: np.ndarray | float,
+    part: Part,
+    *,
+    tc_c: np.ndarray | float = REFERENCE_CASE_C,
+    pulse_s: np.ndarray | float = DC,
+    duty: np.ndarray | float = 0.0,
+    policy: BreakdownDerating = "auto",
+) -> PointCheck:
+    """Check operating points against the part's SOA derated at their case temperatures.
+
+    Parameters
+    ----------
+    voltage_v, current_a
+        Operating points, broadcast together. [V], [A]
+    part
+        The part.
+    tc_c
+        Case temperature of each point. [°C]
+    pulse_s
+        Pulse width of each point, ``inf`` for DC. [s]
+    duty
+        Duty cycle of each point's pulse train, 0 for a single pulse. [1]
+    policy
+        Derating of second breakdown or instability.
+
+    Returns
+    -------
+    PointCheck
+        Per-point verdicts with the assumptions made, in words.
+    """
+    v, i, tc, tp, d = (
+        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty)
+    )
+    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
+    inside = evaluated & (i <= result.current_a)
+    limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
+    return PointCheck(
+        part_id=part.id,
+        voltage_v=v,
+        current_a=i,
+        tc_c=tc,
+        pulse_s=tp,
+        duty=d,
+        allowed_current_a=result.current_a,
+        margin=margin(i, result.current_a, evaluated),
+        inside=inside,
+        limit=limit,
+        curve_pulse_s=result.curve_pulse_s,
+        extrapolated=result.extrapolated,
+        assumptions=_assumptions(part, tc, tp, d, result, policy),
+    )
+
+
+def _assumptions(
+    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, policy: BreakdownDerating
+) -> tuple[str, ...]:
+    notes = [
+        f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
+        f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
+        "current limit and voltage limit not derated",
+        breakdown_policy_note(part, policy),
+    ]
+    shortest = part.pulse_widths_s[0]
+    conditions = zip(tp.tolist(), d.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True)
+    for asked, duty, used, modelled in sorted(set(conditions)):
+        if math.isnan(used) or (math.isinf(asked) and duty == 0):
+            continue
+        label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")
+        if modelled:
+            model = thermal_model(part)
+            form = "Zth(tp, D), exact periodic steady state" if duty > 0 else "Zth(tp), single pulse"
+            notes.append(
+                f"{label}: thermal limit (tj_max − Tc)/{form}, from the {model.origin}; other limits from the "
+                f"{format_duration(used)} curve (the next longer digitized width; conservative)"
+            )
+            continue
+        if asked == used:
+            continue
+        if duty > 0:
+            why = "a repetitive train without a thermal model; single-pulse curves would not be safe"
+        elif asked < shortest:
+            why = "shorter than every digitized curve, so the shortest is used"
+        elif math.isinf(used):
+            why = "longer than every pulse curve, so DC is used"
+        else:
+            why = "between digitized widths, so the next longer is used"
+        notes.append(f"{label} checked against the {format_duration(used)} curve ({why}; conservative)")
+    if result.modelled.any():
+        notes.extend(f"warning: {finding}" for finding in model_consistency(part))
+    low = result.below_data
+    if low.any():
+        notes.append(
+            f"{int(low.sum())} point(s) below the lowest digitized voltage: the first segment was extended "
+            "(capped by the rated current)"
+        )
+    high = result.above_data
+    if high.any():
+        notes.append(
+            f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended"
+        )
+    if np.any(tc < REFERENCE_CASE_C):
+        notes.append("case temperatures below 25 °C get no more than the 25 °C limits")
+    used = np.unique(result.curve_pulse_s[~np.isnan(result.curve_pulse_s)])
+    for curve in (part.curve_for(width) for width in used):
+        for line in mechanism_lines(part, curve):
+            if line.mechanism == "unclassified":
+                notes.append(
+                    f"curve '{curve.label}' lines {line.lines[0]}–{line.lines[1]}: slope fits no mechanism; "
+                    "derated by the smaller of the thermal and breakdown factors"
+                )
+    return tuple(notes)

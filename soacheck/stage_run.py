@@ -1,0 +1,260 @@
+"""A trajectory through a stage: waveform relaxation of the electro-thermal fixed point.
+
+Current sharing follows from the V_BE mismatch, the ballast resistors and the temperature
+coefficient of V_BE coupled to each device's junction temperature, solved over a whole
+trajectory at once by waveform relaxation (alternately: currents for given temperatures,
+temperatures for given currents). A stage whose loop gain reaches 1 is thermal runaway,
+reported as a failure with the limit ``runaway``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from soacheck.boundary import allowed_current
+from soacheck.derating import BreakdownDerating
+from soacheck.errors import SoacheckError
+from soacheck.parts import Part
+from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
+from soacheck.thermal import Foster
+from soacheck.thermal_model import thermal_model
+from soacheck.thermal_response import temperature_rise
+from soacheck.units import DC
+
+
+@dataclass(frozen=True, eq=False)
+class StageRun:
+    """A trajectory through a stage, device by device, with its check.
+
+    Arrays with a leading ``(n,)`` axis are per device; the time axis is ``(m,)``.
+    """
+
+    stage: Stage
+    time_s: np.ndarray
+    source_v: np.ndarray
+    total_a: np.ndarray
+    device_a: np.ndarray
+    device_v: np.ndarray
+    device_w: np.ndarray
+    case_c: np.ndarray
+    junction_c: np.ndarray
+    sink_c: np.ndarray
+    allowed_a: np.ndarray
+    margin: np.ndarray
+    limit: np.ndarray
+    gain: np.ndarray
+    runaway: bool
+    assumptions: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def inside(self) -> np.ndarray:
+        """(n, m): inside the SOA and below tj_max, and not in runaway."""
+        ok = (self.device_a <= self.allowed_a) & (self.junction_c <= self.stage.part.ratings.tj_max_c)
+        return ok & ~(self.limit == "runaway")
+
+    @property
+    def passed(self) -> bool:
+        return bool(self.inside.all()) and not self.runaway
+
+    @property
+    def worst_device(self) -> int:
+        return int(np.argmin(np.nanmin(np.where(np.isfinite(self.margin), self.margin, -np.inf), axis=1)))
+
+    def summary(self) -> dict[str, object]:
+        """The verdict and the figures the CLI and reports print."""
+        bad = ~self.inside
+        first = None
+        limit = None
+        if bad.any():
+            k = int(np.argmax(bad.any(axis=0)))
+            first = float(self.time_s[k])
+            device = int(np.argmax(bad[:, k]))
+            limit = str(self.limit[device, k])
+        finite = np.where(np.isfinite(self.margin), self.margin, -np.inf)
+        flat = int(np.argmin(finite))
+        d, k = np.unravel_index(flat, finite.shape)
+        worst = finite[d, k]
+        energy_wh = float(np.sum(np.diff(self.time_s) * (self.source_v * self.total_a)[:-1]) / 3600.0)
+        return {
+            "verdict": "pass" if self.passed else "fail",
+            "first_violation_time": first,
+            "limit": limit,
+            "worst_margin": float(worst) if np.isfinite(worst) else None,
+            "worst_margin_time": float(self.time_s[k]),
+            "worst_device": int(d),
+            "tj_peak": float(self.junction_c.max()),
+            "case_peak": float(self.case_c.max()),
+            "heatsink_peak": float(self.sink_c.max()),
+            "loop_gain_peak": float(np.max(self.gain)),
+            "device_power_peak": float(self.device_w.max()),
+            "sense_resistor_power_peak": float((self.total_a**2).max() * self.stage.series_ohm),
+            "energy_wh": energy_wh,
+            "duration": float(self.time_s[-1] - self.time_s[0]),
+        }
+
+
+def _junction_network(part: Part) -> tuple[Foster, str]:
+    model = thermal_model(part)
+    if model is not None:
+        return model.foster, f"junction–case from the {model.origin}"
+    rth = part.ratings.rth_jc_k_per_w
+    return Foster([rth], [1e-6]), "no thermal model: junction at Tc + P·rth_jc at every instant (conservative)"
+
+
+def run_stage(
+    stage: Stage,
+    time_s: np.ndarray,
+    source_v: np.ndarray,
+    total_a: np.ndarray,
+    *,
+    policy: BreakdownDerating = "auto",
+    max_iterations: int = 2000,
+) -> StageRun:
+    """Follow a trajectory (source voltage and total current over time) through the stage.
+
+    Parameters
+    ----------
+    stage
+        The stage.
+    time_s
+        Sample times, rising, shape ``(m,)``. [s]
+    source_v
+        Voltage across the load's input terminals (sense resistor, ballasts and devices), shape ``(m,)``. [V]
+    total_a
+        Total current the load draws, shape ``(m,)``. [A]
+
+    Notes
+    -----
+    Per device: V_CE = V_source − I_total·R_series − I_k·R_ballast; P_k = V_CE·I_k. The
+    heatsink is one lumped node driven by the devices' total power (resistors are assumed
+    mounted elsewhere); each case sits P_k·R_cs above it; each junction follows its own
+    Foster network on top of its case (quasi-static: conservative, since the sink's time
+    constant is minutes and the device's at most about a second; methods.md §5). Each
+    device is checked at every sample against its DC boundary derated at its own case
+    temperature, and its junction against tj_max.
+    """
+    part = stage.part
+    t = np.asarray(time_s, dtype=float)
+    src = np.asarray(source_v, dtype=float)
+    total = np.asarray(total_a, dtype=float)
+    n, m = stage.count, t.size
+    junction, junction_note = _junction_network(part)
+    rth_diff = part.ratings.rth_jc_k_per_w + (stage.cooling.case_sink_k_per_w if stage.cooling else 0.0)
+    bipolar = part.is_bipolar
+
+    tj = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
+    converged = False
+    for _ in range(max_iterations):
+        currents = stage.share(total, tj)
+        vce = stage.device_voltage(src[None, :], total[None, :], currents)
+        power = np.maximum(vce, 0.0) * currents
+        sink, case, tj_new = _temperatures(stage, junction, t, power)
+        change = np.max(np.abs(tj_new - tj))
+        tj = tj_new
+        if change < SETTLED_K:
+            converged = True
+            break
+        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
+            break
+    gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
+    runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
+    allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, policy=policy)
+    notes = [
+        junction_note,
+        f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: device 0 "
+        f"at its bottom; temperature coefficient {stage.vbe_tempco_v_per_k * 1e3:g} mV/K",
+        "heatsink as one lumped node driven by the devices' total power; cases P·R_cs above it; junctions "
+        "quasi-static on top (conservative)"
+        if stage.cooling
+        else f"cases held at {stage.case_temp_c:g} °C",
+        "each device checked against its DC boundary at its own case temperature, and its junction against tj_max",
+    ]
+    if not bipolar and n > 1:
+        notes.append("FET sharing: 1/g_m neglected, only the source resistors balance the devices (conservative)")
+    if runaway_at.any():
+        notes.append(
+            f"thermal runaway: loop gain {float(gain.max()):.2f} ≥ 1 from t = {float(t[np.argmax(runaway_at)]):g} s; "
+            "raise the ballast resistors or lower the voltage across the devices"
+        )
+    return StageRun(
+        stage,
+        t,
+        src,
+        total,
+        currents,
+        vce,
+        power,
+        case,
+        tj,
+        sink,
+        allowed_a,
+        margin,
+        limit,
+        gain,
+        bool(runaway_at.any()),
+        tuple(notes),
+    )
+
+
+def check_devices(
+    stage: Stage,
+    vce_v: np.ndarray,
+    device_a: np.ndarray,
+    case_c: np.ndarray,
+    junction_c: np.ndarray,
+    runaway_at: np.ndarray,
+    *,
+    pulse_s: float = DC,
+    duty: float = 0.0,
+    policy: BreakdownDerating = "auto",
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Allowed current, margin and limit of every device at every point, each ``(n, m)``.
+
+    Each device is checked against its SOA (for the pulse condition) derated at its own
+    case temperature; a junction above tj_max is labelled ``thermal``; where the stage runs
+    away the hog (device 0) is labelled ``runaway``.
+    """
+    n, m = device_a.shape
+    allowed = allowed_current(
+        np.maximum(vce_v, 1e-12), stage.part, tc_c=case_c, pulse_s=pulse_s, duty=duty, policy=policy
+    )
+    allowed_a = allowed.current_a.reshape(n, m)
+    limit = allowed.limit.reshape(n, m).astype(object)
+    hot = junction_c > stage.part.ratings.tj_max_c
+    limit = np.where(hot & (device_a <= allowed_a), "thermal", limit)
+    limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))
+    return allowed_a, margin, limit
+
+
+def _temperatures(stage: Stage, junction: Foster, t: np.ndarray, power: np.ndarray):
+    """Sink (m,), case (n, m) and junction (n, m) temperatures for the devices' powers."""
+    if stage.cooling is not None:
+        c = stage.cooling
+        sink_net = Foster([c.sink_ambient_k_per_w], [c.sink_ambient_k_per_w * c.sink_j_per_k])
+        sink = c.ambient_c + temperature_rise(t, power.sum(axis=0), sink_net)[0]
+        case = sink[None, :] + power * c.case_sink_k_per_w
+    else:
+        sink = np.full(t.size, stage.case_temp_c)
+        case = np.broadcast_to(sink, power.shape).copy()
+    junction_c = case + np.stack([temperature_rise(t, p, junction)[0] for p in power])
+    return sink, case, junction_c
+
+
+def passes_at(run_at: Callable[[float], StageRun]) -> Callable[[float], bool]:
+    """Whether ``run_at(x)`` passes, for the searches of :mod:`soacheck.search`.
+
+    An x that cannot be run at all (``run_at`` raises :class:`SoacheckError`) counts as not safe.
+    """
+
+    def passes(x: float) -> bool:
+        try:
+            return run_at(x).passed
+        except SoacheckError:
+            return False
+
+    return passes
