@@ -12,7 +12,7 @@ case temperature, the highest case temperature.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -184,6 +184,7 @@ def compare(
     stage: Stage | None = None,
     policy: BreakdownDerating = "auto",
     points: int = 400,
+    progress: Callable[[int, int], None] | None = None,
 ) -> list[Candidate]:
     """Every candidate on the job, best first: passing before failing, then by margin.
 
@@ -197,6 +198,8 @@ def compare(
         The stage each candidate takes its place in. Without one: a single device at the
         envelope's (or the trajectory job's) case temperature, currents shared evenly
         when counting devices.
+    progress
+        Called as ``progress(done, total)`` after each candidate.
 
     Raises
     ------
@@ -217,5 +220,9 @@ def compare(
             return _alone(part, job, policy, points)
         return _trace_alone(part, job, policy)
 
-    results = [rate(p) for p in parts]
+    results = []
+    for part in parts:
+        results.append(rate(part))
+        if progress is not None:
+            progress(len(results), len(parts))
     return sorted(results, key=lambda c: (not c.passes, -(c.min_margin if c.min_margin is not None else -math.inf)))

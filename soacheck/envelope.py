@@ -14,6 +14,7 @@ voltages. Its limit table is what a load's controller should enforce.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -243,12 +244,14 @@ def largest_safe_envelope(
     duty: float = 1.0,
     policy: BreakdownDerating = "auto",
     iterations: int = 48,
+    progress: Callable[[int, int], None] | None = None,
 ) -> SafeEnvelope:
     """Bisect, at every source voltage at once, for the highest safe total current.
 
     The stage's own surroundings apply: its heatsink settles at each point's own power
     (steady state), or its cases sit at the fixed temperature. The returned currents are
-    on the safe side of the bisection (relative width 2^-48).
+    on the safe side of the bisection (relative width 2^-48). ``progress(done, total)`` is
+    called after each bisection step.
     """
     v = np.asarray(voltages_v, dtype=float)
     if v.size == 0 or np.any(~np.isfinite(v)) or np.any(v <= 0):
@@ -264,11 +267,13 @@ def largest_safe_envelope(
         d = np.argmin(margin, axis=0)
         return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
 
-    for _ in range(iterations):
+    for step in range(iterations):
         mid = 0.5 * (lo + hi)
         ok, _ = safe(mid)
         lo = np.where(ok, mid, lo)
         hi = np.where(ok, hi, mid)
+        if progress is not None:
+            progress(step + 1, iterations)
     _, limit = safe(hi)
     timing_note = "dc" if math.isinf(pulse_s) else f"{format_duration(pulse_s)} pulses at duty {duty:g}"
     surroundings = (

@@ -20,13 +20,15 @@ import tomllib
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 
 from soacheck.battery import Trajectory
 from soacheck.errors import SoacheckError, did_you_mean
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 @dataclass(frozen=True, eq=False)
@@ -107,6 +109,8 @@ def read_table(
         the wrong number of fields, cells that are not finite numbers, values not above
         zero where required.
     """
+    import pandas as pd  # deferred: a command that reads no table starts without it
+
     path = Path(path)
     sep, names = _sniff(path)
     known = list(numeric) + list(text)
@@ -254,6 +258,8 @@ def _checked_chunks(path: Path, chunks):
 
 
 def _csv_chunks(path: Path, chunk_rows: int):
+    import pandas as pd  # deferred: a command that reads no table starts without it
+
     sep, names = _sniff(path)
     for name in names:
         if name not in TRACE_COLUMNS:

@@ -8,10 +8,9 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from matplotlib.figure import Figure
 
 from soacheck.compare import TrajectoryJob, compare
 from soacheck.envelope import Envelope, check_envelope
@@ -23,6 +22,9 @@ from soacheck.points import check_points
 from soacheck.search import max_safe_setpoint
 from soacheck.stage_run import passes_at, run_stage
 from soacheck.trace import TraceChecker
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
 
 SAFETY_CAUTIONS = (
     "A linear stage turns all of its input power into heat: heatsinks, tabs and cases burn skin; sense and "

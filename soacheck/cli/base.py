@@ -6,10 +6,13 @@ code 2; that happens in one place, :func:`user_errors`.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import json
 import math
 import os
+import sys
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -70,6 +73,41 @@ def user_errors(command):
 
 def console_for_output() -> Console:
     return Console(width=int(os.environ.get("COLUMNS", "120")), soft_wrap=False)
+
+
+def stderr_is_terminal() -> bool:
+    """True when stderr is a terminal a person watches (not a pipe, a file or a test runner)."""
+    return sys.stderr.isatty()
+
+
+Progress = Callable[..., None]
+"""``update(done, total=None, description=None)``: how far a long job has come."""
+
+
+@contextlib.contextmanager
+def progress_bar(description: str, *, total: float | None = None, quiet: bool = False) -> Iterator[Progress]:
+    """A transient progress bar on stderr for a job that can take more than about a second.
+
+    Shown only when stderr is a terminal and ``quiet`` is false (commands pass their
+    ``--json``), so JSON output, pipes and tests never see it. Yields
+    ``update(done, total=None, description=None)``, which library functions take as their
+    ``progress`` callback (``progress(done, total)``, or ``(done, total, name)`` for plans).
+    """
+    if quiet or not stderr_is_terminal():
+        yield lambda *args, **kwargs: None
+        return
+    from rich.progress import Progress as RichProgress
+
+    with RichProgress(console=Console(stderr=True, force_terminal=True), transient=True) as bar:
+        task = bar.add_task(description, total=total)
+
+        def update(done: float, total: float | None = None, description: str | None = None) -> None:
+            extra: dict[str, Any] = {} if total is None else {"total": total}
+            if description is not None:
+                extra["description"] = description
+            bar.update(task, completed=done, **extra)
+
+        yield update
 
 
 def policy_option(text: str) -> BreakdownDerating:

@@ -26,6 +26,7 @@ from soacheck.cli.base import (
     number_list,
     plot_suffix,
     policy_option,
+    progress_bar,
     refuse_overwrite,
     stage_option,
     user_errors,
@@ -38,7 +39,6 @@ from soacheck.files import read_toml, read_trace
 from soacheck.jobfiles import discharge_from_table, read_envelope
 from soacheck.library import find_part, library_folders, list_parts, read_stage
 from soacheck.partfiles import read_part
-from soacheck.plots import new_axes, plot_compare, plot_envelope_check
 from soacheck.units import parse_duration
 
 
@@ -108,6 +108,8 @@ def envelope(
         env = read_envelope(check_file)
         result = check_envelope(loaded, env, policy=policy)
         if plot is not None:
+            from soacheck.plots import plot_envelope_check  # matplotlib: only when plotting
+
             plot_envelope_check(result, policy=policy).savefig(plot)
         payload = result.summary()
         if as_json:
@@ -137,12 +139,20 @@ def envelope(
         raise typer.Exit(0 if result.passed else 1)
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = 1.0 if math.isinf(pulse_s) else duty_option(duty, pulse_s) if duty is not None else 0.0
-    table = largest_safe_envelope(
-        loaded, _voltages(voltages, loaded.part.ratings.v_max_v), pulse_s=pulse_s, duty=duty_value, policy=policy
-    )
+    with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
+        table = largest_safe_envelope(
+            loaded,
+            _voltages(voltages, loaded.part.ratings.v_max_v),
+            pulse_s=pulse_s,
+            duty=duty_value,
+            policy=policy,
+            progress=progress,
+        )
     if export is not None:
         _export_table(table, export, force)
     if plot is not None:
+        from soacheck.plots import new_axes  # matplotlib: only when plotting
+
         ax = new_axes()
         ax.plot(table.voltage_v, table.max_current_a, marker="o", color="#1f5fa8")
         ax.set_xscale("log")
@@ -221,7 +231,8 @@ def compare(
         job = TrajectoryJob(path)
     else:
         job = TrajectoryJob(read_trace(trace_file), case_temp_c=case_temp)
-    ranked = compare_parts(candidates, job, stage=loaded_stage, policy=policy)
+    with progress_bar("comparing candidates", total=len(candidates), quiet=as_json) as progress:
+        ranked = compare_parts(candidates, job, stage=loaded_stage, policy=policy, progress=progress)
     label = env.label if envelope_file is not None else job.trajectory.label
     if plot is not None and envelope_file is None:
         raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
@@ -232,6 +243,8 @@ def compare(
             tc = loaded_stage.case_temp_c
         else:
             tc = env.ambient_c
+        from soacheck.plots import plot_compare  # matplotlib: only when plotting
+
         by_id = {p.id: p for p in candidates}
         plot_compare(
             [by_id[c.part] for c in ranked],

@@ -7,9 +7,7 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.console import Console
 from rich.markup import escape
-from rich.progress import Progress
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
@@ -21,6 +19,7 @@ from soacheck.cli.base import (
     console_for_output,
     echo_json,
     jsonable,
+    progress_bar,
     user_errors,
 )
 from soacheck.demo import DEMO_FOLDER, demo_plan_path
@@ -28,24 +27,21 @@ from soacheck.errors import SoacheckError
 from soacheck.files import write_folder
 from soacheck.library import library_folders
 from soacheck.plan import read_plan
-from soacheck.report import report_html, report_json, slug, svg_text
-from soacheck.runner import failures_first, run_plan
 
 REPORT_MARKER = ".soacheck-report"
 
 
 def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
     """Read, run and report a plan into ``out``; the report appears whole or not at all."""
+    from soacheck.report import report_html, report_json, slug, svg_text  # matplotlib: only when a plan runs
+    from soacheck.runner import failures_first, run_plan
+
     folders = library_folders(library or [])
     plan = read_plan(plan_path, folders)
     if out.exists() and not (out / REPORT_MARKER).is_file() and not force:
         raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
-    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
-    with progress:
-        task = progress.add_task("jobs", total=len(plan.jobs))
-        results = run_plan(
-            plan, progress=lambda done, total, name: progress.update(task, completed=done, description=name)
-        )
+    with progress_bar("jobs", total=len(plan.jobs), quiet=as_json) as progress:
+        results = run_plan(plan, progress=progress)
     files: dict[str, str | bytes] = {}
     svgs: dict[str, list[str]] = {}
     plot_files: dict[str, list[str]] = {}

@@ -31,7 +31,6 @@ from soacheck.errors import SoacheckError
 from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
 from soacheck.partfiles import read_part
-from soacheck.plots import plot_soa
 from soacheck.points import PointCheck, check_points
 from soacheck.units import parse_duration
 
@@ -207,6 +206,8 @@ def show(
             pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
             policy=policy,
         )
+    from soacheck.plots import plot_soa  # matplotlib: only when plotting
+
     ax = plot_soa(
         loaded,
         case_temps_c=number_list(case_temp, "--case-temp", "25,75,125").tolist(),

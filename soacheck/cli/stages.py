@@ -8,9 +8,7 @@ from pathlib import Path
 from typing import Annotated, Any
 
 import typer
-from rich.console import Console
 from rich.markup import escape
-from rich.progress import Progress
 from rich.table import Table as RichTable
 
 from soacheck.battery import MODES
@@ -27,12 +25,12 @@ from soacheck.cli.base import (
     console_for_output,
     echo_json,
     policy_option,
+    progress_bar,
     stage_option,
     user_errors,
 )
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import battery_from
-from soacheck.plots import plot_stage_run
 from soacheck.search import max_safe_setpoint
 from soacheck.sharing import sharing_monte_carlo
 from soacheck.stage_run import StageRun, passes_at, run_stage
@@ -42,6 +40,8 @@ from soacheck.units import parse_duration
 def _report_run(run: StageRun, label: str, *, as_json: bool, plot: Path | None, extra: dict[str, Any]) -> None:
     payload = {"test": label, **run.summary(), **extra, "assumptions": list(run.assumptions)}
     if plot is not None:
+        from soacheck.plots import plot_stage_run  # matplotlib: only when plotting
+
         plot_stage_run(run, title=label).savefig(plot)
     if as_json:
         echo_json(payload)
@@ -158,17 +158,9 @@ def sharing(
     loaded = stage_option(stage, library)
     if not (current > 0 and voltage > 0 and draws >= 1 and 0 < percentile <= 100):
         raise SoacheckError("--current and --voltage must be above zero, --draws at least 1, --percentile in (0, 100]")
-    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json or draws < 20000)
-    with progress:
-        task = progress.add_task("Monte Carlo draws", total=draws)
+    with progress_bar("Monte Carlo draws", total=draws, quiet=as_json) as progress:
         spread = sharing_monte_carlo(
-            loaded,
-            current,
-            voltage,
-            draws=draws,
-            percentile=percentile,
-            seed=seed,
-            progress=lambda done, total: progress.update(task, completed=done),
+            loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress
         )
     payload = {
         "stage": str(stage),

@@ -9,7 +9,6 @@ from typing import Annotated
 import typer
 from rich.console import Console
 from rich.markup import escape
-from rich.progress import Progress
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
@@ -23,12 +22,12 @@ from soacheck.cli.base import (
     part_option,
     plot_suffix,
     policy_option,
+    progress_bar,
     refuse_overwrite,
     user_errors,
 )
 from soacheck.errors import SoacheckError
 from soacheck.files import iter_trace
-from soacheck.plots import plot_trace
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker, TraceResult
 
@@ -80,17 +79,20 @@ def trace(
     checker = TraceChecker(
         loaded, tc_c=None if cooling else (25.0 if case_temp is None else case_temp), cooling=cooling, policy=policy
     )
-    progress = Progress(console=Console(stderr=True), transient=True, disable=as_json)
-    with progress, contextlib.closing(iter_trace(file, chunk_rows=chunk_rows)) as chunks:
-        task = progress.add_task(f"checking {file.name}: samples", total=None)
+    with (
+        progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress,
+        contextlib.closing(iter_trace(file, chunk_rows=chunk_rows)) as chunks,
+    ):
         for t, v, i, first_row in chunks:
             try:
                 checker.feed(t, v, i)
             except SoacheckError as err:
                 raise SoacheckError(f"{file} near data row {first_row + 1}: {err}") from None
-            progress.update(task, advance=t.size)
+            progress(first_row + t.size)
     result = checker.result()
     if plot is not None:
+        from soacheck.plots import plot_trace  # matplotlib: only when plotting
+
         plot_trace(loaded, result, policy=policy).savefig(plot)
     if as_json:
         echo_json(result.summary())
