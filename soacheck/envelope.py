@@ -287,41 +287,5 @@ def largest_safe_envelope(
         "mV with device 0 at its bottom",
         "each current is the highest at which every device stays inside its derated SOA and below tj_max, "
         "without runaway and with V_CE above zero",
-        "between breakpoints use the lower of the two neighbouring currents (conservative); outside the "
-        "breakpoints, none",
     )
     return SafeEnvelope(stage, v, lo, limit, pulse_s, duty, notes)
-
-
-def round_down(value: float, digits: int = 6) -> float:
-    """``value`` to ``digits`` significant digits, never rounded up (a limit must not grow)."""
-    if value <= 0 or not math.isfinite(value):
-        return max(value, 0.0) if math.isfinite(value) else 0.0
-    scale = 10.0 ** (digits - 1 - math.floor(math.log10(value)))
-    return math.floor(value * scale) / scale
-
-
-def limit_table_c_header(table: SafeEnvelope, *, name: str = "SOA_LIMIT") -> str:
-    """The limit table as a C header a load's controller can include."""
-    n = table.voltage_v.size
-    volts = ", ".join(f"{v:.6g}f" for v in table.voltage_v)
-    amps = ", ".join(f"{round_down(i):.6g}f" for i in table.max_current_a)
-    comment = "\n".join(f" * - {note}" for note in table.assumptions)
-    return f"""/*
- * Safe total current of a linear load against its source voltage, written by soacheck.
- * Enforce it in the controller: between two breakpoints limit the current to the lower
- * of their two currents; outside the breakpoints allow nothing. Values are rounded down.
- * Assumptions:
-{comment}
- * It does not replace the datasheet, a measured prototype, local codes or licensed practice.
- */
-#ifndef {name}_H
-#define {name}_H
-
-#define {name}_POINTS {n}
-
-static const float {name}_VOLTAGE_V[{name}_POINTS] = {{{volts}}};
-static const float {name}_CURRENT_A[{name}_POINTS] = {{{amps}}};
-
-#endif /* {name}_H */
-"""

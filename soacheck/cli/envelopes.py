@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import math
 from dataclasses import replace
 from pathlib import Path
@@ -33,11 +32,12 @@ from soacheck.cli.base import (
 )
 from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
-from soacheck.envelope import SafeEnvelope, check_envelope, largest_safe_envelope, limit_table_c_header
+from soacheck.envelope import check_envelope, largest_safe_envelope
 from soacheck.errors import SoacheckError
 from soacheck.files import read_toml, read_trace
 from soacheck.jobfiles import discharge_from_table, read_envelope
 from soacheck.library import find_part, library_folders, list_parts, read_stage
+from soacheck.limit_table import export_writer, limit_table
 from soacheck.partfiles import read_part
 from soacheck.units import parse_duration
 
@@ -45,36 +45,7 @@ from soacheck.units import parse_duration
 def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
     if text is None:
         return np.geomspace(1.0, v_max_v, 25)
-    return np.sort(number_list(text, "--voltages", "10,20,40", positive=True))
-
-
-def _export_table(table: SafeEnvelope, path: Path, force: bool) -> None:
-    refuse_overwrite(path, force)
-    suffix = path.suffix.lower()
-    if suffix == ".csv":
-        lines = [f"# {note}" for note in table.assumptions]
-        lines.append("voltage,max_current,limit")
-        lines += [f"{float(p['voltage'])!r},{float(p['max_current'])!r},{p['limit']}" for p in table.points()]
-        text = "\n".join(lines) + "\n"
-    elif suffix == ".json":
-        text = (
-            json.dumps(
-                {
-                    "part": table.stage.part.id,
-                    "count": table.stage.count,
-                    "points": table.points(),
-                    "assumptions": list(table.assumptions),
-                },
-                indent=2,
-                ensure_ascii=False,
-            )
-            + "\n"
-        )
-    elif suffix == ".h":
-        text = limit_table_c_header(table)
-    else:
-        raise SoacheckError(f"--export: '{path}' must end in .csv, .json or .h")
-    path.write_text(text, encoding="utf-8")
+    return np.unique(number_list(text, "--voltages", "10,20,40", positive=True))
 
 
 @app.command()
@@ -137,10 +108,13 @@ def envelope(
                 else "[bold red]FAIL[/]: part of the envelope lies outside"
             )
         raise typer.Exit(0 if result.passed else 1)
+    if export is not None:
+        write_table = export_writer(export.suffix)
+        refuse_overwrite(export, force)
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = 1.0 if math.isinf(pulse_s) else duty_option(duty, pulse_s) if duty is not None else 0.0
     with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
-        table = largest_safe_envelope(
+        safe = largest_safe_envelope(
             loaded,
             _voltages(voltages, loaded.part.ratings.v_max_v),
             pulse_s=pulse_s,
@@ -148,8 +122,9 @@ def envelope(
             policy=policy,
             progress=progress,
         )
+    table = limit_table(safe)
     if export is not None:
-        _export_table(table, export, force)
+        export.write_text(write_table(table), encoding="utf-8")
     if plot is not None:
         from soacheck.plots import new_axes  # matplotlib: only when plotting
 
@@ -162,22 +137,14 @@ def envelope(
         ax.set_title(f"{loaded.part.id} × {loaded.count}: largest safe envelope", fontsize=10)
         ax.grid(True, which="both", lw=0.3, alpha=0.6)
         ax.figure.savefig(plot)
-    payload = {
-        "part": loaded.part.id,
-        "count": loaded.count,
-        "points": table.points(),
-        "assumptions": list(table.assumptions),
-    }
     if as_json:
-        echo_json(payload)
+        echo_json(table.to_dict())
         return
     out = RichTable(title=escape(f"{loaded.part.id} × {loaded.count}: largest safe envelope"), title_justify="left")
     for name in ("source V", "max total current", "max power", "limit"):
         out.add_column(name, justify="right" if name != "limit" else "left")
-    for p in table.points():
-        out.add_row(
-            f"{p['voltage']:.4g} V", f"{p['max_current']:.4g} A", f"{p['voltage'] * p['max_current']:.4g} W", p["limit"]
-        )
+    for v, i, lim in zip(table.voltage_v, table.max_current_a, table.limit, strict=True):
+        out.add_row(f"{v:.4g} V", f"{i:.3f} A", f"{math.floor(v * i * 10) / 10:.1f} W", lim)
     console.print(out)
     for note in table.assumptions:
         console.print(f"  assumed: {note}", highlight=False, markup=False)
