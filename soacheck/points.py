@@ -9,10 +9,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
-import pandas as pd
 
 from soacheck.boundary import Allowed, allowed_current, model_consistency
 from soacheck.derating import BreakdownDerating, breakdown_policy_note
@@ -20,6 +19,9 @@ from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 @dataclass(frozen=True, eq=False)
@@ -56,6 +58,8 @@ class PointCheck:
 
     def to_frame(self) -> pd.DataFrame:
         """One row per point, columns named as in the JSON output."""
+        import pandas as pd  # deferred: a command that prints no table starts without it
+
         return pd.DataFrame(
             {
                 "voltage": self.voltage_v,

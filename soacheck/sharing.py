@@ -15,7 +15,6 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.special
 
 if TYPE_CHECKING:
     from soacheck.stage import Stage
@@ -74,6 +73,8 @@ def share_current(
         out = np.zeros_like(shift)
         out[np.argmin(shift, axis=0), np.arange(shift.shape[1])] = total
         return out
+
+    import scipy.special  # deferred: scipy costs start-up time to commands that never use it
 
     def currents(vb: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         x = vb[None, :] - shift

@@ -26,9 +26,6 @@ from fractions import Fraction
 from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.linalg
-import scipy.optimize
-import scipy.signal
 
 from soacheck.errors import SoacheckError
 
@@ -128,6 +125,8 @@ class Cauer:
         conductance = np.diag(g + np.r_[0.0, g[:-1]])
         if n > 1:
             conductance -= np.diag(g[:-1], 1) + np.diag(g[:-1], -1)
+        import scipy.linalg  # deferred: scipy costs start-up time to commands that never use it
+
         lam, vec = scipy.linalg.eigh(conductance, np.diag(self.c_j_per_k))
         w = np.zeros(n) if weights is None else np.asarray(weights, dtype=float)
         if weights is None:

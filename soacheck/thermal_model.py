@@ -15,7 +15,6 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.optimize
 
 from soacheck.thermal import Foster
 
@@ -61,6 +60,8 @@ def fit_foster(t_s: np.ndarray, zth_k_per_w: np.ndarray, *, per_decade: int = 3)
     decades = math.log10(t[-1]) - math.log10(t[0]) + 2
     tau = np.logspace(math.log10(t[0]) - 1, math.log10(t[-1]) + 1, max(2, int(round(decades * per_decade)) + 1))
     design = -np.expm1(-t[:, None] / tau[None, :]) / z[:, None]
+    import scipy.optimize  # deferred: scipy costs start-up time to commands that never use it
+
     r, _ = scipy.optimize.nnls(design, np.ones_like(z))
     keep = r > 1e-12 * r.sum()
     foster = Foster(r[keep], tau[keep])

@@ -12,7 +12,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.signal
 
 from soacheck.thermal import Foster
 
@@ -124,6 +123,8 @@ def _pair_uniform(p, a_i, b_i, th_i, a_j, b_j, th_j) -> tuple[np.ndarray, float,
     """
     num = [0.0, b_i + b_j, -(b_i * a_j + b_j * a_i)]
     den = [1.0, -(a_i + a_j), a_i * a_j]
+    import scipy.signal  # deferred: scipy costs start-up time to commands that never use it
+
     zi = scipy.signal.lfiltic(num, den, [th_i / a_i + th_j / a_j, th_i / a_i**2 + th_j / a_j**2], [0.0, 0.0])
     y, _ = scipy.signal.lfilter(num, den, p, zi=zi)
     prev_i = (y[-1] - (b_i + b_j) * p[-2] - a_j * y[-2]) / (a_i - a_j)
@@ -134,6 +135,8 @@ def _pair_uniform(p, a_i, b_i, th_i, a_j, b_j, th_j) -> tuple[np.ndarray, float,
 def _branch_uniform(p: np.ndarray, a: float, b: float, theta0: float) -> np.ndarray:
     """θ[0] = θ0, θ[k+1] = a θ[k] + b p[k] with constant a, via lfilter."""
     # y[k] = a y[k-1] + b x[k-1]  <=>  lfilter([0, b], [1, -a])
+    import scipy.signal  # deferred: scipy costs start-up time to commands that never use it
+
     y, _ = scipy.signal.lfilter([0.0, b], [1.0, -a], p, zi=[theta0])
     return y
 
