@@ -57,6 +57,12 @@ class Envelope:
     case_temp_c: float | None = None
 
     def __post_init__(self) -> None:
+        if self.v_min_v <= 0 < self.v_max_v:
+            raise SoacheckError(
+                f"envelope: voltage starts at {self.v_min_v:g} V; start it at the lowest source voltage the load "
+                f"must work at, above 0 V, such as [1, {self.v_max_v:g}] (SOA curves are drawn on log axes from a "
+                "few volts, and the stage's resistors take the last volts)"
+            )
         if not (0 < self.v_min_v < self.v_max_v and math.isfinite(self.v_max_v)):
             raise SoacheckError(
                 f"envelope: voltage range [{self.v_min_v:g}, {self.v_max_v:g}] V is empty; give [low, high] with "

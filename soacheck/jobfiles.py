@@ -86,7 +86,7 @@ def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
     span = data["voltage"]
     if not isinstance(span, list) or len(span) != 2:
         raise SoacheckError(f"{where}: voltage must be a range [low, high] in V, such as [5, 40]")
-    v_lo = toml_number(f"{where}: voltage[0]", span[0])
+    v_lo = toml_number(f"{where}: voltage[0]", span[0], positive=False)  # 0 V: Envelope says what to give
     v_hi = toml_number(f"{where}: voltage[1]", span[1])
     pulse_s = parse_duration(str(data.get("pulse", "dc")), where=f"{where}: pulse")
     if "duty" in data:
@@ -105,16 +105,12 @@ def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
     ambient = (
         None if case_temp is not None else toml_number(f"{where}: ambient", data.get("ambient", 25.0), positive=False)
     )
-    return Envelope(
-        v_lo,
-        v_hi,
-        toml_number(f"{where}: current", data["current"]),
-        toml_number(f"{where}: power", data["power"]),
-        pulse_s,
-        duty,
-        ambient,
-        case_temp,
-    )
+    current = toml_number(f"{where}: current", data["current"])
+    power = toml_number(f"{where}: power", data["power"])
+    try:
+        return Envelope(v_lo, v_hi, current, power, pulse_s, duty, ambient, case_temp)
+    except SoacheckError as err:
+        raise SoacheckError(f"{where}: {str(err).removeprefix('envelope: ')}") from None
 
 
 def read_envelope(path: str | Path) -> Envelope:

@@ -153,6 +153,26 @@ def plot_soa(
     return ax
 
 
+def plot_point_check(
+    part: Part, points: PointCheck, *, policy: BreakdownDerating = "auto", ax: Axes | None = None
+) -> Axes:
+    """Checked points over the boundary at the case temperatures and pulse width they were checked at.
+
+    The boundary is drawn at every distinct case temperature of the points (the lowest and
+    the highest when there are more than four) for the points' common pulse width; points of
+    mixed widths are drawn over the DC boundary, and the title says so.
+    """
+    temps = sorted({float(t) for t in np.asarray(points.tc_c).ravel() if np.isfinite(t)})
+    if len(temps) > 4:
+        temps = [temps[0], temps[-1]]
+    widths = {float(t) for t in np.asarray(points.pulse_s).ravel()}
+    pulse_s = widths.pop() if len(widths) == 1 else DC
+    ax = plot_soa(part, case_temps_c=temps, pulse_s=pulse_s, points=points, policy=policy, ax=ax)
+    if len(widths) > 0:
+        ax.set_title(f"{part.id}: points of several pulse widths over the DC boundary", fontsize=10)
+    return ax
+
+
 def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "auto") -> Figure:
     """Two panels: the trajectory on the part's SOA coloured by time, and Tj(t) with the margin.
 

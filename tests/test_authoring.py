@@ -85,7 +85,7 @@ def test_round_trip_of_picked_points_within_one_pixel(drawn, tmp_path):
     pd.DataFrame({"x": np.round(px), "y": np.round(py)}).to_csv(picked, index=False)
     x_cal, y_cal = calibrations(drawn)
     out = tmp_path / "soa.csv"
-    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "-o", str(out)])
+    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)])
     assert result.exit_code == 0, result.output
     rows = pd.read_csv(out)
     tolerance = one_pixel_relative(drawn) + 1e-3  # + the 4-digit rounding of the output
@@ -111,7 +111,7 @@ def test_digitize_adds_a_curve_and_never_loses_rows(tmp_path):
     out.write_text(REFERENCE_SOA)
     picked = tmp_path / "p.csv"
     picked.write_text("x,y\n100,300\n400,100\n")
-    args = ["digitize", str(picked), "--x", "100=1,400=1000", "--y", "300=1,100=100", "-o", str(out)]
+    args = ["digitize", str(picked), "--x", "100=1,400=1000", "--y", "300=1,100=100", "--into", str(out)]
     result = runner.invoke(app, [*args, "--pulse", "100us"])
     assert result.exit_code == 0, result.output
     after = out.read_text()
@@ -136,7 +136,7 @@ def test_digitize_a_zth_curve(tmp_path):
     picked.write_text("x,y\n0,400\n300,100\n")
     out = tmp_path / "zth.csv"
     result = runner.invoke(
-        app, ["digitize", str(picked), "--zth", "--x", "0=1e-5,300=1e-2", "--y", "400=0.01,100=1", "-o", str(out)]
+        app, ["digitize", str(picked), "--zth", "--x", "0=1e-5,300=1e-2", "--y", "400=0.01,100=1", "--into", str(out)]
     )
     assert result.exit_code == 0, result.output
     assert out.read_text().splitlines() == ["time,zth", "1e-05,0.01", "0.01,1"]

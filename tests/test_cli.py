@@ -72,19 +72,19 @@ def test_show_writes_png_svg_pdf_and_never_overwrites_without_force(tmp_path):
     points.write_text("voltage,current\n10,2\n50,3\n")
     for suffix in ("png", "svg", "pdf"):
         out = tmp_path / f"soa.{suffix}"
-        result = invoke("show", "demo-nmos-to247-300w", "--points", points, "-o", out, "--case-temp", "25,100")
+        result = invoke("show", "demo-nmos-to247-300w", "--points", points, "--plot", out, "--case-temp", "25,100")
         assert result.exit_code == 0, result.output
         assert out.stat().st_size > 1000
     before = (tmp_path / "soa.png").read_bytes()
-    result = invoke("show", "demo-npn-to3-250w", "-o", tmp_path / "soa.png")
+    result = invoke("show", "demo-npn-to3-250w", "--plot", tmp_path / "soa.png")
     assert result.exit_code == 2 and "--force" in result.stderr
     assert (tmp_path / "soa.png").read_bytes() == before
-    assert invoke("show", "demo-npn-to3-250w", "-o", tmp_path / "soa.png", "--force").exit_code == 0
+    assert invoke("show", "demo-npn-to3-250w", "--plot", tmp_path / "soa.png", "--force").exit_code == 0
 
 
 def test_svg_plot_shows_every_mechanism_of_the_fet(tmp_path):
     out = tmp_path / "fet.svg"
-    assert invoke("show", "demo-nmos-to247-300w", "-o", out).exit_code == 0
+    assert invoke("show", "demo-nmos-to247-300w", "--plot", out).exit_code == 0
     text = out.read_text()
     for label in ("on-resistance", "current limit", "thermal (constant power)", "thermal instability"):
         assert label in text

@@ -53,8 +53,14 @@ def digitize(
     colour: Annotated[
         str | None, typer.Option("--colour", help="Follow the curve of this colour (#rrggbb) in --image.")
     ] = None,
-    output: Annotated[
-        Path | None, typer.Option("--output", "-o", help="soa.csv (or zth.csv) to add the curve to.")
+    into: Annotated[
+        Path | None,
+        typer.Option(
+            "--into",
+            metavar="FILE",
+            show_default="soa.csv or zth.csv",
+            help="The soa.csv (or zth.csv) to add the curve to.",
+        ),
     ] = None,
     force: ForceOpt = False,
 ) -> None:
@@ -75,7 +81,7 @@ def digitize(
     if px.size < 2:
         raise SoacheckError("a curve needs at least two points")
     values_x, values_y = pixels_to_values(px, py, x_axis, y_axis)
-    target = output or Path("zth.csv" if zth else "soa.csv")
+    target = into or Path("zth.csv" if zth else "soa.csv")
     if zth:
         write_zth(target, values_x, values_y, force=force)
         typer.echo(f"wrote {values_x.size} Zth points to {target}")

@@ -12,27 +12,84 @@ import json
 import math
 import os
 import sys
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Annotated, Any
 
 import numpy as np
 import typer
 from rich.console import Console
+from typer.core import TyperGroup
 
+from soacheck import __version__
 from soacheck.derating import BreakdownDerating
-from soacheck.errors import SoacheckError
+from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.library import find_part, library_folders, read_stage
 from soacheck.parts import Part
 from soacheck.stage import Stage
 
+
+def _plain_metavar(param) -> str:
+    """A help label a person reads (FILE, NUMBER ...) instead of a Python type such as ``<float>``."""
+    if getattr(param, "is_flag", False):
+        return ""
+    annotation = getattr(getattr(param, "type_descriptor", None), "annotation", None)
+    name = getattr(annotation, "__name__", "") or str(annotation)
+    if "Path" in str(annotation):
+        return "DIR" if "list" in str(annotation) else "FILE"
+    return {"float": "NUMBER", "int": "INTEGER"}.get(name, "TEXT")
+
+
+def _tidy_help(params) -> None:
+    """Plain labels in help: FILE, NUMBER ... for values, nothing for flags, no Python types."""
+    for param in params:
+        if param.param_type_name == "argument":
+            param.metavar = param.metavar or param.name.upper()
+            param.display_type_rich = lambda ctx: ""  # the name is the label already
+        elif param.metavar is None:
+            param.metavar = _plain_metavar(param)
+
+
+class _Commands(TyperGroup):
+    """The command group: every parameter gets a plain label in help (see :func:`_tidy_help`)."""
+
+    def get_params(self, ctx):  # noqa: D102
+        params = super().get_params(ctx)
+        _tidy_help(params)
+        return params
+
+    def get_command(self, ctx, cmd_name):  # noqa: D102
+        command = super().get_command(ctx, cmd_name)
+        if command is not None:
+            _tidy_help(command.get_params(ctx))
+        return command
+
+
 app = typer.Typer(
     name="soacheck",
+    cls=_Commands,
     help="Check linear-mode operating points of power transistors against their derated safe operating area.",
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
 )
+
+
+def _print_version(value: bool) -> None:
+    if value:
+        typer.echo(f"soacheck {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _options(
+    version: Annotated[
+        bool, typer.Option("--version", callback=_print_version, is_eager=True, help="Print the version and exit.")
+    ] = False,
+) -> None:
+    """Check linear-mode operating points of power transistors against their derated safe operating area."""
+
 
 SAFETY_NOTE = (
     "soacheck's answer rests on digitized datasheet curves and the assumptions listed; it does not replace "
@@ -50,10 +107,12 @@ PolicyOpt = Annotated[
     str,
     typer.Option(
         "--breakdown-derating",
-        help="How second breakdown / instability derates: auto (part's table, else like thermal), thermal, none.",
+        metavar="CHOICE",
+        help="How second breakdown / thermal instability derates: auto (the part's table, else like the "
+        "constant-power limit), thermal (like the constant-power limit), none.",
     ),
 ]
-PlotOpt = Annotated[Path | None, typer.Option("--plot", help="Write the plot (.png, .svg or .pdf).")]
+PlotOpt = Annotated[Path | None, typer.Option("--plot", metavar="FILE", help="Write the plot (.png, .svg or .pdf).")]
 ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
 
 
@@ -110,10 +169,16 @@ def progress_bar(description: str, *, total: float | None = None, quiet: bool = 
         yield update
 
 
+def choice_option(text: str, choices: Sequence[str], option: str) -> str:
+    """The choice named by ``text``, in any letter case (``CC`` is ``cc``); one clear error otherwise."""
+    value = text.strip().lower()
+    if value not in choices:
+        raise SoacheckError(f"{option}: '{text}' is not one of {', '.join(choices)}{did_you_mean(value, choices)}")
+    return value
+
+
 def policy_option(text: str) -> BreakdownDerating:
-    if text not in ("auto", "thermal", "none"):
-        raise SoacheckError(f"--breakdown-derating: '{text}' is not one of auto, thermal, none")
-    return text  # type: ignore[return-value]
+    return choice_option(text, ("auto", "thermal", "none"), "--breakdown-derating")  # type: ignore[return-value]
 
 
 def duty_option(duty: float | None, pulse_s: float) -> float:

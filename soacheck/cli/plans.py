@@ -77,7 +77,8 @@ def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, li
 def run(
     plan: Annotated[Path, typer.Argument(help="Plan file (TOML): a stage and its jobs.")],
     out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Folder for the report [default: PLAN-report].")
+        Path | None,
+        typer.Option("--out", "-o", metavar="DIR", show_default="PLAN-report", help="Folder for the report."),
     ] = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
@@ -92,7 +93,9 @@ def run(
 @app.command()
 @user_errors
 def demo(
-    out: Annotated[Path, typer.Option("--out", "-o", help="Folder for the demo's report.")] = Path(DEMO_FOLDER),
+    out: Annotated[Path, typer.Option("--out", "-o", metavar="DIR", help="Folder for the demo's report.")] = Path(
+        DEMO_FOLDER
+    ),
     force: ForceOpt = False,
 ) -> None:
     """Run the bundled demo plan (a workshop's pack-test bench, invented parts) into a report."""

@@ -15,6 +15,7 @@ from soacheck.cli.base import (
     ForceOpt,
     JsonOpt,
     LibraryOpt,
+    PlotOpt,
     PolicyOpt,
     app,
     console_for_output,
@@ -97,12 +98,17 @@ def check(
         float | None,
         typer.Option("--duty", help="Duty cycle of a pulse train, in (0, 1]; a single pulse when absent."),
     ] = None,
+    plot: PlotOpt = None,
     breakdown_derating: PolicyOpt = "auto",
     library: LibraryOpt = None,
+    force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
     policy = policy_option(breakdown_derating)
+    if plot is not None:
+        plot_suffix(plot)
+        refuse_overwrite(plot, force)
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = duty_option(duty, pulse_s)
     if not math.isfinite(case_temp):
@@ -122,7 +128,12 @@ def check(
             if not (math.isfinite(value) and value > 0):
                 raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
         v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
-    result = check_points(v, i, part_option(part, library), tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    loaded = part_option(part, library)
+    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    if plot is not None:
+        from soacheck.plots import plot_point_check  # matplotlib: only when plotting
+
+        plot_point_check(loaded, result, policy=policy).figure.savefig(plot)
     if as_json:
         echo_json(check_payload(result))
     else:
@@ -181,8 +192,9 @@ def show(
     ] = "25,75,125",
     pulse: Annotated[str, typer.Option("--pulse", help="Curve to derate: 'dc' or a pulse width.")] = "dc",
     points: Annotated[Path | None, typer.Option("--points", "-p", help="CSV of points to check and draw.")] = None,
-    output: Annotated[
-        Path | None, typer.Option("--output", "-o", help="Plot file: .png, .svg or .pdf [default: PART-soa.png].")
+    plot: Annotated[
+        Path | None,
+        typer.Option("--plot", metavar="FILE", show_default="PART-soa.png", help="Plot file: .png, .svg or .pdf."),
     ] = None,
     breakdown_derating: PolicyOpt = "auto",
     library: LibraryOpt = None,
@@ -192,7 +204,7 @@ def show(
     loaded = part_option(part, library)
     policy = policy_option(breakdown_derating)
     pulse_s = parse_duration(pulse, where="--pulse")
-    output = output or Path(f"{loaded.id}-soa.png")
+    output = plot or Path(f"{loaded.id}-soa.png")
     plot_suffix(output)
     refuse_overwrite(output, force)
     checked = None

@@ -22,6 +22,7 @@ from soacheck.cli.base import (
     PolicyOpt,
     app,
     check_outputs,
+    choice_option,
     console_for_output,
     echo_json,
     policy_option,
@@ -91,8 +92,7 @@ def discharge(
     policy = policy_option(breakdown_derating)
     loaded = stage_option(stage, library)
     pack = battery_from(battery, cells, capacity, internal_resistance)
-    if mode not in MODES:
-        raise SoacheckError(f"--mode: '{mode}' is not one of cc, cp, cr")
+    mode = choice_option(mode, MODES, "--mode")
     check_outputs(samples, plot, force)
 
     def run_at(value: float) -> StageRun:
@@ -137,6 +137,7 @@ def sweep(
     if math.isinf(seconds):
         raise SoacheckError("--time must be a duration such as 10s, not dc")
     check_outputs(samples, plot, force)
+    ramp = choice_option(ramp, ("current", "voltage", "power"), "--ramp")
     path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
     run = run_stage(loaded, path.time_s, path.source_v, path.total_a, policy=policy)
     _report_run(run, path.label, as_json=as_json, plot=plot, extra={})
