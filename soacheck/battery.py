@@ -8,8 +8,8 @@ every mode), then laid on a uniform time grid for the thermal model.
 References
 ----------
 - Terminal voltage V_t = OCV(SoC) − I·R_int, dSoC/dt = −I/Q; constant power at the
-  terminals I = (E − √(E² − 4 R P))/(2R); constant resistance I = E/(R + R_int): methods.md
-  §7, elementary circuit analysis.
+  terminals I = (E − √(E² − 4 R P))/(2R); constant resistance I = E/(R + R_int):
+  elementary circuit analysis.
 - OCV tables: see each preset's ``source``; all are typical rested values at about 25 °C,
   recalled, not measured (from memory). Use your cell's own data where you have it.
 """

@@ -14,7 +14,7 @@ and their tolerances:
 - each pulse curve enclosing the longer ones (a shorter pulse is never allowed less);
 - slopes that fit no mechanism, and bends the wrong way: an SOA curve is concave on
   log-log axes, so a slope that rises from one segment to the next by more than the
-  digitizing noise (0.15) marks a misread point (methods.md §1);
+  digitizing noise (0.15) marks a misread point (common practice, no source);
 - points out of order, repeated voltages, currents that rise;
 - a Zth curve against rth_jc and the pulse curves; Foster terms against rth_jc;
 - derating tables that rise with temperature.

@@ -38,7 +38,7 @@ Limit = Literal[
 
 LIMITS: tuple[str, ...] = get_args(Limit)
 
-# Slope bands on log-log axes (methods.md §1, common practice): digitizing error of about
+# Slope bands on log-log axes (common practice, no source): digitizing error of about
 # ±2 % per coordinate gives slope errors of a few hundredths.
 CURRENT_BAND = 0.15
 ON_RESISTANCE_BAND = 0.15

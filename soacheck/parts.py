@@ -140,8 +140,9 @@ class Part:
 
         A width between two digitized widths takes the longer one; a width shorter than
         the shortest takes the shortest; a width longer than the longest pulse curve
-        takes DC. Interpolating between pulse curves is not conservative (see
-        ``methods.md`` §4), so none is done.
+        takes DC. Interpolating between pulse curves is not conservative (in log-log
+        interpolation a 3 ms curve between 1 ms and 10 ms lies above the true one;
+        common practice, no source), so none is done.
         """
         return self.curves[int(self.curve_index(pulse_s))]
 

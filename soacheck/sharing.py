@@ -109,7 +109,7 @@ def loop_gain(
     bipolar: bool,
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
 ) -> np.ndarray:
-    """Electro-thermal loop gain G = Rth·V_CE·|φ|/(R_E + r_e) of each device (methods.md §6).
+    """Electro-thermal loop gain G = Rth·V_CE·|φ|/(R_E + r_e) of each device (elementary derivation).
 
     G ≥ 1 means a device that warms takes more current faster than its ballast pushes it
     back: current hogging, thermal runaway. r_e = V_T/I for a bipolar part, 0 for a FET.

@@ -132,7 +132,7 @@ def run_stage(
     heatsink is one lumped node driven by the devices' total power (resistors are assumed
     mounted elsewhere); each case sits P_k·R_cs above it; each junction follows its own
     Foster network on top of its case (quasi-static: conservative, since the sink's time
-    constant is minutes and the device's at most about a second; methods.md §5). Each
+    constant is minutes and the device's at most about a second; common practice, no source). Each
     device is checked at every sample against its DC boundary derated at its own case
     temperature, and its junction against tj_max.
     """

@@ -13,7 +13,7 @@ References
   Elektrotechnik 17 (1926); E. A. Guillemin, *Synthesis of Passive Networks*, Wiley 1957
   (from memory).
 - Periodic steady state of a first-order section driven by rectangular pulses: the
-  geometric series of its step responses (elementary; see methods.md §3).
+  geometric series of its step responses (elementary derivation).
 - The two-pulse superposition approximation for a pulse train: the transient thermal
   resistance method of power-semiconductor application notes (from memory).
 """
@@ -118,7 +118,7 @@ class Cauer:
         -----
         Solves G v = λ C v with vᵀ C v = 1 (``scipy.linalg.eigh``); then the transfer
         impedance from node 1 to node i is Σₖ vₖ[i] vₖ[1] / (s + λₖ), so τₖ = 1/λₖ and
-        Rₖ = (wᵀvₖ) vₖ[1] / λₖ (methods.md §3, elementary).
+        Rₖ = (wᵀvₖ) vₖ[1] / λₖ (elementary derivation).
         """
         g = 1.0 / self.r_k_per_w
         n = g.size
@@ -171,7 +171,7 @@ def pulse_train_zth(
     References
     ----------
     Elementary: the sum of a geometric series of first-order step responses per Foster
-    branch (methods.md §3).
+    branch.
     """
     tp = np.asarray(tp_s, dtype=float)[..., None]
     d = np.asarray(duty, dtype=float)[..., None]
@@ -192,7 +192,7 @@ def pulse_train_zth_superposition(
     References
     ----------
     The transient thermal resistance method of power-semiconductor application notes
-    (from memory); methods.md §3.
+    (from memory).
     """
     tp = np.asarray(tp_s, dtype=float)
     d = np.asarray(duty, dtype=float)

@@ -46,7 +46,7 @@ def fit_foster(t_s: np.ndarray, zth_k_per_w: np.ndarray, *, per_decade: int = 3)
 
     Non-negative least squares (``scipy.optimize.nnls``) of the relative error on a fixed
     grid of time constants, ``per_decade`` per decade from a decade below the shortest to
-    a decade above the longest digitized time (methods.md §3, common practice).
+    a decade above the longest digitized time (common practice, no source).
 
     Parameters
     ----------

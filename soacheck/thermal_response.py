@@ -56,7 +56,8 @@ def temperature_rise(
     Notes
     -----
     Per branch, with aᵢ = exp(−Δt/τᵢ): θᵢ[k+1] = aᵢ θᵢ[k] + Rᵢ (1 − aᵢ) P[k], exact for
-    any step (methods.md §3). Uniform steps run through ``scipy.signal.lfilter``, two
+    any step (elementary derivation: each branch's first-order step response, the power
+    held over the step). Uniform steps run through ``scipy.signal.lfilter``, two
     branches at a time as one second-order section where that is accurate; other steps
     through a blocked prefix sum in which every exponent stays below e^600.
     """

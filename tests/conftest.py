@@ -10,7 +10,7 @@ from soacheck.library import bundled_library, list_parts
 from soacheck.partfiles import read_part
 from soacheck.thermal import Foster
 
-# The constructed DC curve of methods.md §1-§2 [con]: current limit 15 A to 8.3333 V,
+# A constructed DC curve (invented numbers): current limit 15 A to 8.3333 V,
 # constant power 125 W to 40 V, a second-breakdown line of slope -2 to 100 V.
 # tj_max 150 °C and rth_jc 1.0 K/W make p_max = (150 - 25)/1.0 = 125 W consistent.
 REFERENCE_SOA = """pulse,voltage,current
@@ -27,7 +27,7 @@ dc,100,0.5
 REFERENCE_TOML = """id = "{id}"
 kind = "{kind}"
 description = "constructed test part"
-source = "methods.md sections 1-2, constructed example"
+source = "constructed example, invented numbers"
 {extra_top}
 [ratings]
 v_max = 100
@@ -51,7 +51,7 @@ def write_part(
     return folder
 
 
-# methods.md §3 [con]: a four-term network whose sum, 1.0 K/W, equals the reference part's rth_jc
+# constructed: a four-term network whose sum, 1.0 K/W, equals the reference part's rth_jc
 FOUR = Foster([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1])
 THERMAL = "[thermal]\nfoster_r = [0.05, 0.15, 0.30, 0.50]\nfoster_tau = [1e-4, 1e-3, 1e-2, 1e-1]\n"
 

@@ -28,7 +28,7 @@ from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
-# the reference DC curve of methods.md §1 [con]
+# the reference DC curve (constructed; conftest.REFERENCE_SOA)
 KNOWN_V = np.array([1.0, 8.3333, 40.0, 100.0])
 KNOWN_I = np.array([15.0, 15.0, 3.125, 0.5])
 CURVE_COLOUR = "#d1495b"

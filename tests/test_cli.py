@@ -1,7 +1,7 @@
 """The ``soacheck`` command through typer's CliRunner: outputs, exit codes, files.
 
-Expected allowed currents are computed by hand from the derating rules (methods.md §2,
-constructed example; P = (tj_max - Tc)/Rth_jc per JEDEC JESD51-1).
+Expected allowed currents are computed by hand from the derating rules (a constructed
+example; P = (tj_max - Tc)/Rth_jc, the definition of Rth_jc in JEDEC JESD51-1).
 """
 
 from __future__ import annotations

@@ -1,8 +1,8 @@
 """Envelopes, the largest safe envelope and its limit table, and candidate comparison.
 
-Check values: the reference part's constructed curve (methods.md §1-§2, hand-computed
+Check values: the reference part's constructed curve (conftest, hand-computed
 limits), the steady-state heatsink relation Tj = Ta + P (Rth_jc + Rth_cs + Rth_sa)
-(methods.md §5; JEDEC JESD51-1 for the definition of Rth), and the facts of the trade on
+(resistances in series, elementary; JEDEC JESD51-1 for the definition of Rth), and the facts of the trade on
 package classes, marked as such.
 """
 
@@ -59,7 +59,7 @@ def test_single_device_envelope_by_hand(ref_part):
 
 
 def test_heatsink_settles_at_the_worst_power(ref_part):
-    # Tj = Ta + P (Rth_jc + Rth_cs + Rth_sa) in steady state (methods.md §5): one device, 50 W
+    # Tj = Ta + P (Rth_jc + Rth_cs + Rth_sa) in steady state (resistances in series, elementary): one device, 50 W
     stage = Stage(ref_part, 1, cooling=Cooling(0.5, 0.5, 100.0, 30.0))
     state = steady_state(stage, np.array([10.0]), np.array([5.0]))
     assert state.junction_c[0, 0] == pytest.approx(30 + 50 * (1.0 + 0.5 + 0.5))
@@ -72,7 +72,7 @@ def test_pulsed_envelope_uses_the_pulse_train_impedance(modelled_part):
     stage = Stage(modelled_part, 1, case_temp_c=25.0)
     env = Envelope(5.0, 30.0, 30.0, 600.0, pulse_s=1e-3, duty=0.1, ambient_c=None, case_temp_c=25.0)
     state = steady_state(stage, np.array([20.0]), np.array([20.0]), pulse_s=1e-3, duty=0.1)
-    # Tj = Tc + P Zth(tp, D): 400 W x 0.242263 K/W (methods.md §3 [con])
+    # Tj = Tc + P Zth(tp, D): 400 W x 0.242263 K/W (constructed network, closed form of the periodic train)
     assert state.junction_c[0, 0] == pytest.approx(25 + 400 * FOUR.zth_train(1e-3, 0.1))
     assert check_envelope(stage, env).passed is False  # 600 W: above 515.97 W the train allows
 
@@ -133,7 +133,7 @@ def test_largest_safe_envelope_json(tmp_path):
 # --------------------------------------------------------------------------- facts of the trade
 
 
-TYPICAL = {  # interface with grease (methods.md §5, from memory), an ordinary 0.5 K/W per device, 25 °C room
+TYPICAL = {  # interface with grease (from memory), an ordinary 0.5 K/W per device, 25 °C room
     "TO-220": 0.5,
     "TO-247": 0.3,
 }

@@ -1,5 +1,5 @@
-"""Pulse SOA from a part's thermal model: P = (tj_max - Tc)/Zth(tp, D) (methods.md §4,
-common practice; Zth(tp, D) the exact periodic steady state of the Foster network)."""
+"""Pulse SOA from a part's thermal model: P = (tj_max - Tc)/Zth(tp, D) (common
+practice, no source; Zth(tp, D) the exact periodic steady state of the Foster network)."""
 
 from __future__ import annotations
 
@@ -55,7 +55,8 @@ def test_cli_thermal_limit_is_tj_headroom_over_zth(tmp_path, tp_s, duty, tc_c):
 def test_a_pulse_train_allows_less_than_a_single_pulse(modelled_part):
     single = allowed_current(20.0, modelled_part, pulse_s=1e-3).current_a[0]
     train = allowed_current(20.0, modelled_part, pulse_s=1e-3, duty=0.1).current_a[0]
-    # methods.md §3 [con]: 125/0.178340 = 700.91 W single, 125/0.242263 = 515.97 W at D = 0.1.
+    # constructed network (conftest FOUR): 125/0.178340 = 700.91 W single, 125/0.242263 = 515.97 W at
+    # D = 0.1, Zth from the closed forms Σ Ri (1 - e^(-tp/τi)) and Σ Ri (1 - e^(-tp/τi))/(1 - e^(-T/τi)).
     # The single pulse's 35.05 A lies above the 1 ms curve's second-breakdown line extended to
     # 20 V, 10 (20/40)^m with m = ln(2/10)/ln(100/40), which bounds it instead.
     m = math.log(2 / 10) / math.log(100 / 40)

@@ -1,6 +1,6 @@
 """The SOA model: mechanisms, derating, the derated boundary and point checks.
 
-Check values come from the constructed example of methods.md §1-§2 (a curve built from
+Check values come from a constructed example (conftest.REFERENCE_SOA, a curve built from
 straight lines on log-log axes, so the expected numbers follow from I = P/V and
 I = I0 (V/V0)^m by hand), from the derating rule P = (tj_max - Tc)/Rth (JEDEC JESD51-1
 defines Rth_jc as (Tj - Tc)/P), and from shapely as a reference geometry library.
@@ -48,7 +48,7 @@ def test_thermal_factor_is_the_linear_derating_line(tc_c, expected):
 
 def test_breakdown_factor_follows_table_then_thermal(reference_part, reference_part_with_table):
     tc = np.array([25.0, 50.0, 75.0, 112.5, 150.0])
-    # no table: derated like thermal, the conservative default (methods.md §2, policy B)
+    # no table: derated like thermal, the conservative default (common practice, no source)
     assert breakdown_factor(tc, reference_part) == pytest.approx(thermal_factor(tc, 150.0))
     # the part's table, linear between rows: 1.0 @25, 0.9 @75, 0.8 @150 -> 0.95 @50, 0.85 @112.5
     assert breakdown_factor(tc, reference_part_with_table) == pytest.approx([1.0, 0.95, 0.9, 0.85, 0.0])
@@ -72,7 +72,7 @@ def test_a_rising_derating_table_is_read_as_its_running_minimum(tmp_path):
 @pytest.mark.parametrize(
     ("slope", "bipolar", "expected"),
     [
-        # bands of methods.md §1 (common practice, no source): digitizing noise of ±2 %
+        # slope bands (common practice, no source): digitizing noise of ±2 %
         (0.0, True, "current"),
         (-0.14, True, "current"),
         (-1.0, True, "thermal"),
@@ -113,7 +113,7 @@ def test_25c_reproduces_the_digitized_polyline(bundled_part):
 
 
 def test_between_vertices_the_boundary_is_straight_on_log_log_axes(reference_part):
-    # methods.md §1 [con]: on the constant-power segment (8.3333 V, 15 A)-(40 V, 3.125 A)
+    # constructed, by hand: on the constant-power segment (8.3333 V, 15 A)-(40 V, 3.125 A)
     # log-log interpolation gives 125 W / 20 V = 6.25 A; linear interpolation in (V, I)
     # would give 10.625 A, 70 % too much.
     got = allowed_current(20.0, reference_part)
@@ -131,7 +131,7 @@ def test_between_vertices_the_boundary_is_straight_on_log_log_axes(reference_par
 @pytest.mark.parametrize(
     ("tc_c", "voltage_v", "expected_a", "limit"),
     [
-        # methods.md §2 [con], by hand: f = 0.6 at 75 °C -> thermal 75 W
+        # constructed, by hand: f = (150 - 75)/(150 - 25) = 0.6 at 75 °C -> thermal 75 W
         (75.0, 20.0, 3.75, "thermal"),  # 75 W / 20 V
         (75.0, 6.0, 12.5, "thermal"),  # 75 W / 6 V, below the 15 A current limit: the knee moved left
         (75.0, 4.0, 15.0, "current"),  # the current limit is not derated
@@ -213,7 +213,7 @@ def test_a_pulse_between_two_curves_takes_the_longer_one(bundled_part):
     widths = bundled_part.pulse_widths_s
     between = math.sqrt(widths[0] * widths[1])
     v = np.geomspace(1.0, bundled_part.ratings.v_max_v, 50)
-    # without the thermal model (methods.md §4: interpolating between curves is not conservative)
+    # without the thermal model (interpolating between curves is not conservative; common practice, no source)
     mid = allowed_current(v, bundled_part, pulse_s=between, use_model=False).current_a
     longer = allowed_current(v, bundled_part, pulse_s=widths[1], use_model=False).current_a
     assert mid == pytest.approx(longer)
@@ -323,7 +323,7 @@ def test_path_crossing_lies_on_the_boundary(reference_part):
 
 def test_digitizing_noise_along_the_current_limit_is_tolerated(tmp_path):
     # a 2 % wobble along the current limit has a slope of about +0.01: still 'current'
-    # (band |m| <= 0.15, methods.md §1, common practice, no source)
+    # (band |m| <= 0.15, common practice, no source)
     soa = "pulse,voltage,current\ndc,1,15\ndc,4,15.3\ndc,8.3333,15\ndc,40,3.125\ndc,100,0.5\n"
     part = read_part(write_part(tmp_path / "noisy", soa=soa))
     got = allowed_current([2.0, 4.0], part)

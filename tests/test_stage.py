@@ -1,9 +1,9 @@
 """Parallel devices, batteries and sweeps through a stage.
 
 Sources: V_BE = V_T ln(I/I_S) with V_T = 25.7 mV and dV_BE/dT = -2 mV/K (Sedra & Smith,
-*Microelectronic Circuits*, from memory); the imbalance and loop gain of methods.md §6
-(elementary derivation, constructed case recomputed here); the battery relations of
-methods.md §7 (elementary circuit analysis); facts of the trade marked as such.
+*Microelectronic Circuits*, from memory); the imbalance and loop gain (elementary
+derivation, constructed case recomputed here); the battery relations (elementary circuit
+analysis); facts of the trade marked as such.
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ runner = CliRunner(env={"COLUMNS": "200"})
 
 
 def test_two_device_sharing_matches_the_closed_form():
-    """methods.md §6 [con]: 4 A, V_CE 20 V, Rth(j-sink) 1.5 K/W, sink 50 °C, ΔV 20 mV, R_E 0.22 Ω.
+    """Constructed: 4 A, V_CE 20 V, Rth(j-sink) 1.5 K/W, sink 50 °C, ΔV 20 mV, R_E 0.22 Ω.
 
     Isothermal: I1 - I2 = ΔV/(R_E + r_e) to first order, I1 = 2.0429 A; with self-heating
     2.0579 A, since the loop gain G = 1.5·20·0.002/(0.22 + 0.0257/2) = 0.258 amplifies the
@@ -54,7 +54,7 @@ def test_two_device_sharing_matches_the_closed_form():
 
 
 def test_loop_gain_reaches_one_at_the_critical_ballast():
-    # methods.md §6 [con]: R_E = 0 gives G = 4.67 (hogging); G = 1 at R_E = 0.0472 Ω
+    # constructed, from G = Rth V_CE |φ|/(R_E + r_e) by hand: R_E = 0 gives G = 4.67 (hogging); G = 1 at R_E = 0.0472 Ω
     assert loop_gain(np.array(2.0), 20.0, 1.5, ballast_ohm=0.0, bipolar=True) == pytest.approx(4.67, abs=0.01)
     assert loop_gain(np.array(2.0), 20.0, 1.5, ballast_ohm=0.0472, bipolar=True) == pytest.approx(1.0, abs=0.002)
 
@@ -72,7 +72,7 @@ def test_sharing_conserves_the_total_and_is_vectorized():
 
 
 def test_fet_sharing_is_set_by_the_source_resistors():
-    # with 1/g_m neglected: I1 - I2 = ΔV / R_S exactly (methods.md §6 with g_m -> infinity)
+    # with 1/g_m neglected: I1 - I2 = ΔV / R_S exactly (elementary, with g_m -> infinity)
     split = share_current(
         np.array([10.0]), np.full((2, 1), 25.0), np.array([-0.05, 0.0]), ballast_ohm=0.1, bipolar=False
     )
@@ -200,7 +200,7 @@ def constant_case_run(ref_part, trajectory):
 
 
 def test_constant_current_is_worst_at_the_start_and_constant_power_at_the_end(ref_part):
-    """methods.md §7 (common practice): constant current stresses second breakdown most at the
+    """Common practice, no source: constant current stresses second breakdown most at the
     start, where the voltage is highest; constant power draws its largest current at the end.
     Constructed pack: 7 V empty to 20 V full, 2 Ah, no internal resistance."""
     pack = Battery(Chemistry("linear", np.array([0.0, 1.0]), np.array([7.0, 20.0]), 7.0, "constructed"), 1, 2.0)
@@ -218,7 +218,7 @@ def test_constant_current_is_worst_at_the_start_and_constant_power_at_the_end(re
 def test_constant_power_and_resistance_currents():
     pack = Battery(PRESETS["nmc"], 10, 5.0, r_int_ohm=0.2)
     e = np.array([40.0])
-    # methods.md §7: I = (E - sqrt(E^2 - 4 R P))/(2R) and I = E/(R + R_int)
+    # elementary circuit analysis: I = (E - sqrt(E^2 - 4 R P))/(2R) and I = E/(R + R_int)
     assert discharge_current(e, pack, "cp", 200.0)[0] == pytest.approx((40 - math.sqrt(1600 - 160)) / 0.4)
     assert discharge_current(e, pack, "cr", 3.8)[0] == pytest.approx(10.0)
 

@@ -3,7 +3,7 @@
 Sources: the Foster and Cauer forms of thermal impedance (JEDEC JESD51-14, §2 and the
 annex on network models); the first-order RC step response (any circuits textbook, e.g.
 Sedra & Smith, *Microelectronic Circuits*, the RC step response, from memory); the
-constructed networks of methods.md §3 and §5, recomputed here by independent means
+constructed networks (invented numbers), recomputed here by independent means
 (``scipy.integrate.solve_ivp`` and ``scipy.optimize.brentq``) rather than pasted.
 """
 
@@ -20,7 +20,7 @@ from soacheck.thermal import Cauer, Foster, chain, foster_zth, pulse_train_zth_s
 from soacheck.thermal_model import fit_foster
 from soacheck.thermal_response import temperature_rise
 
-from .conftest import FOUR  # methods.md §3 [con]: a four-term junction-to-case network
+from .conftest import FOUR  # constructed: a four-term junction-to-case network
 
 
 def ladder_rhs(cauer: Cauer, power):
@@ -58,7 +58,7 @@ def test_zth_tends_to_rth():
 
 
 def test_four_term_values():
-    # methods.md §3 [con]: Zth(1 ms) = 0.178340, Zth(10 ms) = 0.437211 K/W
+    # by hand from Zth(t) = Σ Ri (1 - e^(-t/τi)): Zth(1 ms) = 0.178340, Zth(10 ms) = 0.437211 K/W
     assert FOUR.zth([1e-3, 1e-2]) == pytest.approx([0.178340, 0.437211], abs=5e-7)
 
 
@@ -66,7 +66,7 @@ def test_four_term_values():
 
 
 def test_foster_to_cauer_constructed_case():
-    # methods.md §3 [con], exact fractions: C'1 = 1/46, R'1 = 529/1015, C'2 = 41209/223560, R'2 = 486/1015
+    # constructed, continued fraction of Z(s) in exact fractions by hand (Cauer 1926; Guillemin 1957, from memory): C'1 = 1/46, R'1 = 529/1015, C'2 = 41209/223560, R'2 = 486/1015
     cauer = Foster([0.4, 0.6], [0.01, 0.1]).to_cauer()
     assert cauer.c_j_per_k == pytest.approx([1 / 46, 41209 / 223560], rel=1e-12)
     assert cauer.r_k_per_w == pytest.approx([529 / 1015, 486 / 1015], rel=1e-12)
@@ -79,7 +79,7 @@ def test_foster_to_cauer_invariants_and_round_trip_for_six_stages():
     foster = Foster([0.01, 0.03, 0.08, 0.2, 0.3, 0.45], [2e-5, 2e-4, 2e-3, 2e-2, 0.2, 2.0])
     cauer = foster.to_cauer()
     capacities = foster.tau_s / foster.r_k_per_w
-    # C'1 = 1/sum(1/Ci): at s -> inf the Foster capacities are in series (methods.md §3)
+    # C'1 = 1/sum(1/Ci): at s -> inf the Foster capacities are in series (elementary)
     assert cauer.c_j_per_k[0] == pytest.approx(1 / np.sum(1 / capacities), rel=1e-12)
     assert cauer.rth_k_per_w == pytest.approx(foster.rth_k_per_w, rel=1e-12)
     back = cauer.to_foster()
@@ -101,7 +101,7 @@ def test_cauer_ladder_against_solve_ivp():
 
 
 def test_pulse_train_exact_against_a_long_simulated_train():
-    """tp = 1 ms, D = 0.1 (methods.md §3 [con]: exact 0.242263, 100 periods of solve_ivp 0.2422611)."""
+    """tp = 1 ms, D = 0.1 (constructed: exact 0.242263, 100 periods of solve_ivp 0.2422611)."""
     tp, duty = 1e-3, 0.1
     period = tp / duty
     exact = FOUR.zth_train(tp, duty)
@@ -124,7 +124,7 @@ def test_pulse_train_approximations_and_why_single_pulse_is_not_safe():
     tp, duty = 1e-3, 0.1
     superposition = pulse_train_zth_superposition(tp, duty, FOUR.zth, FOUR.rth_k_per_w)
     simple = duty * FOUR.rth_k_per_w + (1 - duty) * FOUR.zth(tp)
-    # methods.md §3 [con]: two-pulse 0.248126, simple 0.260506; both above the exact 0.242263
+    # constructed, from the closed forms below: two-pulse 0.248126, simple 0.260506; both above the exact 0.242263
     assert superposition == pytest.approx(0.248126, abs=1e-6)
     assert simple == pytest.approx(0.260506, abs=1e-6)
     exact = FOUR.zth_train(tp, duty)
@@ -150,7 +150,7 @@ def wave(t):
 
 @pytest.mark.parametrize("dt", [1e-4, 0.1])
 def test_tj_along_a_stepped_waveform_is_exact_for_any_step(dt):
-    # methods.md §3 [con]: 100 W for 0-0.2 s, 50 W to 0.3 s, then 0: 93.233236, 56.708314, 4.291161 K
+    # constructed, sums of first-order step responses by hand: 100 W for 0-0.2 s, 50 W to 0.3 s, then 0: 93.233236, 56.708314, 4.291161 K
     t = np.round(np.arange(0, 0.5 + dt / 2, dt), 12)
     rise, _ = temperature_rise(t, wave(t), FOUR)
     at = [int(round(x / dt)) for x in WAVE_T[1:]]
@@ -186,7 +186,7 @@ def test_constant_power_settles_at_p_times_rth():
 
 
 def test_time_to_tj_max_at_constant_power():
-    # methods.md §3 [con]: from 25 °C to 150 °C at 300 W takes 8.7417 ms
+    # constructed: from 25 °C to 150 °C at 300 W takes 8.7417 ms
     t_hit = scipy.optimize.brentq(lambda t: 300 * FOUR.zth(t) - 125, 1e-6, 1.0, xtol=1e-12)
     assert t_hit == pytest.approx(8.7417e-3, abs=1e-7)
     t = np.linspace(0, 0.02, 20001)
@@ -230,7 +230,7 @@ def test_chunked_waveform_equals_one_pass(uneven):
 
 
 def test_heatsink_warm_up_matches_the_lumped_sink():
-    """methods.md §5 [con]: 0.4 kg aluminium (c_p 897 J/(kg K), from memory) = 358.8 J/K,
+    """Constructed: 0.4 kg aluminium (c_p 897 J/(kg K), from memory) = 358.8 J/K,
     Rth_sa 0.6, Rth_cs 0.3 K/W, Ta 25 °C, 60 W: Tc(60 s) = 51.757 °C, Tc(600 s) = 76.782 °C,
     Tc(inf) = 79.0 °C for a lumped sink with tau = Rth_sa C. The chain also carries the
     part's own (tiny) heat capacity, which delays the case by about 0.04 K at 60 s."""
@@ -275,7 +275,7 @@ def test_fit_recovers_a_known_curve_with_non_negative_terms():
 @pytest.mark.parametrize(
     ("r", "tau", "dt"),
     [
-        ([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1], 1e-5),  # methods.md §3 [con], paired
+        ([0.05, 0.15, 0.30, 0.50], [1e-4, 1e-3, 1e-2, 1e-1], 1e-5),  # constructed, paired
         ([0.02, 0.3, 0.6, 0.4], [1e-4, 2e-3, 5.0, 300.0], 1e-4),  # with a heatsink's minutes: stiff
         ([0.1, 0.5, 0.4], [1e-6, 1e-2, 1.0], 1e-3),  # a branch far faster than the step: not paired
     ],

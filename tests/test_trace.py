@@ -1,8 +1,8 @@
 """Trace checks: Tj along a pulse waveform against the closed form, excursions, chunking, bad input.
 
 The closed form for a periodic train is the periodic steady state of the Foster network
-(methods.md §3, elementary: a geometric series of first-order step responses); the
-limits are the reference part's constructed curves (methods.md §1-§2).
+(elementary derivation: a geometric series of first-order step responses); the
+limits are the reference part's constructed curves (conftest, computed by hand).
 """
 
 from __future__ import annotations
@@ -124,7 +124,9 @@ def test_chunked_trace_equals_one_pass(modelled, chunks, heatsink):
 
 
 def test_heatsink_warms_the_case(modelled):
-    # 60 W for 600 s on the methods.md §5 heatsink: the case reaches about 76.8 °C [con]
+    # 60 W for 600 s on a lumped heatsink (constructed): Rth_sa 0.6 K/W, 358.8 J/K (0.4 kg of aluminium,
+    # c_p 897 J/(kg K), from memory), Rth_cs 0.3 K/W, Ta 25 °C: Tc = 25 + 60 (0.3 + 0.6 (1 - e^(-600/215.28)))
+    # = 76.78 °C, the lumped sink's first-order step response (elementary)
     t = np.linspace(0, 600, 60001)
     result = check(
         modelled, t, np.full(t.size, 10.0), np.full(t.size, 6.0), tc_c=None, cooling=Cooling(0.3, 0.6, 358.8, 25.0)
