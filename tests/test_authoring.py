@@ -85,7 +85,9 @@ def test_round_trip_of_picked_points_within_one_pixel(drawn, tmp_path):
     pd.DataFrame({"x": np.round(px), "y": np.round(py)}).to_csv(picked, index=False)
     x_cal, y_cal = calibrations(drawn)
     out = tmp_path / "soa.csv"
-    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)])
+    result = runner.invoke(
+        app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)]
+    )
     assert result.exit_code == 0, result.output
     rows = pd.read_csv(out)
     tolerance = one_pixel_relative(drawn) + 1e-3  # + the 4-digit rounding of the output
