@@ -17,7 +17,10 @@ and their tolerances:
   digitizing noise (0.15) marks a misread point (common practice, no source);
 - points out of order, repeated voltages, currents that rise;
 - a Zth curve against rth_jc and the pulse curves; Foster terms against rth_jc;
-- derating tables that rise with temperature.
+- derating tables that rise with temperature;
+- transfer curves that never cross within their digitized currents: the zero-temperature-
+  coefficient point then lies beyond them, and the instability check is held at the last
+  digitized current (Spirito et al., MIEL 2002, for why the ZTC point matters).
 """
 
 from __future__ import annotations
@@ -33,7 +36,8 @@ from soacheck.boundary import allowed_current, model_consistency
 from soacheck.errors import SoacheckError
 from soacheck.files import read_table
 from soacheck.mechanisms import CURRENT_BAND, classify_slopes, mechanism_lines, segment_slopes
-from soacheck.partfiles import PART_FILE, SOA_FILE, ZTH_FILE, read_part, read_part_toml
+from soacheck.mosfet import ztc_point
+from soacheck.partfiles import PART_FILE, SOA_FILE, TRANSFER_FILE, ZTH_FILE, read_part, read_part_toml
 from soacheck.parts import Part
 
 Severity = Literal["error", "warning"]
@@ -61,11 +65,13 @@ def lint_part(folder: str | Path) -> list[Finding]:
         part = read_part(folder)
     except SoacheckError as err:
         text = str(err)
-        file = ZTH_FILE if ZTH_FILE in text else SOA_FILE if SOA_FILE in text else PART_FILE
+        named = [name for name in (ZTH_FILE, TRANSFER_FILE, SOA_FILE) if name in text]
+        file = named[0] if named else PART_FILE
         return _sorted([*found, Finding("error", file, _line_of(text), text)])
     found += _rating_findings(part)
     found += _curve_findings(part)
     found += _thermal_findings(part, folder)
+    found += _transfer_findings(part)
     return _sorted(found)
 
 
@@ -276,3 +282,35 @@ def _thermal_findings(part: Part, folder: Path) -> list[Finding]:
         file = PART_FILE if part.foster_r_k_per_w.size else ZTH_FILE
         found.append(Finding("warning", file, 0, message))
     return found
+
+
+def _transfer_findings(part: Part) -> list[Finding]:
+    """Whether the transfer curves cross (a ZTC point) within the currents every curve reaches."""
+    if part.transfer is None:
+        return []
+    ztc = ztc_point(part.transfer)
+    low, high = part.transfer.current_range_a
+    first_line = int(part.transfer.lines[0][0]) if part.transfer.lines else 0
+    if ztc.side == "above":
+        return [
+            Finding(
+                "warning",
+                TRANSFER_FILE,
+                first_line,
+                f"the curves do not cross below {high:g} A: the zero-temperature-coefficient point lies beyond the "
+                "digitized range, so no current above it is known to be stable and the instability check holds "
+                "the current there; digitize the curves to where they cross",
+            )
+        ]
+    if ztc.side == "below":
+        return [
+            Finding(
+                "warning",
+                TRANSFER_FILE,
+                first_line,
+                f"the hotter curve carries less current than the cooler one at every digitized current down to "
+                f"{low:g} A: the zero-temperature-coefficient point lies below the digitized range and no "
+                "instability can be found in it; digitize the curves down to lower currents",
+            )
+        ]
+    return []

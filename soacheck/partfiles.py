@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 
+from soacheck.bipolar import Gain
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.files import (
     check_keys,
@@ -20,18 +21,20 @@ from soacheck.files import (
     toml_text,
     write_folder,
 )
-from soacheck.parts import KINDS, Part, Ratings, SoaCurve
+from soacheck.mosfet import TransferCurves
+from soacheck.parts import BIPOLAR_KINDS, KINDS, Part, Ratings, SoaCurve
 from soacheck.units import format_duration, parse_duration
 
 PART_FILE = "part.toml"
 SOA_FILE = "soa.csv"
 ZTH_FILE = "zth.csv"
-_TOP_KEYS = ("id", "kind", "description", "source", "ratings", "derating", "thermal")
+TRANSFER_FILE = "transfer.csv"
+_TOP_KEYS = ("id", "kind", "description", "source", "ratings", "derating", "thermal", "gain", "darlington")
 _REQUIRED_TOP = ("id", "kind", "description", "source", "ratings")
 _RATING_KEYS = ("v_max", "i_max", "i_pulse_max", "p_max", "tj_max", "rth_jc")
 _REQUIRED_RATINGS = ("v_max", "i_max", "p_max", "tj_max", "rth_jc")
 _DERATING_KEYS = ("second_breakdown",)
-_THERMAL_KEYS = ("foster_r", "foster_tau")
+_PAIRED_KEYS = {"thermal": ("foster_r", "foster_tau"), "gain": ("current", "hfe")}
 
 
 def _number_list(where: str, value: Any) -> np.ndarray:
@@ -95,22 +98,29 @@ def read_part(folder: str | Path) -> Part:
 
     foster_r = foster_tau = np.zeros(0)
     if "thermal" in data:
-        thermal = data["thermal"]
-        if not isinstance(thermal, dict):
-            raise SoacheckError(f"{where}: 'thermal' must be a table: write [thermal] on its own line")
-        check_keys(f"{where} [thermal]", thermal, _THERMAL_KEYS, _THERMAL_KEYS)
-        foster_r = _number_list(f"{where}: thermal.foster_r", thermal["foster_r"])
-        foster_tau = _number_list(f"{where}: thermal.foster_tau", thermal["foster_tau"])
-        if foster_r.size != foster_tau.size:
-            raise SoacheckError(
-                f"{where}: thermal.foster_r has {foster_r.size} terms and foster_tau {foster_tau.size}; "
-                "give one time constant per resistance"
-            )
+        foster_r, foster_tau = _paired_lists(where, "thermal", data["thermal"], "one time constant per resistance")
+
+    bipolar = kind in BIPOLAR_KINDS
+    gain = _gain_table(where, data["gain"]) if "gain" in data else None
+    darlington = data.get("darlington", False)
+    if not isinstance(darlington, bool):
+        raise SoacheckError(f"{where}: darlington is {darlington!r}; write true or false")
+    if not bipolar and (gain is not None or darlington):
+        key = "[gain]" if gain is not None else "darlington"
+        raise SoacheckError(f"{where}: {key} describes a bipolar part, but kind is '{kind}'; remove it or fix kind")
 
     curves = read_soa_curves(folder / SOA_FILE, kind=kind, ratings=ratings)
     zth_time = zth_value = np.zeros(0)
     if (folder / ZTH_FILE).exists():
         zth_time, zth_value = read_zth(folder / ZTH_FILE)
+    transfer = None
+    if (folder / TRANSFER_FILE).exists():
+        if bipolar:
+            raise SoacheckError(
+                f"{folder / TRANSFER_FILE}: a transfer characteristic describes a FET or IGBT, but kind is "
+                f"'{kind}'; remove the file or fix kind in {PART_FILE}"
+            )
+        transfer = read_transfer(folder / TRANSFER_FILE)
     return Part(
         id=part_id,
         kind=kind,
@@ -124,8 +134,76 @@ def read_part(folder: str | Path) -> Part:
         foster_tau_s=foster_tau,
         zth_time_s=zth_time,
         zth_k_per_w=zth_value,
+        transfer=transfer,
+        gain=gain,
+        darlington=darlington,
         folder=folder,
     )
+
+
+def _paired_lists(where: str, name: str, value: Any, rule: str) -> tuple[np.ndarray, np.ndarray]:
+    """A table of two equally long lists of numbers above zero: ``[thermal]`` or ``[gain]``."""
+    if not isinstance(value, dict):
+        raise SoacheckError(f"{where}: '{name}' must be a table: write [{name}] on its own line")
+    keys = _PAIRED_KEYS[name]
+    check_keys(f"{where} [{name}]", value, keys, keys)
+    first, second = (_number_list(f"{where}: {name}.{key}", value[key]) for key in keys)
+    if first.size != second.size:
+        raise SoacheckError(
+            f"{where}: {name}.{keys[0]} has {first.size} values and {name}.{keys[1]} {second.size}; give {rule}"
+        )
+    return first, second
+
+
+def _gain_table(where: str, value: Any) -> Gain:
+    """``[gain]``: ``current = [...]`` (A, rising) and ``hfe = [...]`` (above zero), one h_FE per current."""
+    current, hfe = _paired_lists(where, "gain", value, "one h_FE per current")
+    back = np.flatnonzero(np.diff(current) <= 0)
+    if back.size:
+        k = int(back[0]) + 1
+        raise SoacheckError(
+            f"{where}: gain.current[{k}] = {current[k]:g} A does not rise above {current[k - 1]:g} A; "
+            "list currents from low to high"
+        )
+    return Gain(current, hfe)
+
+
+def read_transfer(path: Path) -> TransferCurves:
+    """Read a transfer characteristic: columns ``temp,vgs,current`` (°C, V, A), one curve per temperature.
+
+    At least two temperatures; each curve at least two points, listed from low to high gate
+    voltage, with the current above zero and rising with the gate voltage.
+    """
+    table = read_table(path, numeric=("temp", "vgs", "current"), positive=("current",))
+    frame = table.frame
+    temp = frame["temp"].to_numpy()
+    vgs = frame["vgs"].to_numpy()
+    current = frame["current"].to_numpy()
+    temps = np.unique(temp)
+    if temps.size < 2:
+        raise SoacheckError(
+            f"{path}: only one temperature ({temps[0]:g} °C); digitize the transfer curves at two or more junction "
+            "temperatures"
+        )
+    v_curves, i_curves, line_curves = [], [], []
+    for t in temps:
+        rows = np.flatnonzero(temp == t)
+        if rows.size < 2:
+            raise SoacheckError(f"{table.where(int(rows[0]))}: the {t:g} °C curve has one point; digitize at least two")
+        v, i = vgs[rows], current[rows]
+        for name, values, unit in (("vgs", v, "V"), ("current", i, "A")):
+            back = np.flatnonzero(np.diff(values) <= 0)
+            if back.size:
+                k = int(back[0]) + 1
+                raise SoacheckError(
+                    f"{table.where(int(rows[k]))}: {name} {values[k]:g} {unit} does not rise above "
+                    f"{values[k - 1]:g} {unit} in the {t:g} °C curve; list each curve from low to high gate voltage, "
+                    "the current rising with it"
+                )
+        v_curves.append(v)
+        i_curves.append(i)
+        line_curves.append(table.lines[rows])
+    return TransferCurves(temps, tuple(v_curves), tuple(i_curves), tuple(line_curves))
 
 
 def _derating_table(where: str, value: Any) -> tuple[np.ndarray, np.ndarray]:

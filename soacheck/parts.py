@@ -13,6 +13,8 @@ from typing import Literal
 
 import numpy as np
 
+from soacheck.bipolar import Gain
+from soacheck.mosfet import TransferCurves
 from soacheck.units import format_duration
 
 Kind = Literal["npn", "pnp", "nmos", "pmos", "igbt"]
@@ -99,6 +101,13 @@ class Part:
         Optional Foster terms of the junction-to-case thermal impedance, shape ``(m,)``. [K/W], [s]
     zth_time_s, zth_k_per_w
         Optional digitized single-pulse Zth curve (``zth.csv``), shape ``(k,)``. [s], [K/W]
+    transfer
+        Optional transfer characteristic at two or more junction temperatures
+        (``transfer.csv``; FET, IGBT), or None.
+    gain
+        Optional DC current gain against collector current (``[gain]``; bipolar), or None.
+    darlington
+        True for a Darlington pair (bipolar): two base-emitter junctions in series.
     folder
         Where the part was read from, or None.
     """
@@ -115,6 +124,9 @@ class Part:
     foster_tau_s: np.ndarray = field(default_factory=lambda: np.zeros(0))
     zth_time_s: np.ndarray = field(default_factory=lambda: np.zeros(0))
     zth_k_per_w: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    transfer: TransferCurves | None = None
+    gain: Gain | None = None
+    darlington: bool = False
     folder: Path | None = None
 
     @property
