@@ -71,10 +71,10 @@ def pulse_lines(part: Part, *, pulse_s: float = DC, duty: float = 0.0, use_model
     kept = [
         line
         for line in mechanism_lines(part, curve)[:-1]
-        if line.mechanism != "thermal" and not (rated and line.mechanism == "current")
+        if line.mechanism != "power" and not (rated and line.mechanism == "current")
     ]
     log_p = math.log((part.ratings.tj_max_c - REFERENCE_CASE_C) / float(model.pulse_zth(pulse_s, duty)))
-    thermal = MechanismLine("thermal", np.array([0.0, 1.0]), np.array([log_p, log_p - 1.0]))
+    thermal = MechanismLine("power", np.array([0.0, 1.0]), np.array([log_p, log_p - 1.0]))
     cap = MechanismLine("current", np.array([0.0]), np.array([math.log(rated or current_cap_a(part, curve))]))
     return PulseLines((*kept, thermal, cap), curve, True)
 
@@ -114,10 +114,10 @@ class Allowed:
 
 
 def _derated_lines(
-    log_v: np.ndarray, tc_c: np.ndarray, part: Part, lines: tuple[MechanismLine, ...], policy: BreakdownDerating
+    log_v: np.ndarray, tc_c: np.ndarray, part: Part, lines: tuple[MechanismLine, ...], breakdown: BreakdownDerating
 ) -> np.ndarray:
     """ln I of every derated mechanism line at every point, shape ``(lines, points)``."""
-    factors = mechanism_factors(tc_c, part, policy)
+    factors = mechanism_factors(tc_c, part, breakdown)
     with np.errstate(divide="ignore"):
         return np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
 
@@ -135,7 +135,7 @@ def allowed_current(
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
     duty: np.ndarray | float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     use_model: bool = True,
 ) -> Allowed:
     """Highest current the part may carry at each voltage, case temperature and pulse condition.
@@ -154,7 +154,7 @@ def allowed_current(
         than the shortest uses the shortest. [s]
     duty
         Duty cycle of a periodic pulse train, 0 for a single pulse, broadcast. [1]
-    policy
+    breakdown
         Derating of second breakdown or instability, see :data:`BreakdownDerating`.
     use_model
         Use the part's thermal model for the thermal limit of pulses (see :func:`pulse_lines`).
@@ -170,7 +170,7 @@ def allowed_current(
     for power-law segments; linear interpolation would lie above a falling segment).
     Below the lowest digitized voltage the first segment extends, capped by the rated
     current; above ``v_max`` nothing is allowed (limit ``voltage``); at or above
-    ``tj_max`` nothing is allowed (limit ``temperature``). A non-finite or non-positive
+    ``tj_max`` nothing is allowed (limit ``case_at_tj_max``). A non-finite or non-positive
     voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], gives
     NaN with limit ``invalid``.
     """
@@ -199,7 +199,7 @@ def allowed_current(
         for k, (width, train) in enumerate(conditions):
             sel = rows[group.ravel() == k]
             bound = pulse_lines(part, pulse_s=width, duty=train, use_model=use_model)
-            log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, bound.lines, policy))
+            log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, bound.lines, breakdown))
             allowed[sel] = np.exp(log_i)
             limit[sel] = np.array([line.mechanism for line in bound.lines], dtype=object)[which]
             curve_pulse[sel] = bound.curve.pulse_s
@@ -208,7 +208,7 @@ def allowed_current(
             above[sel] = v[sel] > bound.curve.voltage_v[-1] * (1 + 1e-9)
 
     too_hot = valid & (tc >= part.ratings.tj_max_c)
-    allowed[too_hot], limit[too_hot] = 0.0, "temperature"
+    allowed[too_hot], limit[too_hot] = 0.0, "case_at_tj_max"
     over_v = valid & (v > part.ratings.v_max_v)
     allowed[over_v], limit[over_v], above[over_v] = 0.0, "voltage", False
     return Allowed(allowed, limit.astype(str), curve_pulse, modelled, below, above)
@@ -266,7 +266,7 @@ def boundary_polyline(
     tc_c: float = REFERENCE_CASE_C,
     pulse_s: float = DC,
     duty: float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     use_model: bool = True,
     v_min_v: float | None = None,
 ) -> BoundaryPolyline:
@@ -279,7 +279,7 @@ def boundary_polyline(
     """
     bound = pulse_lines(part, pulse_s=pulse_s, duty=duty, use_model=use_model)
     v_lo = v_min_v if v_min_v is not None else bound.curve.voltage_v[0] / 10
-    return envelope_polyline(part, bound.lines, tc_c=tc_c, policy=policy, v_min_v=v_lo)
+    return envelope_polyline(part, bound.lines, tc_c=tc_c, breakdown=breakdown, v_min_v=v_lo)
 
 
 def envelope_polyline(
@@ -287,17 +287,17 @@ def envelope_polyline(
     lines: tuple[MechanismLine, ...],
     *,
     tc_c: float,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     v_min_v: float,
 ) -> BoundaryPolyline:
     """Exact vertices of the lower envelope of derated ``lines`` from ``v_min_v`` to ``v_max``."""
     x_lo, x_hi = math.log(v_min_v), math.log(part.ratings.v_max_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
-    y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, policy)
+    y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, breakdown)
     if np.all(np.isneginf(y)) or tc_c >= part.ratings.tj_max_c:
         v = np.exp(np.array([x_lo, x_hi]))
-        return BoundaryPolyline(v, np.zeros(2), np.array(["temperature", "temperature"]))
+        return BoundaryPolyline(v, np.zeros(2), np.array(["case_at_tj_max", "case_at_tj_max"]))
     # crossings of every pair of lines inside every interval between vertices
     finite = np.where(np.isfinite(y), y, -1e6)
     diff = finite[:, None, :] - finite[None, :, :]  # (lines, lines, points)
@@ -308,7 +308,7 @@ def envelope_polyline(
     xa, xb = x[:-1], x[1:]
     x_cross = (xa + t * (xb - xa))[cross]
     x = np.unique(np.r_[x, x_cross])
-    log_i, which = _lower_envelope(_derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, policy))
+    log_i, which = _lower_envelope(_derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, breakdown))
     mechanisms = np.array([line.mechanism for line in lines])[which]
     # drop vertices where nothing bends: crossings of lines that are not on the envelope
     slope = np.diff(log_i) / np.diff(x)
@@ -322,14 +322,14 @@ def evaluate_lines(
     lines: tuple[MechanismLine, ...],
     *,
     tc_c: np.ndarray | float,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
 ) -> tuple[np.ndarray, np.ndarray]:
     """Allowed current [A] and bounding mechanism of derated ``lines`` at voltages above zero.
 
     The voltage and case-temperature limits are not applied here; see :func:`allowed_current`.
     """
     v, tc = np.broadcast_arrays(np.asarray(voltage_v, dtype=float), np.asarray(tc_c, dtype=float))
-    log_i, which = _lower_envelope(_derated_lines(np.log(v), tc, part, lines, policy))
+    log_i, which = _lower_envelope(_derated_lines(np.log(v), tc, part, lines, breakdown))
     return np.exp(log_i), np.array([line.mechanism for line in lines])[which]
 
 
@@ -352,7 +352,7 @@ def model_consistency(part: Part, *, tolerance: float = 0.10) -> list[str]:
             f"thermal model: Zth(∞) = Σ R = {model.foster.rth_k_per_w:.4g} K/W differs from rth_jc = {rth:g} K/W"
         )
     for curve in part.curves[:-1]:
-        thermal = [line for line in mechanism_lines(part, curve) if line.mechanism == "thermal"]
+        thermal = [line for line in mechanism_lines(part, curve) if line.mechanism == "power"]
         if not thermal:
             continue
         digitized_w = float(np.exp(np.mean(np.concatenate([line.log_v + line.log_i for line in thermal]))))
@@ -372,7 +372,7 @@ def max_case_temp(
     *,
     pulse_s: float = DC,
     duty: float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     step_k: float = 0.05,
     lowest_c: float = -55.0,
 ) -> float | None:
@@ -390,7 +390,7 @@ def max_case_temp(
         return None
     bound = pulse_lines(part, pulse_s=pulse_s, duty=duty)
     grid = np.arange(lowest_c, part.ratings.tj_max_c, step_k)
-    factors = mechanism_factors(grid, part, policy)
+    factors = mechanism_factors(grid, part, breakdown)
     log_v = np.log(v)
     highest = np.inf
     for line in bound.lines:

@@ -39,7 +39,7 @@ class Candidate:
 
     part: str
     passes: bool
-    min_margin: float | None
+    margin: float | None
     limit: str
     min_count: int | None
     max_heatsink_rth: float | None
@@ -50,7 +50,7 @@ class Candidate:
         return {
             "part": self.part,
             "passes": self.passes,
-            "min_margin": self.min_margin,
+            "margin": self.margin,
             "limit": self.limit,
             "min_count": self.min_count,
             "max_heatsink_rth": self.max_heatsink_rth,
@@ -59,14 +59,16 @@ class Candidate:
         }
 
 
-def _alone(part: Part, envelope: Envelope, policy: BreakdownDerating, points: int) -> Candidate:
+def _alone(part: Part, envelope: Envelope, breakdown: BreakdownDerating, points: int) -> Candidate:
     """One device at the envelope's case temperature, no resistors: closed forms, no iteration."""
     if envelope.case_temp_c is None:
         raise SoacheckError("compare without --stage needs a case_temp in the envelope (one device at that case)")
     v, i = envelope.edge(points)
     pulsed = not math.isinf(envelope.pulse_s)
     duty = envelope.duty if pulsed else 0.0
-    allowed = allowed_current(v, part, tc_c=envelope.case_temp_c, pulse_s=envelope.pulse_s, duty=duty, policy=policy)
+    allowed = allowed_current(
+        v, part, tc_c=envelope.case_temp_c, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown
+    )
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed.current_a > 0, 1.0 - i / allowed.current_a, -np.inf)
     k = int(np.argmin(margin))
@@ -77,7 +79,7 @@ def _alone(part: Part, envelope: Envelope, policy: BreakdownDerating, points: in
         else math.inf
     )
     min_count = max(1, math.ceil(need * (1 - 1e-12))) if math.isfinite(need) and need <= MAX_COUNT else None
-    hottest = max_case_temp(v, i, part, pulse_s=envelope.pulse_s, duty=duty, policy=policy)
+    hottest = max_case_temp(v, i, part, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown)
     return Candidate(
         part.id,
         bool(margin[k] >= 0),
@@ -104,43 +106,43 @@ class TrajectoryJob:
 Job = Envelope | TrajectoryJob
 
 
-def _rate(job: Job, stage: Stage, policy: BreakdownDerating, points: int) -> tuple[bool, float | None, str, float]:
+def _rate(job: Job, stage: Stage, breakdown: BreakdownDerating, points: int) -> tuple[bool, float | None, str, float]:
     """(passes, least margin, limit there, source voltage there) of a stage on a job."""
     if isinstance(job, Envelope):
-        check = check_envelope(stage, job, policy=policy, points=points)
+        check = check_envelope(stage, job, breakdown=breakdown, points=points)
         summary = check.summary()
-        return check.passed, summary["min_margin"], str(summary["limit"]), float(summary["worst_voltage"])
+        return check.passed, summary["margin"], str(summary["limit"]), float(summary["worst_voltage"])
     path = job.trajectory
-    run = run_stage(stage, path.time_s, path.source_v, path.total_a, policy=policy)
+    run = run_stage(stage, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
     summary = run.summary()
-    k = int(np.argmin(np.abs(path.time_s - summary["worst_margin_time"])))
-    limit = summary["limit"] or str(run.limit[summary["worst_device"], k])
-    return run.passed, summary["worst_margin"], limit, float(path.source_v[k])
+    k = int(np.argmin(np.abs(path.time_s - summary["margin_time"])))
+    limit = summary["limit"] or str(run.limit[summary["device"] - 1, k])
+    return run.passed, summary["margin"], limit, float(path.source_v[k])
 
 
-def _single_trace(part: Part, job: TrajectoryJob, count: int, policy: BreakdownDerating):
+def _single_trace(part: Part, job: TrajectoryJob, count: int, breakdown: BreakdownDerating):
     """One device's share of a trace at a fixed case temperature, pulses credited as in ``trace``."""
-    checker = TraceChecker(part, tc_c=job.case_temp_c, policy=policy, plot_points=0)
+    checker = TraceChecker(part, tc_c=job.case_temp_c, breakdown=breakdown, plot_points=0)
     path = job.trajectory
     checker.feed(path.time_s, path.source_v, path.total_a / count)
     return checker.result()
 
 
-def _trace_alone(part: Part, job: TrajectoryJob, policy: BreakdownDerating) -> Candidate:
-    result = _single_trace(part, job, 1, policy)
-    min_count = fewest(lambda n: _single_trace(part, job, n, policy).passed, 1)
+def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -> Candidate:
+    result = _single_trace(part, job, 1, breakdown)
+    min_count = fewest(lambda n: _single_trace(part, job, n, breakdown).passed, 1)
     hottest = None
     if result.passed:
         hottest = highest_linear(
-            lambda tc: _single_trace(part, replace(job, case_temp_c=tc), 1, policy).passed,
+            lambda tc: _single_trace(part, replace(job, case_temp_c=tc), 1, breakdown).passed,
             job.case_temp_c,
             part.ratings.tj_max_c,
         )
-    k = int(np.argmin(np.abs(job.trajectory.time_s - (result.worst_margin_time_s or 0.0))))
+    k = int(np.argmin(np.abs(job.trajectory.time_s - (result.margin_time_s or 0.0))))
     return Candidate(
         part.id,
         result.passed,
-        result.worst_margin,
+        result.margin,
         result.limit or "—",
         min_count,
         None,
@@ -149,19 +151,19 @@ def _trace_alone(part: Part, job: TrajectoryJob, policy: BreakdownDerating) -> C
     )
 
 
-def _in_stage(part: Part, stage: Stage, job: Job, policy: BreakdownDerating, points: int) -> Candidate:
+def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, points: int) -> Candidate:
     placed = stage.with_part(part)
     if isinstance(job, Envelope):
         placed, _ = stage_for(placed, job)
-    passed, margin, limit, worst_v = _rate(job, placed, policy, points)
+    passed, margin, limit, worst_v = _rate(job, placed, breakdown, points)
     coarse = min(points, SEARCH_POINTS)
     rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
-    min_count = fewest(lambda n: _rate(rough, replace(placed, count=n), policy, coarse)[0], placed.count)
+    min_count = fewest(lambda n: _rate(rough, replace(placed, count=n), breakdown, coarse)[0], placed.count)
     max_rth = None
     if placed.cooling is not None and passed:
         max_rth = highest(
             lambda r: _rate(
-                job, replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)), policy, points
+                job, replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)), breakdown, points
             )[0],
             placed.cooling.sink_ambient_k_per_w,
         )
@@ -182,7 +184,7 @@ def compare(
     job: Job,
     *,
     stage: Stage | None = None,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     points: int = 400,
     progress: Callable[[int, int], None] | None = None,
 ) -> list[Candidate]:
@@ -215,14 +217,14 @@ def compare(
 
     def rate(part: Part) -> Candidate:
         if stage is not None:
-            return _in_stage(part, stage, job, policy, points)
+            return _in_stage(part, stage, job, breakdown, points)
         if isinstance(job, Envelope):
-            return _alone(part, job, policy, points)
-        return _trace_alone(part, job, policy)
+            return _alone(part, job, breakdown, points)
+        return _trace_alone(part, job, breakdown)
 
     results = []
     for part in parts:
         results.append(rate(part))
         if progress is not None:
             progress(len(results), len(parts))
-    return sorted(results, key=lambda c: (not c.passes, -(c.min_margin if c.min_margin is not None else -math.inf)))
+    return sorted(results, key=lambda c: (not c.passes, -(c.margin if c.margin is not None else -math.inf)))

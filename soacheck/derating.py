@@ -38,21 +38,21 @@ def thermal_factor(tc_c: np.ndarray | float, tj_max_c: float) -> np.ndarray:
     return np.clip((tj_max_c - tc) / (tj_max_c - REFERENCE_CASE_C), 0.0, 1.0)
 
 
-def breakdown_factor(tc_c: np.ndarray | float, part: Part, policy: BreakdownDerating = "auto") -> np.ndarray:
+def breakdown_factor(tc_c: np.ndarray | float, part: Part, breakdown: BreakdownDerating = "auto") -> np.ndarray:
     """Fraction of the 25 °C second-breakdown (or instability) limit left at ``tc_c``.
 
-    With the part's table (policy ``auto``): linear between its rows, never rising with
+    With the part's table (``auto``): linear between its rows, never rising with
     temperature (a rising table is read as its running minimum), the first row's
     fraction below the table, and beyond the last row the smaller of the last fraction
-    and the thermal factor. Without a table, or with policy ``thermal``: the thermal
+    and the thermal factor. Without a table, or with ``thermal``: the thermal
     factor (conservative; published guidance says only that second breakdown does not
-    derate like the thermal limit). Policy ``none``: 1 (non-conservative).
+    derate like the thermal limit). ``none``: 1 (non-conservative).
     """
     tc = np.asarray(tc_c, dtype=float)
     thermal = thermal_factor(tc, part.ratings.tj_max_c)
-    if policy == "none":
+    if breakdown == "none":
         return np.where(tc >= part.ratings.tj_max_c, 0.0, 1.0)
-    if policy == "thermal" or part.breakdown_case_c.size == 0:
+    if breakdown == "thermal" or part.breakdown_case_c.size == 0:
         return thermal
     fraction = np.minimum.accumulate(part.breakdown_fraction)
     table = np.interp(tc, part.breakdown_case_c, fraction)
@@ -61,27 +61,27 @@ def breakdown_factor(tc_c: np.ndarray | float, part: Part, policy: BreakdownDera
     return np.where(tc >= part.ratings.tj_max_c, 0.0, np.minimum(table, 1.0))
 
 
-def mechanism_factors(tc_c: np.ndarray, part: Part, policy: BreakdownDerating) -> dict[str, np.ndarray]:
+def mechanism_factors(tc_c: np.ndarray, part: Part, breakdown: BreakdownDerating) -> dict[str, np.ndarray]:
     """Derating factor of each mechanism at ``tc_c`` (any shape)."""
     thermal = thermal_factor(tc_c, part.ratings.tj_max_c)
-    breakdown = breakdown_factor(tc_c, part, policy)
+    steep = breakdown_factor(tc_c, part, breakdown)
     ones = np.ones_like(thermal)
     return {
         "on_resistance": ones,
         "current": ones,
-        "thermal": thermal,
-        "second_breakdown": breakdown,
-        "instability": breakdown,
-        "unclassified": np.minimum(thermal, breakdown),
+        "power": thermal,
+        "second_breakdown": steep,
+        "thermal_instability": steep,
+        "unclassified": np.minimum(thermal, steep),
     }
 
 
-def breakdown_policy_note(part: Part, policy: BreakdownDerating) -> str:
+def breakdown_note(part: Part, breakdown: BreakdownDerating) -> str:
     """One sentence on how the steep (breakdown or instability) segments were derated."""
     name = part.steep_mechanism.replace("_", " ")
-    if policy == "none":
+    if breakdown == "none":
         return f"{name} not derated with case temperature (chosen by the user; NOT conservative)"
-    if policy == "thermal" or part.breakdown_case_c.size == 0:
-        why = "chosen by the user" if policy == "thermal" else "the part gives no derating table"
+    if breakdown == "thermal" or part.breakdown_case_c.size == 0:
+        why = "chosen by the user" if breakdown == "thermal" else "the part gives no derating table"
         return f"{name} derated like the thermal limit ({why}; conservative)"
     return f"{name} derated by the part's table [derating] second_breakdown"

@@ -111,7 +111,7 @@ class EnvelopeCheck:
     """A stage checked against an envelope, along the envelope's upper edge.
 
     ``outside`` lists the stretches of source voltage where the edge is not covered:
-    dicts with ``from_voltage``, ``to_voltage``, ``limit`` and ``worst_margin``.
+    dicts with ``from_voltage``, ``to_voltage``, ``limit`` and ``margin`` (the least in that stretch).
     """
 
     envelope: Envelope
@@ -146,7 +146,7 @@ class EnvelopeCheck:
             "part": self.stage.part.id,
             "count": self.stage.count,
             "verdict": "pass" if self.passed else "fail",
-            "min_margin": self.min_margin if np.isfinite(self.min_margin) else None,
+            "margin": self.min_margin if np.isfinite(self.min_margin) else None,
             "limit": str(self.limit[d, k]),
             "worst_voltage": float(self.source_v[k]),
             "worst_current": float(self.total_a[k]),
@@ -157,7 +157,7 @@ class EnvelopeCheck:
         }
 
 
-def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, policy: BreakdownDerating):
+def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, breakdown: BreakdownDerating):
     """Allowed, margin and limit per device and point, with dropout and tj_max folded in."""
     allowed, margin, limit = check_devices(
         stage,
@@ -168,7 +168,7 @@ def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, policy
         state.runaway_at,
         pulse_s=pulse_s,
         duty=0.0 if math.isinf(pulse_s) else duty,
-        policy=policy,
+        breakdown=breakdown,
     )
     dropout = state.device_v <= 0
     limit = np.where(dropout, "dropout", limit)
@@ -179,7 +179,7 @@ def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, policy
 
 
 def check_envelope(
-    stage: Stage, envelope: Envelope, *, policy: BreakdownDerating = "auto", points: int = 400
+    stage: Stage, envelope: Envelope, *, breakdown: BreakdownDerating = "auto", points: int = 400
 ) -> EnvelopeCheck:
     """Check a stage against an envelope along its upper edge, every device.
 
@@ -196,7 +196,7 @@ def check_envelope(
     placed, notes = stage_for(stage, envelope)
     v, i = envelope.edge(points)
     state = steady_state(placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, sink="worst")
-    allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, policy)
+    allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, breakdown)
     bad = (margin < 0).any(axis=0)
     outside = []
     if bad.any():
@@ -210,12 +210,12 @@ def check_envelope(
                     "from_voltage": float(v[start]),
                     "to_voltage": float(v[stop - 1]),
                     "limit": str(limit[d, start + k]),
-                    "worst_margin": worst if np.isfinite(worst) else None,
+                    "margin": worst if np.isfinite(worst) else None,
                 }
             )
     notes += [
         f"the envelope's upper edge, {v.size} points, mapped through the current sharing and the resistor drops",
-        f"worst case of the V_BE band ({stage.vbe_spread_v * 1e3:g} mV): device 0 at its bottom",
+        f"worst case of the V_BE band ({stage.vbe_spread_v * 1e3:g} mV): Q1 at its bottom",
     ]
     return EnvelopeCheck(envelope, placed, v, i, state, allowed, margin, limit, outside, tuple(notes))
 
@@ -248,7 +248,7 @@ def largest_safe_envelope(
     *,
     pulse_s: float = DC,
     duty: float = 1.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     iterations: int = 48,
     progress: Callable[[int, int], None] | None = None,
 ) -> SafeEnvelope:
@@ -269,7 +269,7 @@ def largest_safe_envelope(
 
     def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, sink="each")
-        _, margin, limit = _judge(stage, state, pulse_s, duty, policy)
+        _, margin, limit = _judge(stage, state, pulse_s, duty, breakdown)
         d = np.argmin(margin, axis=0)
         return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
 
@@ -290,7 +290,7 @@ def largest_safe_envelope(
     notes = (
         f"{stage.count} × {stage.part.id}, {timing_note}; {surroundings}",
         f"ballast {stage.ballast_ohm:g} Ω each, series {stage.series_ohm:g} Ω, V_BE band {stage.vbe_spread_v * 1e3:g} "
-        "mV with device 0 at its bottom",
+        "mV with Q1 at its bottom",
         "each current is the highest at which every device stays inside its derated SOA and below tj_max, "
         "without runaway and with V_CE above zero",
     )

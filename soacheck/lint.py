@@ -229,7 +229,7 @@ def _curve_findings(part: Part) -> list[Finding]:
                 )
             )
         if curve.is_dc:
-            thermal = [line for line in mechanism_lines(part, curve) if line.mechanism == "thermal"]
+            thermal = [line for line in mechanism_lines(part, curve) if line.mechanism == "power"]
             if thermal:
                 watts = np.exp(np.concatenate([line.log_v + line.log_i for line in thermal]))
                 worst = watts[np.argmax(np.abs(watts / r.p_max_w - 1))]

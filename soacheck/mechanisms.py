@@ -22,16 +22,17 @@ import numpy as np
 
 from soacheck.parts import Part, SoaCurve
 
-Mechanism = Literal["on_resistance", "current", "thermal", "second_breakdown", "instability", "unclassified"]
+Mechanism = Literal["on_resistance", "current", "power", "second_breakdown", "thermal_instability", "unclassified"]
 Limit = Literal[
     "on_resistance",
     "current",
-    "thermal",
+    "power",
     "second_breakdown",
-    "instability",
+    "thermal_instability",
     "unclassified",
     "voltage",
-    "temperature",
+    "case_at_tj_max",
+    "tj_max",
     "invalid",
 ]
 
@@ -74,15 +75,15 @@ def classify_slopes(slopes: np.ndarray, *, bipolar: bool) -> np.ndarray:
     Returns
     -------
     numpy.ndarray of str, shape ``(k,)``
-        ``current`` for \\|m\\| ≤ 0.15, ``thermal`` for \\|m + 1\\| ≤ 0.12, ``second_breakdown`` or
-        ``instability`` for −8 ≤ m < −1.12, ``on_resistance`` for a leading \\|m − 1\\| ≤ 0.15
+        ``current`` for \\|m\\| ≤ 0.15, ``power`` for \\|m + 1\\| ≤ 0.12, ``second_breakdown`` or
+        ``thermal_instability`` for −8 ≤ m < −1.12, ``on_resistance`` for a leading \\|m − 1\\| ≤ 0.15
         (FET, IGBT), else ``unclassified`` (kept as geometry; derated conservatively).
     """
     m = np.asarray(slopes, dtype=float)
-    steep = "second_breakdown" if bipolar else "instability"
+    steep = "second_breakdown" if bipolar else "thermal_instability"
     names = np.full(m.shape, "unclassified", dtype=object)
     names[np.abs(m) <= CURRENT_BAND] = "current"
-    names[np.abs(m + 1) <= THERMAL_BAND] = "thermal"
+    names[np.abs(m + 1) <= THERMAL_BAND] = "power"
     names[(m >= STEEPEST_SLOPE) & (m < -1 - THERMAL_BAND)] = steep
     if not bipolar:
         on_res = np.abs(m - 1) <= ON_RESISTANCE_BAND

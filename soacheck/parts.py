@@ -134,9 +134,9 @@ class Part:
         return self.kind in BIPOLAR_KINDS
 
     @property
-    def steep_mechanism(self) -> Literal["second_breakdown", "instability"]:
+    def steep_mechanism(self) -> Literal["second_breakdown", "thermal_instability"]:
         """What a segment steeper than constant power means for this kind of part."""
-        return "second_breakdown" if self.is_bipolar else "instability"
+        return "second_breakdown" if self.is_bipolar else "thermal_instability"
 
     @property
     def dc_curve(self) -> SoaCurve:

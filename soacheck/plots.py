@@ -28,9 +28,9 @@ from soacheck.units import DC, format_duration
 MECHANISM_STYLE: dict[str, dict] = {
     "on_resistance": {"color": "#8c8c8c", "label": "on-resistance"},
     "current": {"color": "#1f5fa8", "label": "current limit"},
-    "thermal": {"color": "#d1495b", "label": "thermal (constant power)"},
+    "power": {"color": "#d1495b", "label": "power (constant power)"},
     "second_breakdown": {"color": "#6a3d9a", "label": "second breakdown"},
-    "instability": {"color": "#6a3d9a", "label": "thermal instability"},
+    "thermal_instability": {"color": "#6a3d9a", "label": "thermal instability"},
     "unclassified": {"color": "#222222", "label": "unclassified slope"},
 }
 
@@ -46,7 +46,7 @@ def plot_soa(
     case_temps_c: Sequence[float] = (),
     pulse_s: float = DC,
     points: PointCheck | None = None,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     ax: Axes | None = None,
 ) -> Axes:
     """Draw a part's digitized SOA curves, derated boundaries and checked points.
@@ -62,7 +62,7 @@ def plot_soa(
         Pulse width whose derated boundary is drawn, ``inf`` for DC. [s]
     points
         Checked points, coloured by margin (crosses for points outside).
-    policy
+    breakdown
         Derating of second breakdown or instability.
     ax
         Axes to draw on; a new figure when None.
@@ -98,7 +98,7 @@ def plot_soa(
     cmap_t = ["#e08214", "#b35806", "#7f3b08", "#542788"]
     for n, tc in enumerate(case_temps_c):
         poly = boundary_polyline(
-            part, tc_c=tc, pulse_s=pulse_s, policy=policy, v_min_v=part.curve_for(pulse_s).voltage_v[0]
+            part, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
         )
         if poly.is_empty:
             continue
@@ -154,7 +154,7 @@ def plot_soa(
 
 
 def plot_point_check(
-    part: Part, points: PointCheck, *, policy: BreakdownDerating = "auto", ax: Axes | None = None
+    part: Part, points: PointCheck, *, breakdown: BreakdownDerating = "auto", ax: Axes | None = None
 ) -> Axes:
     """Checked points over the boundary at the case temperatures and pulse width they were checked at.
 
@@ -167,13 +167,13 @@ def plot_point_check(
         temps = [temps[0], temps[-1]]
     widths = {float(t) for t in np.asarray(points.pulse_s).ravel()}
     pulse_s = widths.pop() if len(widths) == 1 else DC
-    ax = plot_soa(part, case_temps_c=temps, pulse_s=pulse_s, points=points, policy=policy, ax=ax)
+    ax = plot_soa(part, case_temps_c=temps, pulse_s=pulse_s, points=points, breakdown=breakdown, ax=ax)
     if len(widths) > 0:
         ax.set_title(f"{part.id}: points of several pulse widths over the DC boundary", fontsize=10)
     return ax
 
 
-def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "auto") -> Figure:
+def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating = "auto") -> Figure:
     """Two panels: the trajectory on the part's SOA coloured by time, and Tj(t) with the margin.
 
     The SOA panel shows the digitized curves and the DC boundary derated at the lowest
@@ -183,7 +183,9 @@ def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "
     fig = Figure(figsize=(13, 5.5), layout="constrained")
     ax_soa, ax_time = fig.subplots(1, 2, width_ratios=[1.1, 1])
     data = result.plot
-    plot_soa(part, case_temps_c=sorted({float(data["case_temp"].min()), result.tc_peak_c}), policy=policy, ax=ax_soa)
+    plot_soa(
+        part, case_temps_c=sorted({float(data["case_temp"].min()), result.tc_peak_c}), breakdown=breakdown, ax=ax_soa
+    )
     shown = data["current"] > 1e-3 * max(float(data["current"].max()), 1e-12)  # log axes: skip ~0 A
     dots = ax_soa.scatter(
         data["voltage"][shown], data["current"][shown], c=data["time"][shown], cmap="viridis", s=6, zorder=5
@@ -209,7 +211,7 @@ def plot_trace(part: Part, result: TraceResult, *, policy: BreakdownDerating = "
     return fig
 
 
-def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating = "auto") -> Figure:
+def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerating = "auto") -> Figure:
     """The worst device's trajectory on its SOA, and the test over time.
 
     Left: the worst device's (V_CE, I_C) path coloured by time, over its SOA derated at the
@@ -226,13 +228,13 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
     part = run.stage.part
     worst = run.worst_device
     hottest = float(run.case_c[worst].max())
-    plot_soa(part, case_temps_c=sorted({float(run.case_c[worst, 0]), hottest}), policy=policy, ax=ax_soa)
+    plot_soa(part, case_temps_c=sorted({float(run.case_c[worst, 0]), hottest}), breakdown=breakdown, ax=ax_soa)
     shown = run.device_a[worst] > 1e-3 * max(float(run.device_a[worst].max()), 1e-12)  # log axes: skip ~0 A
     path = ax_soa.scatter(
         run.device_v[worst][shown], run.device_a[worst][shown], c=run.time_s[shown], cmap="viridis", s=8, zorder=6
     )
     fig.colorbar(path, ax=ax_soa, label="time [s]")
-    ax_soa.set_title(f"{title or part.id}: device {worst} (worst)", fontsize=10)
+    ax_soa.set_title(f"{title or part.id}: Q{worst + 1} (worst)", fontsize=10)
     t = run.time_s
     axes[0].plot(t, run.source_v, color="#1f5fa8", label="source V")
     axes[0].set_ylabel("V")
@@ -240,7 +242,7 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
     current_ax.plot(t, run.total_a, color="#d1495b", label="total I")
     current_ax.set_ylabel("A")
     for k in range(run.device_w.shape[0]):
-        axes[1].plot(t, run.device_w[k], lw=1.4 if k == worst else 0.8, label=f"device {k}")
+        axes[1].plot(t, run.device_w[k], lw=1.4 if k == worst else 0.8, label=f"Q{k + 1}")
     axes[1].set_ylabel("device power [W]")
     axes[2].plot(t, run.junction_c[worst], color="#d1495b", label="junction (worst)")
     axes[2].plot(t, run.case_c[worst], color="#e08214", label="case (worst)")
@@ -248,7 +250,7 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
     axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
     axes[2].set_ylabel("°C")
     for k in range(run.margin.shape[0]):
-        axes[3].plot(t, np.clip(run.margin[k], -1, 1), lw=1.4 if k == worst else 0.8, label=f"device {k}")
+        axes[3].plot(t, np.clip(run.margin[k], -1, 1), lw=1.4 if k == worst else 0.8, label=f"Q{k + 1}")
     axes[3].axhline(0, color="k", lw=0.6)
     axes[3].set_ylabel("margin")
     axes[3].set_xlabel("time [s]")
@@ -260,7 +262,7 @@ def plot_stage_run(run: StageRun, *, title: str = "", policy: BreakdownDerating 
     return fig
 
 
-def plot_envelope_check(check: EnvelopeCheck, *, policy: BreakdownDerating = "auto", most: int = 4) -> Figure:
+def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = "auto", most: int = 4) -> Figure:
     """The envelope's edge, mapped to each device, over that device's SOA derated at its hottest case.
 
     One panel per device (the ``most`` worst when there are more); the path is red where it
@@ -272,13 +274,13 @@ def plot_envelope_check(check: EnvelopeCheck, *, policy: BreakdownDerating = "au
     env = check.envelope
     for ax, d in zip(axes, devices, strict=True):
         hottest = float(check.state.case_c[d].max())
-        plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, policy=policy, ax=ax)
+        plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, breakdown=breakdown, ax=ax)
         v, i = check.state.device_v[d], check.state.device_a[d]
         ok = check.margin[d] >= 0
         ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label="envelope edge, this device")
         ax.scatter(v[~ok], i[~ok], color="#c0392b", s=10, zorder=6, label="outside")
         ax.legend(fontsize=7, loc="lower left")
-        ax.set_title(f"{check.stage.part.id}, device {d}: {env.label}", fontsize=9)
+        ax.set_title(f"{check.stage.part.id}, Q{d + 1}: {env.label}", fontsize=9)
     return fig
 
 
@@ -288,7 +290,7 @@ def plot_compare(
     *,
     case_temp_c: float,
     count: int = 1,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
 ) -> Axes:
     """Candidates' SOAs derated at one case temperature, overlaid, with the envelope's edge.
 
@@ -305,7 +307,7 @@ def plot_compare(
             tc_c=case_temp_c,
             pulse_s=envelope.pulse_s,
             duty=0.0 if np.isinf(envelope.pulse_s) else envelope.duty,
-            policy=policy,
+            breakdown=breakdown,
             v_min_v=min(envelope.v_min_v, part.dc_curve.voltage_v[0]),
         )
         if not poly.is_empty:

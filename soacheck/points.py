@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Literal
 import numpy as np
 
 from soacheck.boundary import Allowed, allowed_current, model_consistency
-from soacheck.derating import BreakdownDerating, breakdown_policy_note
+from soacheck.derating import BreakdownDerating, breakdown_note
 from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part
 from soacheck.thermal_model import thermal_model
@@ -57,7 +57,7 @@ class PointCheck:
         return "pass" if self.passed else "fail"
 
     def to_frame(self) -> pd.DataFrame:
-        """One row per point, columns named as in the JSON output."""
+        """One row per point, columns named as in the JSON output; ``duty`` None for DC and single pulses."""
         import pandas as pd  # deferred: a command that prints no table starts without it
 
         return pd.DataFrame(
@@ -66,7 +66,8 @@ class PointCheck:
                 "current": self.current_a,
                 "case_temp": self.tc_c,
                 "pulse": [format_duration(t) for t in self.pulse_s],
-                "duty": self.duty,
+                # null for DC and single pulses: a duty only means something for a pulse train
+                "duty": pd.Series(np.where((self.duty > 0) & np.isfinite(self.pulse_s), self.duty, None), dtype=object),
                 "inside": self.inside,
                 "allowed_current": self.allowed_current_a,
                 "margin": self.margin,
@@ -95,7 +96,7 @@ def check_points(
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
     duty: np.ndarray | float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
 ) -> PointCheck:
     """Check operating points against the part's SOA derated at their case temperatures.
 
@@ -111,7 +112,7 @@ def check_points(
         Pulse width of each point, ``inf`` for DC. [s]
     duty
         Duty cycle of each point's pulse train, 0 for a single pulse. [1]
-    policy
+    breakdown
         Derating of second breakdown or instability.
 
     Returns
@@ -122,7 +123,7 @@ def check_points(
     v, i, tc, tp, d = (
         np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty)
     )
-    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, breakdown=breakdown)
     evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
     inside = evaluated & (i <= result.current_a)
     limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
@@ -139,18 +140,18 @@ def check_points(
         limit=limit,
         curve_pulse_s=result.curve_pulse_s,
         extrapolated=result.extrapolated,
-        assumptions=_assumptions(part, tc, tp, d, result, policy),
+        assumptions=_assumptions(part, tc, tp, d, result, breakdown),
     )
 
 
 def _assumptions(
-    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, policy: BreakdownDerating
+    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, breakdown: BreakdownDerating
 ) -> tuple[str, ...]:
     notes = [
         f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
         f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
         "current limit and voltage limit not derated",
-        breakdown_policy_note(part, policy),
+        breakdown_note(part, breakdown),
     ]
     shortest = part.pulse_widths_s[0]
     conditions = zip(tp.tolist(), d.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True)

@@ -23,7 +23,7 @@ def region_polygon(
     tc_c: float = REFERENCE_CASE_C,
     pulse_s: float = DC,
     duty: float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     use_model: bool = True,
     v_min_v: float | None = None,
     i_floor_a: float | None = None,
@@ -35,7 +35,7 @@ def region_polygon(
     these coordinates are in decades. Empty at or above ``tj_max``.
     """
     poly = boundary_polyline(
-        part, tc_c=tc_c, pulse_s=pulse_s, duty=duty, policy=policy, use_model=use_model, v_min_v=v_min_v
+        part, tc_c=tc_c, pulse_s=pulse_s, duty=duty, breakdown=breakdown, use_model=use_model, v_min_v=v_min_v
     )
     if poly.is_empty:
         return shapely.Polygon()

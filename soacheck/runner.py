@@ -56,7 +56,7 @@ class JobResult:
     def headline(self) -> str:
         """One line: what limits, and by how much."""
         s = self.summary
-        margin = s.get("worst_margin", s.get("min_margin"))
+        margin = s.get("margin")
         parts = []
         if margin is not None and isinstance(margin, float) and math.isfinite(margin):
             parts.append(f"least margin {margin:+.1%}")
@@ -82,7 +82,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             "part": part.id,
             "points": int(result.voltage_v.size),
             "outside": int((~result.inside).sum()),
-            "worst_margin": float(margin[k]) if np.isfinite(margin[k]) else None,
+            "margin": float(margin[k]) if np.isfinite(margin[k]) else None,
             "limit": str(result.limit[k]),
             "worst_voltage": float(result.voltage_v[k]),
             "worst_current": float(result.current_a[k]),
@@ -137,7 +137,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             "candidates": len(ranked),
             "passing": sum(c.passes for c in ranked),
             "best": best.part,
-            "min_margin": best.min_margin,
+            "margin": best.margin,
             "limit": best.limit,
         }
         figures = {}

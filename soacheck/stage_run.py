@@ -82,9 +82,9 @@ class StageRun:
             "verdict": "pass" if self.passed else "fail",
             "first_violation_time": first,
             "limit": limit,
-            "worst_margin": float(worst) if np.isfinite(worst) else None,
-            "worst_margin_time": float(self.time_s[k]),
-            "worst_device": int(d),
+            "margin": float(worst) if np.isfinite(worst) else None,
+            "margin_time": float(self.time_s[k]),
+            "device": int(d) + 1,
             "tj_peak": float(self.junction_c.max()),
             "case_peak": float(self.case_c.max()),
             "heatsink_peak": float(self.sink_c.max()),
@@ -110,7 +110,7 @@ def run_stage(
     source_v: np.ndarray,
     total_a: np.ndarray,
     *,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
     max_iterations: int = 2000,
 ) -> StageRun:
     """Follow a trajectory (source voltage and total current over time) through the stage.
@@ -161,10 +161,10 @@ def run_stage(
             break
     gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
     runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
-    allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, policy=policy)
+    allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, breakdown=breakdown)
     notes = [
         junction_note,
-        f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: device 0 "
+        f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: Q1 "
         f"at its bottom; temperature coefficient {stage.vbe_tempco_v_per_k * 1e3:g} mV/K",
         "heatsink as one lumped node driven by the devices' total power; cases P·R_cs above it; junctions "
         "quasi-static on top (conservative)"
@@ -209,22 +209,22 @@ def check_devices(
     *,
     pulse_s: float = DC,
     duty: float = 0.0,
-    policy: BreakdownDerating = "auto",
+    breakdown: BreakdownDerating = "auto",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Allowed current, margin and limit of every device at every point, each ``(n, m)``.
 
     Each device is checked against its SOA (for the pulse condition) derated at its own
-    case temperature; a junction above tj_max is labelled ``thermal``; where the stage runs
-    away the hog (device 0) is labelled ``runaway``.
+    case temperature; a junction above tj_max is labelled ``tj_max``; where the stage runs
+    away the hog (Q1, index 0) is labelled ``runaway``.
     """
     n, m = device_a.shape
     allowed = allowed_current(
-        np.maximum(vce_v, 1e-12), stage.part, tc_c=case_c, pulse_s=pulse_s, duty=duty, policy=policy
+        np.maximum(vce_v, 1e-12), stage.part, tc_c=case_c, pulse_s=pulse_s, duty=duty, breakdown=breakdown
     )
     allowed_a = allowed.current_a.reshape(n, m)
     limit = allowed.limit.reshape(n, m).astype(object)
     hot = junction_c > stage.part.ratings.tj_max_c
-    limit = np.where(hot & (device_a <= allowed_a), "thermal", limit)
+    limit = np.where(hot & (device_a <= allowed_a), "tj_max", limit)
     limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))

@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
-from soacheck.derating import BreakdownDerating, breakdown_policy_note
+from soacheck.derating import BreakdownDerating, breakdown_note
 from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
 from soacheck.mechanisms import MechanismLine, mechanism_lines
@@ -47,8 +47,8 @@ class TraceResult:
     tc_peak_c: float
     first_violation_time_s: float | None
     limit: str | None
-    worst_margin: float | None
-    worst_margin_time_s: float | None
+    margin: float | None
+    margin_time_s: float | None
     time_outside_s: float
     time_over_tj_max_s: float
     excursions: int
@@ -71,8 +71,8 @@ class TraceResult:
             "tc_peak": self.tc_peak_c,
             "first_violation_time": self.first_violation_time_s,
             "limit": self.limit,
-            "worst_margin": self.worst_margin,
-            "worst_margin_time": self.worst_margin_time_s,
+            "margin": self.margin,
+            "margin_time": self.margin_time_s,
             "time_outside": self.time_outside_s,
             "time_over_tj_max": self.time_over_tj_max_s,
             "excursions": self.excursions,
@@ -111,7 +111,7 @@ class TraceChecker:
     cooling
         A heatsink: the case temperature then follows the chained Cauer network
         (junction–case of the part, interface, heatsink) driven by the device's power.
-    policy
+    breakdown
         Derating of second breakdown or instability.
     plot_points
         About how many samples to keep for plots.
@@ -123,12 +123,12 @@ class TraceChecker:
         *,
         tc_c: float | None = None,
         cooling: Cooling | None = None,
-        policy: BreakdownDerating = "auto",
+        breakdown: BreakdownDerating = "auto",
         plot_points: int = 20000,
     ) -> None:
         if (tc_c is None) == (cooling is None):
             raise SoacheckError("give either a fixed case temperature or a heatsink, not both or neither")
-        self.part, self.policy, self.cooling = part, policy, cooling
+        self.part, self.breakdown, self.cooling = part, breakdown, cooling
         self.model = thermal_model(part)
         if cooling is not None:
             if self.model is None:
@@ -156,7 +156,7 @@ class TraceChecker:
                 self.lines.append(mechanism_lines(part, curve))
             elif self.model is not None:
                 bound = pulse_lines(part, pulse_s=curve.pulse_s)
-                self.lines.append(tuple(line for line in bound.lines if line.mechanism != "thermal"))
+                self.lines.append(tuple(line for line in bound.lines if line.mechanism != "power"))
             else:
                 self.lines.append(mechanism_lines(part, curve))
         self.dc = len(self.lines) - 1
@@ -164,7 +164,7 @@ class TraceChecker:
         if cooling is None:  # one case temperature: evaluate on exact polylines, the fast path
             v_lo = min(c.voltage_v[0] for c in part.curves) * 1e-3
             self.polylines = [
-                envelope_polyline(part, lines, tc_c=self.reference_c, policy=policy, v_min_v=v_lo)
+                envelope_polyline(part, lines, tc_c=self.reference_c, breakdown=breakdown, v_min_v=v_lo)
                 for lines in self.lines
             ]
         # running state
@@ -196,7 +196,7 @@ class TraceChecker:
             log_allowed = self.polylines[index].log_current_at(v)
         else:
             allowed, _ = evaluate_lines(
-                np.maximum(v, 1e-300), self.part, self.lines[index], tc_c=tc, policy=self.policy
+                np.maximum(v, 1e-300), self.part, self.lines[index], tc_c=tc, breakdown=self.breakdown
             )
             blocked = (v > self.part.ratings.v_max_v) | (tc >= self.part.ratings.tj_max_c)
             with np.errstate(divide="ignore"):
@@ -262,7 +262,7 @@ class TraceChecker:
         if over.any():
             held = np.diff(t, append=t[-1])  # the chunk's last hold is added with the next chunk
             self.time_over += float(np.sum(held[over]))
-            self.worst.violation(float(t[int(np.argmax(over))]), None, "thermal")
+            self.worst.violation(float(t[int(np.argmax(over))]), None, "tj_max")
         self.over_pending = bool(over[-1])
 
     def _excursions(self, t, v, i, tc, outside, excess) -> None:
@@ -388,9 +388,11 @@ class TraceChecker:
             if v > self.part.ratings.v_max_v:
                 limit = "voltage"
             elif tc >= self.part.ratings.tj_max_c:
-                limit = "temperature"
+                limit = "case_at_tj_max"
             else:
-                limit = str(evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=tc, policy=self.policy)[1][0])
+                limit = str(
+                    evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=tc, breakdown=self.breakdown)[1][0]
+                )
         violated = math.isfinite(self.worst.violation_time)
         worst = self.worst.margin
         plot = {}
@@ -410,8 +412,8 @@ class TraceChecker:
             tc_peak_c=self.tc_peak,
             first_violation_time_s=self.worst.violation_time if violated else None,
             limit=limit if violated else None,
-            worst_margin=worst if math.isfinite(worst) else None,
-            worst_margin_time_s=self.worst.margin_time if math.isfinite(worst) else None,
+            margin=worst if math.isfinite(worst) else None,
+            margin_time_s=self.worst.margin_time if math.isfinite(worst) else None,
             time_outside_s=self.time_outside,
             time_over_tj_max_s=self.time_over,
             excursions=self.excursions,
@@ -423,7 +425,7 @@ class TraceChecker:
         part = self.part
         notes = [
             "power held constant between samples (zero-order hold)",
-            breakdown_policy_note(part, self.policy),
+            breakdown_note(part, self.breakdown),
         ]
         if self.cooling is not None:
             c = self.cooling

@@ -290,7 +290,7 @@ def test_new_part_thermal_segment_is_exactly_p_max_over_v(tmp_path):
     v = np.array([12.0, 20.0, 39.0])
     got = allowed_current(v, part)
     assert got.current_a == pytest.approx(100.0 / v, rel=1e-12)  # I = P/V exactly
-    assert list(got.limit) == ["thermal"] * 3
+    assert list(got.limit) == ["power"] * 3
     # above the knee: (100/40) (V/40)^-2
     assert allowed_current(80.0, part).current_a[0] == pytest.approx(2.5 * 0.25, rel=1e-12)
     assert "synthesized from ratings" in part.source

@@ -35,7 +35,7 @@ def test_check_json_has_the_documented_shape_and_hand_computed_values(tmp_path):
     # by hand: f = (150 - 75)/(150 - 25) = 0.6, 0.6 * 125 W / 20 V = 3.75 A
     assert point["allowed_current"] == pytest.approx(3.75, rel=1e-4)
     assert point["margin"] == pytest.approx(1 - 3 / 3.75, rel=1e-3)
-    assert point["limit"] == "thermal" and point["inside"] is True
+    assert point["limit"] == "power" and point["inside"] is True
 
 
 def test_check_at_25c_matches_the_hand_computation(tmp_path):
@@ -55,7 +55,7 @@ def test_points_file_with_per_point_case_temperature_and_pulse(tmp_path):
     assert result.exit_code == 1, result.output
     rows = json.loads(result.stdout)["points"]
     assert [r["inside"] for r in rows] == [True, True, False, False]
-    assert [r["limit"] for r in rows] == ["thermal", "thermal", "voltage", "voltage"]
+    assert [r["limit"] for r in rows] == ["power", "power", "voltage", "voltage"]
     assert rows[1]["allowed_current"] == pytest.approx(400 / 20, rel=1e-9)  # 1 ms curve: 400 W line
     assert rows[2]["margin"] is None  # nothing allowed above v_max: no margin, null in JSON
 
@@ -86,7 +86,7 @@ def test_svg_plot_shows_every_mechanism_of_the_fet(tmp_path):
     out = tmp_path / "fet.svg"
     assert invoke("show", "demo-nmos-to247-300w", "--plot", out).exit_code == 0
     text = out.read_text()
-    for label in ("on-resistance", "current limit", "thermal (constant power)", "thermal instability"):
+    for label in ("on-resistance", "current limit", "power (constant power)", "thermal instability"):
         assert label in text
 
 

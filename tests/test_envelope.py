@@ -125,7 +125,7 @@ def test_largest_safe_envelope_json(tmp_path):
     # second breakdown 4.167 (60/30)^-2.5 = 0.7366 A at 60 V
     # (the JSON's currents are rounded down to 1 mA: at most one step below, never above)
     assert 15.0 - 0.001 <= points[0]["max_current"] <= 15.0 and points[0]["limit"] == "current"
-    assert 6.25 - 0.001 <= points[1]["max_current"] <= 6.25 and points[1]["limit"] == "thermal"
+    assert 6.25 - 0.001 <= points[1]["max_current"] <= 6.25 and points[1]["limit"] == "tj_max"
     assert points[2]["max_current"] == pytest.approx(4.167 * 2**-2.5, rel=1e-3)
     assert points[2]["limit"] == "second_breakdown"
 
@@ -193,7 +193,7 @@ def test_compare_ranks_by_margin_and_finds_the_fewest_devices_by_search():
     ]
     env = Envelope(5.0, 40.0, 20.0, 150.0, ambient_c=None, case_temp_c=60.0)
     ranked = compare(parts, env, points=2000)
-    margins = [c.min_margin if c.min_margin is not None else -math.inf for c in ranked]
+    margins = [c.margin if c.margin is not None else -math.inf for c in ranked]
     passing = [c.passes for c in ranked]
     assert passing == sorted(passing, reverse=True)
     for group in (True, False):
@@ -237,7 +237,7 @@ def test_compare_cli_json(tmp_path):
     )
     assert result.exit_code in (0, 1), result.output
     rows = json.loads(result.stdout)["candidates"]
-    assert {"part", "passes", "min_margin", "limit", "min_count", "max_heatsink_rth"} <= set(rows[0])
+    assert {"part", "passes", "margin", "limit", "min_count", "max_heatsink_rth"} <= set(rows[0])
     assert (tmp_path / "c.svg").stat().st_size > 10000
 
 

@@ -92,7 +92,7 @@ def test_one_failing_job_exits_1_and_is_shown_first(tmp_path):
     assert result.exit_code == 1, result.output
     report = json.loads((tmp_path / "out" / "report.json").read_text())
     assert [j["name"] for j in report["jobs"]] == ["too much", "fine"]
-    assert report["jobs"][0]["summary"]["limit"] == "thermal"
+    assert report["jobs"][0]["summary"]["limit"] == "power"
     html = (tmp_path / "out" / "report.html").read_text()
     assert html.index("too much") < html.index(">fine<")
     # user strings are escaped: the title's markup characters do not become markup

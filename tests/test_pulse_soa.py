@@ -46,7 +46,7 @@ def test_cli_thermal_limit_is_tj_headroom_over_zth(tmp_path, tp_s, duty, tc_c):
     assert result.exit_code == 0, result.output
     (point,) = json.loads(result.stdout)["points"]
     expected = (150 - tc_c) / FOUR.zth_train(tp_s, duty) / voltage  # A
-    if point["limit"] == "thermal":
+    if point["limit"] == "power":
         assert point["allowed_current"] == pytest.approx(expected, rel=0.02)  # issue's acceptance: 2 %
     else:  # bounded lower by another mechanism: never above the thermal limit
         assert point["allowed_current"] <= expected
@@ -96,7 +96,7 @@ def test_zth_csv_is_fitted_when_no_terms_are_given(tmp_path):
     assert model is not None and "zth.csv" in model.origin
     assert model.fit_error < 0.02
     got = allowed_current(20.0, part, pulse_s=5e-4, duty=0.2)
-    assert got.limit[0] == "thermal"
+    assert got.limit[0] == "power"
     assert got.current_a[0] == pytest.approx(125 / FOUR.zth_train(5e-4, 0.2) / 20, rel=0.02)
 
 

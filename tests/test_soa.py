@@ -52,7 +52,7 @@ def test_breakdown_factor_follows_table_then_thermal(reference_part, reference_p
     assert breakdown_factor(tc, reference_part) == pytest.approx(thermal_factor(tc, 150.0))
     # the part's table, linear between rows: 1.0 @25, 0.9 @75, 0.8 @150 -> 0.95 @50, 0.85 @112.5
     assert breakdown_factor(tc, reference_part_with_table) == pytest.approx([1.0, 0.95, 0.9, 0.85, 0.0])
-    # policy "none" never derates below tj_max (non-conservative; offered for comparison)
+    # breakdown derating "none" never derates below tj_max (non-conservative; offered for comparison)
     assert breakdown_factor(tc, reference_part, "none") == pytest.approx([1, 1, 1, 1, 0])
 
 
@@ -75,11 +75,11 @@ def test_a_rising_derating_table_is_read_as_its_running_minimum(tmp_path):
         # slope bands (common practice, no source): digitizing noise of ±2 %
         (0.0, True, "current"),
         (-0.14, True, "current"),
-        (-1.0, True, "thermal"),
-        (-0.9, True, "thermal"),
-        (-1.11, True, "thermal"),
+        (-1.0, True, "power"),
+        (-0.9, True, "power"),
+        (-1.11, True, "power"),
         (-1.5, True, "second_breakdown"),
-        (-3.0, False, "instability"),
+        (-3.0, False, "thermal_instability"),
         (-0.5, True, "unclassified"),
         (-12.0, True, "unclassified"),
     ],
@@ -90,7 +90,7 @@ def test_segments_are_classified_by_log_log_slope(slope, bipolar, expected):
 
 def test_on_resistance_line_only_opens_a_fet_curve():
     slopes = np.array([1.0, 0.0, -1.0, 1.0])
-    assert list(classify_slopes(slopes, bipolar=False)) == ["on_resistance", "current", "thermal", "unclassified"]
+    assert list(classify_slopes(slopes, bipolar=False)) == ["on_resistance", "current", "power", "unclassified"]
 
 
 def test_slope_is_base_independent():
@@ -132,11 +132,11 @@ def test_between_vertices_the_boundary_is_straight_on_log_log_axes(reference_par
     ("tc_c", "voltage_v", "expected_a", "limit"),
     [
         # constructed, by hand: f = (150 - 75)/(150 - 25) = 0.6 at 75 °C -> thermal 75 W
-        (75.0, 20.0, 3.75, "thermal"),  # 75 W / 20 V
-        (75.0, 6.0, 12.5, "thermal"),  # 75 W / 6 V, below the 15 A current limit: the knee moved left
+        (75.0, 20.0, 3.75, "power"),  # 75 W / 20 V
+        (75.0, 6.0, 12.5, "power"),  # 75 W / 6 V, below the 15 A current limit: the knee moved left
         (75.0, 4.0, 15.0, "current"),  # the current limit is not derated
         (100.0, 2.0, 15.0, "current"),  # f = 0.4: knee at 50 W / 15 A = 3.33 V
-        (100.0, 10.0, 5.0, "thermal"),
+        (100.0, 10.0, 5.0, "power"),
         # second breakdown without a table derates like thermal (0.6): 0.6 * 3.125 (60/40)^-2
         (75.0, 60.0, 0.6 * 3.125 * (60 / 40) ** -2, "second_breakdown"),
     ],
@@ -158,7 +158,7 @@ def test_corner_moves_when_second_breakdown_derates_less_than_thermal(reference_
     part = reference_part_with_table
     at = allowed_current([50.0, 59.0, 61.0, 80.0], part, tc_c=75.0)
     assert at.current_a == pytest.approx([1.5, 75 / 59, 4500 / 61**2, 4500 / 80**2], rel=1e-4)
-    assert list(at.limit) == ["thermal", "thermal", "second_breakdown", "second_breakdown"]
+    assert list(at.limit) == ["power", "power", "second_breakdown", "second_breakdown"]
     poly = boundary_polyline(part, tc_c=75.0)
     corner = poly.voltage_v[np.flatnonzero(poly.limit == "second_breakdown")[0]]
     assert corner == pytest.approx(60.0, rel=1e-4)
@@ -167,7 +167,7 @@ def test_corner_moves_when_second_breakdown_derates_less_than_thermal(reference_
 def test_nothing_is_allowed_at_or_above_tj_max(reference_part):
     got = allowed_current([5.0, 50.0], reference_part, tc_c=150.0)
     assert list(got.current_a) == [0.0, 0.0]
-    assert list(got.limit) == ["temperature", "temperature"]
+    assert list(got.limit) == ["case_at_tj_max", "case_at_tj_max"]
     check = check_points(5.0, 0.001, reference_part, tc_c=151.0)
     assert not check.inside[0] and math.isnan(check.margin[0])
 

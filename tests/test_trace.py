@@ -69,7 +69,7 @@ def test_an_excursion_longer_than_every_pulse_curve_fails_at_its_start(modelled)
     result = check(modelled, t, np.full(t.size, 20.0), i)
     assert not result.passed
     assert result.first_violation_time_s == pytest.approx(0.01, abs=1e-9)
-    assert result.limit == "thermal"
+    assert result.limit == "power"
     assert result.time_outside_s == pytest.approx(0.005, abs=2e-5)
 
 
@@ -86,7 +86,7 @@ def test_junction_over_tj_max_fails_even_inside_the_curves(modelled):
     t, v, i = pulse_train(v=10, i_on=25.0, i_off=0.0, tp=1e-3, period=2e-3, periods=300)
     assert 25 + 250 * FOUR.zth_train(1e-3, 0.5) > 150
     result = check(modelled, t, v, i)
-    assert not result.passed and result.limit == "thermal"
+    assert not result.passed and result.limit == "tj_max"
     assert result.time_over_tj_max_s > 0
 
 
@@ -145,7 +145,7 @@ def test_cli_trace_json_and_plot(tmp_path):
     )
     assert result.exit_code == 0, result.output
     payload = json.loads(result.stdout)
-    for key in ("verdict", "tj_peak", "first_violation_time", "worst_margin", "worst_margin_time", "time_outside"):
+    for key in ("verdict", "tj_peak", "first_violation_time", "margin", "margin_time", "time_outside"):
         assert key in payload
     assert payload["verdict"] == "pass" and payload["first_violation_time"] is None
     assert plot.stat().st_size > 10000

@@ -103,7 +103,7 @@ LibraryOpt = Annotated[
     ),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON object instead of a table.")]
-PolicyOpt = Annotated[
+BreakdownOpt = Annotated[
     str,
     typer.Option(
         "--breakdown-derating",
@@ -177,7 +177,7 @@ def choice_option(text: str, choices: Sequence[str], option: str) -> str:
     return value
 
 
-def policy_option(text: str) -> BreakdownDerating:
+def breakdown_option(text: str) -> BreakdownDerating:
     return choice_option(text, ("auto", "thermal", "none"), "--breakdown-derating")  # type: ignore[return-value]
 
 

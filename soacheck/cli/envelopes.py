@@ -13,18 +13,18 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    BreakdownOpt,
     ForceOpt,
     JsonOpt,
     LibraryOpt,
     PlotOpt,
-    PolicyOpt,
     app,
+    breakdown_option,
     console_for_output,
     duty_option,
     echo_json,
     number_list,
     plot_suffix,
-    policy_option,
     progress_bar,
     refuse_overwrite,
     stage_option,
@@ -61,13 +61,13 @@ def envelope(
     duty: Annotated[float | None, typer.Option("--duty", help="Duty cycle of the pulses, in (0, 1].")] = None,
     export: Annotated[Path | None, typer.Option("--export", help="Write the limit table: .csv, .json or .h.")] = None,
     plot: PlotOpt = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """What a stage can safely promise: check an envelope, or find the largest safe one and export it."""
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     loaded = stage_option(stage, library)
     if case_temp is not None:
         loaded = replace(loaded, cooling=None, case_temp_c=case_temp)
@@ -77,20 +77,20 @@ def envelope(
     console = console_for_output()
     if check_file is not None:
         env = read_envelope(check_file)
-        result = check_envelope(loaded, env, policy=policy)
+        result = check_envelope(loaded, env, breakdown=breakdown)
         if plot is not None:
             from soacheck.plots import plot_envelope_check  # matplotlib: only when plotting
 
-            plot_envelope_check(result, policy=policy).savefig(plot)
+            plot_envelope_check(result, breakdown=breakdown).savefig(plot)
         payload = result.summary()
         if as_json:
             echo_json(payload)
         else:
             console.print(f"{loaded.part.id} × {loaded.count} against {env.label}", highlight=False)
             console.print(
-                f"least margin {payload['min_margin']:+.1%} ({payload['limit']}) at "
+                f"least margin {payload['margin']:+.1%} ({payload['limit']}) at "
                 f"{payload['worst_voltage']:g} V, {payload['worst_current']:.4g} A"
-                if payload["min_margin"] is not None
+                if payload["margin"] is not None
                 else "nothing allowed somewhere on the edge",
                 highlight=False,
             )
@@ -119,7 +119,7 @@ def envelope(
             _voltages(voltages, loaded.part.ratings.v_max_v),
             pulse_s=pulse_s,
             duty=duty_value,
-            policy=policy,
+            breakdown=breakdown,
             progress=progress,
         )
     table = limit_table(safe)
@@ -167,13 +167,13 @@ def compare(
     ] = 25.0,
     stage: Annotated[Path | None, typer.Option("--stage", help="Stage each candidate takes its place in.")] = None,
     plot: PlotOpt = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Rank candidate parts for a job: margin, limit, fewest devices, cooling headroom."""
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     folders = library_folders(library or [])
     if all_parts == bool(parts):
         raise SoacheckError("name the candidate parts, or give --all (not both)")
@@ -199,7 +199,7 @@ def compare(
     else:
         job = TrajectoryJob(read_trace(trace_file), case_temp_c=case_temp)
     with progress_bar("comparing candidates", total=len(candidates), quiet=as_json) as progress:
-        ranked = compare_parts(candidates, job, stage=loaded_stage, policy=policy, progress=progress)
+        ranked = compare_parts(candidates, job, stage=loaded_stage, breakdown=breakdown, progress=progress)
     label = env.label if envelope_file is not None else job.trajectory.label
     if plot is not None and envelope_file is None:
         raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
@@ -218,7 +218,7 @@ def compare(
             env,
             case_temp_c=tc,
             count=loaded_stage.count if loaded_stage else 1,
-            policy=policy,
+            breakdown=breakdown,
         ).figure.savefig(plot)
     payload = {
         "job": label,
@@ -232,7 +232,7 @@ def compare(
         for name in (
             "part",
             "verdict",
-            "min margin",
+            "margin",
             "limit",
             "fewest devices",
             "max heatsink Rth" if loaded_stage else "max case temp",
@@ -244,7 +244,7 @@ def compare(
             out.add_row(
                 escape(c.part),
                 "[green]pass[/]" if c.passes else "[bold red]fail[/]",
-                "—" if c.min_margin is None else f"{c.min_margin:+.1%}",
+                "—" if c.margin is None else f"{c.margin:+.1%}",
                 c.limit,
                 "—" if c.min_count is None else str(c.min_count),
                 "—" if headroom is None else f"{headroom:.3g}{unit}",

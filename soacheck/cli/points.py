@@ -12,19 +12,19 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    BreakdownOpt,
     ForceOpt,
     JsonOpt,
     LibraryOpt,
     PlotOpt,
-    PolicyOpt,
     app,
+    breakdown_option,
     console_for_output,
     duty_option,
     echo_json,
     number_list,
     part_option,
     plot_suffix,
-    policy_option,
     refuse_overwrite,
     user_errors,
 )
@@ -61,7 +61,7 @@ def _print_check(console: Console, result: PointCheck) -> None:
             f"{row.current:g}",
             f"{row.case_temp:g}",
             row.pulse,
-            f"{row.duty:g}" if row.duty > 0 else "single" if row.pulse != "dc" else "",
+            f"{row.duty:g}" if row.duty is not None else "single" if row.pulse != "dc" else "",
             row.curve,
             allowed,
             margin,
@@ -99,13 +99,13 @@ def check(
         typer.Option("--duty", help="Duty cycle of a pulse train, in (0, 1]; a single pulse when absent."),
     ] = None,
     plot: PlotOpt = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     if plot is not None:
         plot_suffix(plot)
         refuse_overwrite(plot, force)
@@ -129,11 +129,11 @@ def check(
                 raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
         v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
     loaded = part_option(part, library)
-    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, policy=policy)
+    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, breakdown=breakdown)
     if plot is not None:
         from soacheck.plots import plot_point_check  # matplotlib: only when plotting
 
-        plot_point_check(loaded, result, policy=policy).figure.savefig(plot)
+        plot_point_check(loaded, result, breakdown=breakdown).figure.savefig(plot)
     if as_json:
         echo_json(check_payload(result))
     else:
@@ -196,13 +196,13 @@ def show(
         Path | None,
         typer.Option("--plot", metavar="FILE", show_default="PART-soa.png", help="Plot file: .png, .svg or .pdf."),
     ] = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
 ) -> None:
     """Plot a part's SOA: every curve by mechanism, derated curves and checked points."""
     loaded = part_option(part, library)
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     pulse_s = parse_duration(pulse, where="--pulse")
     output = plot or Path(f"{loaded.id}-soa.png")
     plot_suffix(output)
@@ -216,7 +216,7 @@ def show(
             loaded,
             tc_c=frame["case_temp"].to_numpy() if "case_temp" in frame else 25.0,
             pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
-            policy=policy,
+            breakdown=breakdown,
         )
     from soacheck.plots import plot_soa  # matplotlib: only when plotting
 
@@ -225,7 +225,7 @@ def show(
         case_temps_c=number_list(case_temp, "--case-temp", "25,75,125").tolist(),
         pulse_s=pulse_s,
         points=checked,
-        policy=policy,
+        breakdown=breakdown,
     )
     ax.figure.savefig(output)
     typer.echo(f"wrote {output}")

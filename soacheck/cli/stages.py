@@ -15,17 +15,17 @@ from soacheck.battery import MODES
 from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
 from soacheck.cli.base import (
+    BreakdownOpt,
     ForceOpt,
     JsonOpt,
     LibraryOpt,
     PlotOpt,
-    PolicyOpt,
     app,
+    breakdown_option,
     check_outputs,
     choice_option,
     console_for_output,
     echo_json,
-    policy_option,
     progress_bar,
     stage_option,
     user_errors,
@@ -83,13 +83,13 @@ def discharge(
     find_max: Annotated[bool, typer.Option("--find-max", help="Also find the most demanding safe setpoint.")] = False,
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the trajectory.")] = 2000,
     plot: PlotOpt = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Discharge a battery through the stage and check every device all the way down."""
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     loaded = stage_option(stage, library)
     pack = battery_from(battery, cells, capacity, internal_resistance)
     mode = choice_option(mode, MODES, "--mode")
@@ -97,7 +97,7 @@ def discharge(
 
     def run_at(value: float) -> StageRun:
         path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
-        run = run_stage(loaded, path.time_s, path.source_v, path.total_a, policy=policy)
+        run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
         return replace(run, assumptions=run.assumptions + path.notes)
 
     run = run_at(setpoint)
@@ -125,13 +125,13 @@ def sweep(
     ramp_time: Annotated[str, typer.Option("--time", help="Ramp duration, such as 10s or 500ms.")] = "10s",
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the ramp.")] = 2000,
     plot: PlotOpt = None,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Run a V–I sweep through the stage and check every device along it."""
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     loaded = stage_option(stage, library)
     seconds = parse_duration(ramp_time, where="--time")
     if math.isinf(seconds):
@@ -139,7 +139,7 @@ def sweep(
     check_outputs(samples, plot, force)
     ramp = choice_option(ramp, ("current", "voltage", "power"), "--ramp")
     path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
-    run = run_stage(loaded, path.time_s, path.source_v, path.total_a, policy=policy)
+    run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
     _report_run(run, path.label, as_json=as_json, plot=plot, extra={})
 
 

@@ -12,16 +12,16 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    BreakdownOpt,
     ForceOpt,
     JsonOpt,
     LibraryOpt,
-    PolicyOpt,
     app,
+    breakdown_option,
     console_for_output,
     echo_json,
     part_option,
     plot_suffix,
-    policy_option,
     progress_bar,
     refuse_overwrite,
     user_errors,
@@ -56,14 +56,14 @@ def trace(
         Path | None, typer.Option("--plot", help="Write the trajectory and Tj plot (.png, .svg, .pdf).")
     ] = None,
     chunk_rows: Annotated[int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")] = 1_000_000,
-    breakdown_derating: PolicyOpt = "auto",
+    breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj."""
     loaded = part_option(part, library)
-    policy = policy_option(breakdown_derating)
+    breakdown = breakdown_option(breakdown_derating)
     cooling = None
     if heatsink_rth is not None or heatsink_capacity is not None:
         if heatsink_rth is None or heatsink_capacity is None:
@@ -77,7 +77,10 @@ def trace(
     if chunk_rows < 2:
         raise SoacheckError("--chunk-rows must be at least 2")
     checker = TraceChecker(
-        loaded, tc_c=None if cooling else (25.0 if case_temp is None else case_temp), cooling=cooling, policy=policy
+        loaded,
+        tc_c=None if cooling else (25.0 if case_temp is None else case_temp),
+        cooling=cooling,
+        breakdown=breakdown,
     )
     with (
         progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress,
@@ -93,7 +96,7 @@ def trace(
     if plot is not None:
         from soacheck.plots import plot_trace  # matplotlib: only when plotting
 
-        plot_trace(loaded, result, policy=policy).savefig(plot)
+        plot_trace(loaded, result, breakdown=breakdown).savefig(plot)
     if as_json:
         echo_json(result.summary())
     else:
@@ -118,9 +121,8 @@ def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> No
         ),
         ("case peak", fmt(result.tc_peak_c, " °C", ".1f")),
         (
-            "worst margin",
-            fmt(result.worst_margin, "", "+.1%")
-            + (f" at {result.worst_margin_time_s:.4g} s" if result.worst_margin is not None else ""),
+            "margin",
+            fmt(result.margin, "", "+.1%") + (f" at {result.margin_time_s:.4g} s" if result.margin is not None else ""),
         ),
         ("excursions above DC", str(result.excursions)),
         ("first violation", fmt(result.first_violation_time_s, " s") + (f" ({result.limit})" if result.limit else "")),
