@@ -1,21 +1,24 @@
 """Making parts: reading values off datasheet plots, and SOA curves from ratings alone.
 
-Pixel coordinates of a picked point map to values through two calibration points per
-axis, on a logarithmic axis by default (SOA and Zth plots are log-log):
-log v = log v₁ + (p − p₁)·(log v₂ − log v₁)/(p₂ − p₁). Image rows count downward; the
-calibration takes care of the direction.
+Picked pixels map to values through :mod:`soacheck.calibration`; a curve drawn in a
+colour of its own can be followed by that colour; black curves are traced from a seed
+by :mod:`soacheck.tracing`.
 """
 
 from __future__ import annotations
 
+import json
 import math
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
+from soacheck.calibration import AxisCalibration
 from soacheck.errors import SoacheckError
 from soacheck.parts import KINDS
+from soacheck.tracing import Seed
+from soacheck.units import parse_duration
 
 PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")
 
@@ -31,54 +34,6 @@ def check_part_id(part_id: str) -> str:
 
 
 # --------------------------------------------------------------------------- digitizing
-
-
-@dataclass(frozen=True)
-class AxisCalibration:
-    """Two reference pixels on one axis and the values they stand for.
-
-    Attributes
-    ----------
-    pixel_1, pixel_2
-        Pixel coordinates of the two references (columns for x, rows for y). [px]
-    value_1, value_2
-        Their values on the plot's axis (V, A, s or K/W). Above zero on a log axis.
-    log
-        True for a logarithmic axis.
-    """
-
-    pixel_1: float
-    value_1: float
-    pixel_2: float
-    value_2: float
-    log: bool = True
-
-    def __post_init__(self) -> None:
-        if self.pixel_1 == self.pixel_2:
-            raise SoacheckError("calibration: the two reference pixels must differ")
-        if self.value_1 == self.value_2:
-            raise SoacheckError("calibration: the two reference values must differ")
-        if self.log and (self.value_1 <= 0 or self.value_2 <= 0):
-            raise SoacheckError("calibration: values on a logarithmic axis must be above zero (or use --linear-x/-y)")
-
-    def value(self, pixel: np.ndarray) -> np.ndarray:
-        """Axis value at pixel coordinates (any shape)."""
-        p = np.asarray(pixel, dtype=float)
-        frac = (p - self.pixel_1) / (self.pixel_2 - self.pixel_1)
-        if self.log:
-            a, b = math.log10(self.value_1), math.log10(self.value_2)
-            return 10.0 ** (a + frac * (b - a))
-        return self.value_1 + frac * (self.value_2 - self.value_1)
-
-    @classmethod
-    def parse(cls, text: str, *, log: bool, option: str) -> AxisCalibration:
-        """From ``PX1=V1,PX2=V2``, such as ``112=1,842=100``."""
-        try:
-            pairs = [item.split("=") for item in text.split(",")]
-            (p1, v1), (p2, v2) = ((float(p), float(v)) for p, v in pairs)
-        except ValueError:
-            raise SoacheckError(f"{option}: '{text}' is not two pixel=value pairs, such as 112=1,842=100") from None
-        return cls(p1, v1, p2, v2, log)
 
 
 def pixels_to_values(
@@ -135,6 +90,60 @@ def parse_colour(text: str) -> tuple[float, float, float]:
         raise SoacheckError(f"--colour: '{text}' is not a colour such as #d1495b")
     value = match.group(1)
     return tuple(int(value[k : k + 2], 16) / 255.0 for k in (0, 2, 4))  # type: ignore[return-value]
+
+
+def parse_seed(text: str, *, zth: bool) -> Seed:
+    """A tracing seed from ``V:I=PULSE`` (an SOA curve, named by its pulse) or ``T:Z`` (a Zth curve).
+
+    The seed is a point on or near the curve in the plot's values (volts and amperes, or
+    seconds and K/W), read off the picture by eye.
+    """
+    point, _, pulse = text.partition("=")
+    example = "0.01:0.5" if zth else "20:5=dc"
+    try:
+        x, y = (float(part) for part in point.split(":"))
+    except ValueError:
+        raise SoacheckError(f"--trace: '{text}' is not a seed such as {example}") from None
+    if not (math.isfinite(x) and math.isfinite(y) and x > 0 and y > 0):
+        raise SoacheckError(f"--trace: '{text}': both values must be finite and above zero (log axes)")
+    if zth:
+        if pulse:
+            raise SoacheckError(f"--trace: '{text}': a Zth curve has no pulse width; give T:Z such as {example}")
+        return Seed(x, y, "")
+    if not pulse:
+        raise SoacheckError(f"--trace: '{text}' names no pulse width; add it, such as {example}")
+    parse_duration(pulse, where=f"--trace '{text}'")
+    return Seed(x, y, pulse)
+
+
+def part_toml(
+    part_id: str,
+    *,
+    kind: str,
+    description: str,
+    source: str,
+    v_max_v: float,
+    i_max_a: float,
+    p_max_w: float,
+    tj_max_c: float,
+    rth_jc_k_per_w: float,
+) -> str:
+    """The text of a ``part.toml`` (format in ``docs/part-format.md``)."""
+    return (
+        f"id = {json.dumps(part_id)}\n"
+        f"kind = {json.dumps(kind)}\n"
+        f"description = {json.dumps(description)}\n"
+        f"source = {json.dumps(source)}\n\n"
+        "[ratings]\n"
+        f"v_max = {v_max_v!r}\ni_max = {i_max_a!r}\np_max = {p_max_w!r}\ntj_max = {tj_max_c!r}\n"
+        f"rth_jc = {rth_jc_k_per_w!r}\n"
+    )
+
+
+def curve_rows(pulse: str, voltage_v: np.ndarray, current_a: np.ndarray) -> str:
+    """``soa.csv`` text holding one curve."""
+    rows = "".join(f"{pulse},{float(v)!r},{float(i)!r}\n" for v, i in zip(voltage_v, current_a, strict=True))
+    return "pulse,voltage,current\n" + rows
 
 
 # --------------------------------------------------------------------------- from ratings

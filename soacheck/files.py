@@ -370,11 +370,11 @@ def write_folder(
             shutil.rmtree(staging)
 
 
-def replace_text(path: Path, text: str) -> None:
-    """Write a file through a temporary file and an atomic rename."""
+def replace_text(path: Path, text: str | bytes) -> None:
+    """Write a file (text, or bytes such as a PNG) through a temporary file and an atomic rename."""
     handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
-        with os.fdopen(handle, "w", encoding="utf-8") as out:
+        with os.fdopen(handle, "wb") if isinstance(text, bytes) else os.fdopen(handle, "w", encoding="utf-8") as out:
             out.write(text)
         os.replace(temporary, path)
     finally:
@@ -388,12 +388,14 @@ def significant(value: float, digits: int = 4) -> str:
 
 
 def read_image(path: str | Path) -> np.ndarray:
-    """A PNG (or another format matplotlib reads) as an array ``(rows, columns, channels)``, 0-1."""
-    import matplotlib.image
+    """A PNG or JPEG (or another format Pillow reads) as RGB, shape ``(rows, columns, 3)``, 0-1."""
+    from PIL import Image, UnidentifiedImageError
 
     try:
-        return np.asarray(matplotlib.image.imread(str(path)), dtype=float)
+        with Image.open(path) as picture:
+            rgb = picture.convert("RGB")
     except FileNotFoundError:
         raise SoacheckError(f"{path}: no such image; check the path") from None
-    except (OSError, ValueError, SyntaxError) as err:
-        raise SoacheckError(f"{path}: not an image matplotlib can read ({err}); save the plot as PNG") from None
+    except (OSError, UnidentifiedImageError, ValueError) as err:
+        raise SoacheckError(f"{path}: not an image Pillow can read ({err}); save the plot as PNG or JPEG") from None
+    return np.asarray(rgb, dtype=float) / 255.0

@@ -313,11 +313,98 @@ def read_zth(path: Path) -> tuple[np.ndarray, np.ndarray]:
     return t, z
 
 
-def write_part_folder(folder: Path, files: dict[str, str], *, force: bool = False) -> None:
-    """Write a part folder atomically; an existing one is replaced only with ``force``."""
-    if Path(folder).exists() and not force:
-        raise SoacheckError(f"{folder}: exists; choose another id or add --force to replace it")
-    write_folder(folder, files, force=force)
+def output_folder(folder: Path) -> Path:
+    """Make sure ``folder`` exists (with its parents) to write into; one clear error when it cannot."""
+    folder = Path(folder)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except FileExistsError:
+        raise SoacheckError(f"{folder}: is a file, not a folder; choose another output folder") from None
+    except OSError as err:
+        raise SoacheckError(
+            f"{folder}: cannot make this folder ({err.strerror}); choose a folder you can write to"
+        ) from None
+    return folder
+
+
+def write_output(path: Path, text: str | bytes) -> None:
+    """Write one file (text or bytes) atomically, making its folder; file-system errors as one clear line."""
+    if path.is_dir():
+        raise SoacheckError(f"{path}: is a folder; give the file to write, such as {path / path.name}")
+    output_folder(path.parent)
+    try:
+        replace_text(path, text)
+    except OSError as err:
+        raise SoacheckError(f"{path}: cannot write it ({err.strerror}); choose a folder you can write to") from None
+
+
+def write_new_part(folder: Path, toml: str, soa: str, *, force: bool = False) -> tuple[str, ...]:
+    """Write ``part.toml`` and, unless the folder already holds curves, ``soa.csv``.
+
+    Digitized curves are never lost: a ``soa.csv`` or ``zth.csv`` already in the folder is
+    kept, with or without ``force``; ``force`` replaces only an existing ``part.toml``.
+    Other files in the folder are left alone. A new folder is written atomically.
+
+    Returns
+    -------
+    tuple of str
+        The names of the curve files that were kept.
+    """
+    folder = Path(folder)
+    if not folder.exists():
+        output_folder(folder.parent)
+        try:
+            write_folder(folder, {PART_FILE: toml, SOA_FILE: soa})
+        except OSError as err:
+            raise SoacheckError(
+                f"{folder}: cannot write it ({err.strerror}); choose a folder you can write to"
+            ) from None
+        return ()
+    if not folder.is_dir():
+        raise SoacheckError(f"{folder}: is a file, not a part folder; choose another id or --into folder")
+    if (folder / PART_FILE).exists() and not force:
+        raise SoacheckError(
+            f"{folder / PART_FILE}: exists; add --force to replace it (soa.csv and zth.csv are kept either way)"
+        )
+    kept = tuple(name for name in (SOA_FILE, ZTH_FILE) if (folder / name).exists())
+    if SOA_FILE not in kept:
+        write_output(folder / SOA_FILE, soa)
+    write_output(folder / PART_FILE, toml)
+    return kept
+
+
+def add_curves(path: Path, curves: dict[str, tuple[np.ndarray, np.ndarray]], *, force: bool = False) -> int:
+    """Add pulse curves to ``soa.csv`` in one atomic write, keeping every other row; returns the rows written.
+
+    ``curves`` maps a pulse width (``dc``, ``1ms`` ...) to its voltages and currents. A
+    curve of the same pulse width already in the file is replaced only with ``force``.
+    The folder is made when it does not exist.
+    """
+    path = Path(path)
+    labels = [format_duration(parse_duration(pulse, where="pulse")) for pulse in curves]
+    if len(set(labels)) < len(labels):
+        raise SoacheckError(f"pulse widths {', '.join(curves)}: a pulse width is given twice; one curve per width")
+    kept: list[str] = []
+    if path.is_file():
+        table = read_table(path, numeric=("voltage", "current"), text=("pulse",))
+        frame = table.frame
+        existing = [format_duration(parse_duration(p, where=f"{path}: pulse")) for p in frame["pulse"]]
+        same = np.isin(existing, labels)
+        if same.any() and not force:
+            clash = next(e for e in existing if e in labels)
+            raise SoacheckError(f"{path}: already has a '{clash}' curve; add --force to replace it")
+        kept = [
+            f"{p},{float(v)!r},{float(c)!r}"
+            for p, v, c, s in zip(frame["pulse"], frame["voltage"], frame["current"], same, strict=True)
+            if not s
+        ]
+    rows = [
+        f"{label},{significant(v)},{significant(c)}"
+        for label, (voltage_v, current_a) in zip(labels, curves.values(), strict=True)
+        for v, c in zip(voltage_v, current_a, strict=True)
+    ]
+    write_output(path, "\n".join(["pulse,voltage,current", *kept, *rows]) + "\n")
+    return len(rows)
 
 
 def add_curve(path: Path, pulse: str, voltage_v: np.ndarray, current_a: np.ndarray, *, force: bool = False) -> int:
@@ -325,29 +412,13 @@ def add_curve(path: Path, pulse: str, voltage_v: np.ndarray, current_a: np.ndarr
 
     A curve of the same pulse width already in the file is replaced only with ``force``.
     """
-    path = Path(path)
-    label = format_duration(parse_duration(pulse, where="--pulse"))
-    kept: list[str] = []
-    if path.exists():
-        table = read_table(path, numeric=("voltage", "current"), text=("pulse",))
-        frame = table.frame
-        same = np.array([format_duration(parse_duration(p, where=f"{path}: pulse")) == label for p in frame["pulse"]])
-        if same.any() and not force:
-            raise SoacheckError(f"{path}: already has a '{label}' curve; add --force to replace it")
-        kept = [
-            f"{p},{float(v)!r},{float(c)!r}"
-            for p, v, c, s in zip(frame["pulse"], frame["voltage"], frame["current"], same, strict=True)
-            if not s
-        ]
-    rows = [f"{label},{significant(v)},{significant(c)}" for v, c in zip(voltage_v, current_a, strict=True)]
-    replace_text(path, "\n".join(["pulse,voltage,current", *kept, *rows]) + "\n")
-    return len(rows)
+    return add_curves(path, {pulse: (voltage_v, current_a)}, force=force)
 
 
 def write_zth(path: Path, time_s: np.ndarray, zth_k_per_w: np.ndarray, *, force: bool = False) -> None:
     """Write ``zth.csv`` (one curve per part); an existing file is replaced only with ``force``."""
     path = Path(path)
-    if path.exists() and not force:
+    if path.is_file() and not force:
         raise SoacheckError(f"{path}: exists; add --force to replace it")
     rows = [f"{significant(t)},{significant(z)}" for t, z in zip(time_s, zth_k_per_w, strict=True)]
-    replace_text(path, "\n".join(["time,zth", *rows]) + "\n")
+    write_output(path, "\n".join(["time,zth", *rows]) + "\n")

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -17,12 +18,12 @@ from matplotlib.figure import Figure
 from typer.testing import CliRunner
 
 from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
-from soacheck.boundary import allowed_current
 from soacheck.cli import app
 from soacheck.files import read_image
 from soacheck.library import bundled_library, list_parts
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
+from soacheck.boundary import allowed_current
 
 from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part
 
@@ -85,9 +86,7 @@ def test_round_trip_of_picked_points_within_one_pixel(drawn, tmp_path):
     pd.DataFrame({"x": np.round(px), "y": np.round(py)}).to_csv(picked, index=False)
     x_cal, y_cal = calibrations(drawn)
     out = tmp_path / "soa.csv"
-    result = runner.invoke(
-        app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)]
-    )
+    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)])
     assert result.exit_code == 0, result.output
     rows = pd.read_csv(out)
     tolerance = one_pixel_relative(drawn) + 1e-3  # + the 4-digit rounding of the output
@@ -281,7 +280,7 @@ def test_new_part_thermal_segment_is_exactly_p_max_over_v(tmp_path):
             "40",
             "--sb-exponent",
             "2",
-            "--library",
+            "--into",
             str(tmp_path),
         ],
     )
@@ -315,7 +314,7 @@ def test_new_part_without_a_knee_warns(tmp_path):
             "150",
             "--rth-jc",
             "1.25",
-            "--library",
+            "--into",
             str(tmp_path),
         ],
     )
@@ -343,7 +342,7 @@ def test_new_part_refuses_unsafe_ids(tmp_path, bad_id):
             "150",
             "--rth-jc",
             "1.25",
-            "--library",
+            "--into",
             str(tmp_path),
         ],
     )
@@ -351,34 +350,62 @@ def test_new_part_refuses_unsafe_ids(tmp_path, bad_id):
     assert list(tmp_path.iterdir()) == []
 
 
+NEW_PART = [
+    "new-part",
+    "lab-npn-3",
+    "--kind",
+    "npn",
+    "--v-max",
+    "100",
+    "--i-max",
+    "15",
+    "--p-max",
+    "125",
+    "--tj-max",
+    "150",
+    "--rth-jc",
+    "1.0",
+]
+
+
 def test_new_part_never_overwrites_without_force(tmp_path):
-    args = [
-        "new-part",
-        "lab-npn-3",
-        "--kind",
-        "npn",
-        "--v-max",
-        "100",
-        "--i-max",
-        "10",
-        "--p-max",
-        "100",
-        "--tj-max",
-        "150",
-        "--rth-jc",
-        "1.25",
-        "--library",
-        str(tmp_path),
-    ]
+    args = [*NEW_PART, "--into", str(tmp_path)]
     assert runner.invoke(app, args).exit_code == 0
-    (tmp_path / "lab-npn-3" / "notes.txt").write_text("mine")
+    folder = tmp_path / "lab-npn-3"
+    (folder / "notes.txt").write_text("mine")
+    (folder / "part.toml").write_text((folder / "part.toml").read_text() + "# my edit\n")
     again = runner.invoke(app, args)
-    assert again.exit_code == 2 and "--force" in again.stderr
-    assert (tmp_path / "lab-npn-3" / "notes.txt").read_text() == "mine"
+    assert again.exit_code == 2 and "--force" in again.stderr and str(folder / "part.toml") in again.stderr
+    assert "# my edit" in (folder / "part.toml").read_text()
     assert runner.invoke(app, [*args, "--force"]).exit_code == 0
-    # replaced whole and atomically: no staging folders left behind
+    # --force replaces what new-part writes and nothing else; no staging files left behind
+    assert "# my edit" not in (folder / "part.toml").read_text()
+    assert (folder / "notes.txt").read_text() == "mine"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["lab-npn-3"]
-    assert not (tmp_path / "lab-npn-3" / "notes.txt").exists()
+    assert sorted(p.name for p in folder.iterdir()) == ["notes.txt", "part.toml", "soa.csv"]
+
+
+@pytest.mark.parametrize("force", [False, True], ids=["plain", "force"])
+def test_new_part_keeps_digitized_curves(tmp_path, force):
+    """A folder holding the user's soa.csv and zth.csv keeps both, byte for byte, with or without --force."""
+    folder = tmp_path / "lab-npn-3"
+    folder.mkdir()
+    (folder / "soa.csv").write_text(REFERENCE_SOA)
+    zth = "time,zth\n0.001,0.05\n0.1,0.5\n10,0.95\n"
+    (folder / "zth.csv").write_text(zth)
+    result = runner.invoke(app, [*NEW_PART, "--into", str(tmp_path), *(["--force"] if force else [])])
+    assert result.exit_code == 0, result.output
+    assert (folder / "soa.csv").read_text() == REFERENCE_SOA and (folder / "zth.csv").read_text() == zth
+    assert f"kept {folder / 'soa.csv'}" in result.stdout and f"kept {folder / 'zth.csv'}" in result.stdout
+    part = read_part(folder)
+    assert [c.pulse_s for c in part.curves] == [1e-3, math.inf]  # the digitized 1 ms and DC curves
+    assert "digitized" in part.source
+
+
+def test_new_part_library_option_is_a_search_path_only(tmp_path):
+    result = runner.invoke(app, [*NEW_PART, "-L", str(tmp_path)])
+    assert result.exit_code == 2 and "--into" in result.stderr
+    assert list(tmp_path.iterdir()) == []
 
 
 def test_inconsistent_ratings_use_the_smaller_power():
@@ -387,3 +414,121 @@ def test_inconsistent_ratings_use_the_smaller_power():
     )
     assert made.p_max_w == pytest.approx(100.0) and made.warnings
     assert math.isclose(made.voltage_v[1], 10.0)  # 100 W / 10 A
+
+
+# --------------------------------------------------------------------------- output folders
+
+
+@pytest.fixture
+def unwritable(tmp_path, monkeypatch):
+    """A folder nobody may write into: mode 0o555, and for root (whom modes do not stop) the
+    refusal the operating system gives everyone else (EACCES) when a file is made in it."""
+    import errno
+    import os
+    import tempfile
+
+    folder = tmp_path / "locked"
+    folder.mkdir()
+    folder.chmod(0o555)
+    if os.access(folder, os.W_OK):
+        real_mkstemp, real_mkdtemp = tempfile.mkstemp, tempfile.mkdtemp
+
+        def refuse(real):
+            def make(*args, dir=None, **kwargs):
+                if dir is not None and Path(dir).resolve().is_relative_to(folder.resolve()):
+                    raise PermissionError(errno.EACCES, "Permission denied", str(dir))
+                return real(*args, dir=dir, **kwargs)
+
+            return make
+
+        monkeypatch.setattr(tempfile, "mkstemp", refuse(real_mkstemp))
+        monkeypatch.setattr(tempfile, "mkdtemp", refuse(real_mkdtemp))
+    yield folder
+    folder.chmod(0o755)
+
+
+def one_line_exit_2(result, *fragments):
+    assert result.exit_code == 2, result.output
+    assert "Traceback" not in result.output and result.exception is None or isinstance(result.exception, SystemExit)
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("soacheck: error:"), result.stderr
+    for fragment in fragments:
+        assert fragment in lines[0], lines[0]
+
+
+def picked_args(tmp_path):
+    picked = tmp_path / "p.csv"
+    picked.write_text("x,y\n100,300\n400,100\n")
+    return ["digitize", str(picked), "--x", "100=1,400=1000", "--y", "300=1,100=100"]
+
+
+@pytest.mark.parametrize("zth", [False, True], ids=["soa", "zth"])
+def test_digitize_makes_missing_output_folders(tmp_path, zth):
+    out = tmp_path / "my-parts" / "lab-npn-a" / ("zth.csv" if zth else "soa.csv")
+    result = runner.invoke(app, [*picked_args(tmp_path), *(["--zth"] if zth else []), "--into", str(out)])
+    assert result.exit_code == 0, result.output
+    assert out.is_file()
+
+
+@pytest.mark.parametrize("zth", [False, True], ids=["soa", "zth"])
+def test_digitize_into_a_file_instead_of_a_folder(tmp_path, zth):
+    blocker = tmp_path / "my-parts"
+    blocker.write_text("a file where a folder should be")
+    out = blocker / "lab-npn-a" / "soa.csv"
+    result = runner.invoke(app, [*picked_args(tmp_path), *(["--zth"] if zth else []), "--into", str(out)])
+    one_line_exit_2(result, str(blocker))
+    assert blocker.read_text() == "a file where a folder should be"
+
+
+@pytest.mark.parametrize("zth", [False, True], ids=["soa", "zth"])
+def test_digitize_into_an_unwritable_folder(tmp_path, unwritable, zth):
+    out = unwritable / "soa.csv"
+    result = runner.invoke(app, [*picked_args(tmp_path), *(["--zth"] if zth else []), "--into", str(out)])
+    one_line_exit_2(result, str(out), "Permission denied")
+
+
+def test_digitize_output_that_is_a_folder(tmp_path):
+    result = runner.invoke(app, [*picked_args(tmp_path), "--into", str(tmp_path)])
+    one_line_exit_2(result, "is a folder")
+
+
+def test_new_part_makes_missing_folders(tmp_path):
+    into = tmp_path / "my-parts" / "bench"
+    result = runner.invoke(app, [*NEW_PART, "--into", str(into)])
+    assert result.exit_code == 0, result.output
+    assert lint_part(into / "lab-npn-3") == []
+
+
+def test_new_part_into_a_file(tmp_path):
+    blocker = tmp_path / "my-parts"
+    blocker.write_text("not a folder")
+    one_line_exit_2(runner.invoke(app, [*NEW_PART, "--into", str(blocker)]), str(blocker))
+
+
+def test_new_part_where_the_part_folder_is_a_file(tmp_path):
+    (tmp_path / "lab-npn-3").write_text("not a folder")
+    one_line_exit_2(runner.invoke(app, [*NEW_PART, "--into", str(tmp_path), "--force"]), "is a file")
+
+
+def test_new_part_into_an_unwritable_folder(unwritable):
+    one_line_exit_2(runner.invoke(app, [*NEW_PART, "--into", str(unwritable)]), "Permission denied")
+
+
+def test_new_part_into_an_unwritable_part_folder(tmp_path, monkeypatch):
+    """An existing part folder nobody may write into (part.toml is written there, not staged beside it)."""
+    folder = tmp_path / "lab-npn-3"
+    folder.mkdir()
+    (folder / "soa.csv").write_text(REFERENCE_SOA)
+    import errno
+    import tempfile
+
+    real = tempfile.mkstemp
+
+    def refuse(*args, dir=None, **kwargs):
+        if dir is not None and Path(dir) == folder:
+            raise PermissionError(errno.EACCES, "Permission denied", str(dir))
+        return real(*args, dir=dir, **kwargs)
+
+    monkeypatch.setattr(tempfile, "mkstemp", refuse)
+    one_line_exit_2(runner.invoke(app, [*NEW_PART, "--into", str(tmp_path)]), "Permission denied")
+    assert (folder / "soa.csv").read_text() == REFERENCE_SOA

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import os
 from pathlib import Path
 from typing import Annotated
@@ -12,13 +11,16 @@ import typer
 from rich.markup import escape
 
 from soacheck.authoring import (
-    AxisCalibration,
     check_part_id,
+    curve_rows,
     follow_colour,
     parse_colour,
+    parse_seed,
+    part_toml,
     pixels_to_values,
     soa_from_ratings,
 )
+from soacheck.calibration import AxisCalibration, decades_disagree, parse_range, range_calibration
 from soacheck.cli.base import (
     ForceOpt,
     JsonOpt,
@@ -32,7 +34,25 @@ from soacheck.errors import SoacheckError
 from soacheck.files import read_image, read_table
 from soacheck.library import find_part_folder, library_folders
 from soacheck.lint import lint_part
-from soacheck.partfiles import PART_FILE, SOA_FILE, add_curve, write_part_folder, write_zth
+from soacheck.partfiles import (
+    PART_FILE,
+    SOA_FILE,
+    ZTH_FILE,
+    add_curve,
+    add_curves,
+    write_new_part,
+    write_output,
+    write_zth,
+)
+from soacheck.tracing import (
+    SIMPLIFY_DECADES,
+    decades_seen,
+    find_frame,
+    grey_levels,
+    grid_lines,
+    plot_overlay,
+    trace_curves,
+)
 
 
 @app.command()
@@ -43,15 +63,34 @@ def digitize(
     ] = None,
     x: Annotated[str, typer.Option("--x", help="x calibration: PX1=V1,PX2=V2 (pixel column = value).")] = "",
     y: Annotated[str, typer.Option("--y", help="y calibration: PY1=I1,PY2=I2 (pixel row = value).")] = "",
+    x_range: Annotated[
+        str, typer.Option("--x-range", help="x values at the frame's left and right edges, LOW:HIGH (needs --image).")
+    ] = "",
+    y_range: Annotated[
+        str, typer.Option("--y-range", help="y values at the frame's bottom and top edges, LOW:HIGH (needs --image).")
+    ] = "",
     pulse: Annotated[str, typer.Option("--pulse", help="The curve's pulse width: dc, 10us, 1ms ...")] = "dc",
     linear_x: Annotated[bool, typer.Option("--linear-x", help="The x axis is linear, not logarithmic.")] = False,
     linear_y: Annotated[bool, typer.Option("--linear-y", help="The y axis is linear, not logarithmic.")] = False,
     zth: Annotated[bool, typer.Option("--zth", help="A Zth curve (x time in s, y in K/W) for zth.csv.")] = False,
     image: Annotated[
-        Path | None, typer.Option("--image", help="The plot as a PNG: pick on screen, or follow --colour.")
+        Path | None,
+        typer.Option(
+            "--image", help="The plot as PNG or JPEG: trace black curves, follow --colour, or pick on screen."
+        ),
+    ] = None,
+    trace: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--trace",
+            help="Trace the black curve through V:I (read off the picture) as pulse width PULSE: V:I=PULSE; repeatable. T:Z with --zth.",
+        ),
     ] = None,
     colour: Annotated[
         str | None, typer.Option("--colour", help="Follow the curve of this colour (#rrggbb) in --image.")
+    ] = None,
+    overlay: Annotated[
+        Path | None, typer.Option("--overlay", help="Write the picture with the traced curves drawn over it (.png).")
     ] = None,
     into: Annotated[
         Path | None,
@@ -59,12 +98,24 @@ def digitize(
             "--into",
             metavar="FILE",
             show_default="soa.csv or zth.csv",
-            help="The soa.csv (or zth.csv) to add the curve to.",
+            help="The soa.csv (or zth.csv) to add the curves to; its folder is made when missing.",
         ),
     ] = None,
     force: ForceOpt = False,
 ) -> None:
-    """Turn points picked on a datasheet plot into soa.csv (or zth.csv) rows."""
+    """Turn a datasheet plot into soa.csv (or zth.csv) rows: trace its curves, follow a colour, or use picked pixels."""
+    target = into or Path(ZTH_FILE if zth else SOA_FILE)
+    if trace:
+        if image is None:
+            raise SoacheckError("--trace needs the picture: add --image sheet.png")
+        if points is not None or colour is not None:
+            raise SoacheckError("--trace traces the picture itself; leave out the picked-pixel CSV and --colour")
+        _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overlay, target, force)
+        return
+    if overlay is not None:
+        raise SoacheckError("--overlay draws traced curves; add --trace V:I=PULSE")
+    if x_range or y_range:
+        raise SoacheckError("--x-range and --y-range calibrate a traced picture; add --trace, or give --x and --y")
     if not x or not y:
         raise SoacheckError("give both axis calibrations: --x PX1=V1,PX2=V2 --y PY1=I1,PY2=I2")
     x_axis = AxisCalibration.parse(x, log=not linear_x, option="--x")
@@ -77,17 +128,89 @@ def digitize(
     elif image is not None:
         px, py = _pick_on_screen(image)
     else:
-        raise SoacheckError("give a CSV of picked pixels (x,y), or --image with --colour to follow a curve")
+        raise SoacheckError(
+            "give --image with --trace V:I=PULSE to trace a curve, --image with --colour to follow one, "
+            "or a CSV of picked pixels (x,y)"
+        )
     if px.size < 2:
         raise SoacheckError("a curve needs at least two points")
     values_x, values_y = pixels_to_values(px, py, x_axis, y_axis)
-    target = into or Path("zth.csv" if zth else "soa.csv")
     if zth:
         write_zth(target, values_x, values_y, force=force)
         typer.echo(f"wrote {values_x.size} Zth points to {target}")
     else:
         written = add_curve(target, pulse, values_x, values_y, force=force)
         typer.echo(f"added {written} points of the '{pulse}' curve to {target}")
+
+
+def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overlay, target, force) -> None:
+    """Trace each seeded curve in the picture and add it to ``target``."""
+    if linear_x or linear_y:
+        raise SoacheckError("--trace works on log-log plots; leave out --linear-x/--linear-y")
+    seeds = [parse_seed(text, zth=zth) for text in trace]
+    if zth and len(seeds) > 1:
+        raise SoacheckError("a part has one Zth curve: give one --trace T:Z with --zth")
+    if overlay is not None:
+        if overlay.suffix.lower() != ".png":
+            raise SoacheckError(f"--overlay '{overlay}' must end in .png")
+        if overlay.exists() and not force:
+            raise SoacheckError(f"{overlay}: exists; choose another name or add --force to replace it")
+    picture = read_image(image)
+    grey = grey_levels(picture)
+    frame = find_frame(grey)
+    x_axis = _axis(x, x_range, "--x", (frame.left, frame.right), grey, frame, horizontal=False)
+    y_axis = _axis(y, y_range, "--y", (frame.bottom, frame.top), grey, frame, horizontal=True)
+    curves = trace_curves(grey, frame, seeds, x_axis, y_axis)
+    for curve in curves:
+        if curve.note:
+            typer.echo(f"note: seed {curve.seed.label}: {curve.note}", err=True)
+    if overlay is not None:
+        _write_overlay(overlay, picture, curves)
+    unit_x, unit_y = ("s", "K/W") if zth else ("V", "A")
+    for curve in curves:
+        typer.echo(
+            f"{curve.seed.name or 'Zth'}: {curve.x.size} vertices from {curve.x[0]:.4g} to {curve.x[-1]:.4g} {unit_x}; "
+            f"traced pixels within {curve.largest_px:.1f} px ({curve.largest_decades:.4f} decade in {unit_y}) "
+            f"of the line through them (tolerance {SIMPLIFY_DECADES:g} decade)"
+        )
+    if zth:
+        write_zth(target, curves[0].x, curves[0].y, force=force)
+        typer.echo(f"wrote {curves[0].x.size} Zth points to {target}")
+    else:
+        written = add_curves(target, {c.seed.name: (c.x, c.y) for c in curves}, force=force)
+        typer.echo(f"added {written} points of {len(curves)} curve(s) to {target}")
+
+
+def _axis(ticks, value_range, option, edges, grey, frame, *, horizontal) -> AxisCalibration:
+    """An axis from pixel ticks, or from its range put on the frame's edges and checked against the grid."""
+    if ticks and value_range:
+        raise SoacheckError(f"give {option} (pixel ticks) or {option}-range (values at the frame's edges), not both")
+    if ticks:
+        return AxisCalibration.parse(ticks, log=True, option=option)
+    if not value_range:
+        raise SoacheckError(f"give the axis calibration: {option}-range LOW:HIGH, or {option} PX1=V1,PX2=V2")
+    axis = range_calibration(*edges, parse_range(value_range, log=True, option=f"{option}-range"), log=True)
+    lines = grid_lines(grey, frame, horizontal=horizontal)
+    disagreement = decades_disagree(
+        axis, decades_seen(lines, abs(edges[1] - edges[0])), f"{option}-range {value_range}"
+    )
+    if disagreement:
+        raise SoacheckError(disagreement)
+    return axis
+
+
+def _write_overlay(path: Path, picture: np.ndarray, curves) -> None:
+    """The overlay picture, pixel for pixel over the original, written atomically."""
+    import io
+
+    from matplotlib.figure import Figure
+
+    rows, columns = picture.shape[:2]
+    figure = Figure(figsize=(columns / 100, rows / 100), dpi=100)
+    plot_overlay(picture, curves, ax=figure.add_axes((0, 0, 1, 1)))
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format="png", dpi=100)
+    write_output(path, buffer.getvalue())
 
 
 def _pick_on_screen(image: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -152,10 +275,17 @@ def new_part(
         float | None, typer.Option("--sb-exponent", help="Steepness of that line (I ∝ V^-n).")
     ] = None,
     description: Annotated[str, typer.Option("--description", help="One line for tables.")] = "",
-    library: Annotated[Path | None, typer.Option("--library", "-L", help="Folder to write the part into.")] = None,
-    force: ForceOpt = False,
+    into: Annotated[
+        Path, typer.Option("--into", help="Folder to write the part folder ID into; made when missing.")
+    ] = Path("."),
+    library: Annotated[list[Path] | None, typer.Option("--library", "-L", hidden=True)] = None,
+    force: Annotated[
+        bool, typer.Option("--force", help="Replace an existing part.toml (soa.csv and zth.csv are always kept).")
+    ] = False,
 ) -> None:
-    """Write a part folder whose DC curve is synthesized from its ratings (conservative where it can be)."""
+    """Write part.toml, and a DC curve synthesized from the ratings unless the folder already holds curves."""
+    if library:
+        raise SoacheckError("new-part: -L/--library is a search path; give the folder to write into with --into DIR")
     check_part_id(part_id)
     made = soa_from_ratings(
         kind=kind,
@@ -167,20 +297,31 @@ def new_part(
         sb_knee_v=sb_knee,
         sb_exponent=sb_exponent,
     )
+    folder = into / part_id
+    digitized = (folder / SOA_FILE).is_file()
     knee = "" if sb_knee is None else f", second breakdown from {sb_knee:g} V with exponent {sb_exponent:g}"
-    toml = (
-        f'id = "{part_id}"\n'
-        f'kind = "{kind}"\n'
-        f"description = {json.dumps(description or f'{kind} synthesized from ratings')}\n"
-        f'source = "synthesized from ratings by soacheck new-part (current limit, constant power{knee}); '
-        'not digitized from a datasheet SOA plot"\n\n'
-        "[ratings]\n"
-        f"v_max = {v_max!r}\ni_max = {i_max!r}\np_max = {p_max!r}\ntj_max = {tj_max!r}\nrth_jc = {rth_jc!r}\n"
+    source = (
+        "ratings typed into soacheck new-part; curves in soa.csv digitized from the datasheet (name it and its "
+        "revision here)"
+        if digitized
+        else f"synthesized from ratings by soacheck new-part (current limit, constant power{knee}); "
+        "not digitized from a datasheet SOA plot"
     )
-    rows = "\n".join(f"dc,{float(v)!r},{float(i)!r}" for v, i in zip(made.voltage_v, made.current_a, strict=True))
-    base = library if library is not None else Path(".")
-    folder = base / part_id
-    write_part_folder(folder, {PART_FILE: toml, SOA_FILE: "pulse,voltage,current\n" + rows + "\n"}, force=force)
-    for warning in made.warnings:
+    toml = part_toml(
+        part_id,
+        kind=kind,
+        description=description or (f"{kind}, curves digitized" if digitized else f"{kind} synthesized from ratings"),
+        source=source,
+        v_max_v=v_max,
+        i_max_a=i_max,
+        p_max_w=p_max,
+        tj_max_c=tj_max,
+        rth_jc_k_per_w=rth_jc,
+    )
+    kept = write_new_part(folder, toml, curve_rows("dc", made.voltage_v, made.current_a), force=force)
+    # with digitized curves kept, only the warning about the ratings themselves applies
+    for warning in (w for w in made.warnings if not digitized or w.startswith("p_max")):
         typer.echo(f"warning: {warning}", err=True)
-    typer.echo(f"wrote {folder}")
+    for name in kept:
+        typer.echo(f"kept {folder / name} as it is")
+    typer.echo(f"wrote {folder / PART_FILE}" + ("" if SOA_FILE in kept else f" and {folder / SOA_FILE}"))

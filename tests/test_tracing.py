@@ -1,0 +1,318 @@
+"""Tracing black curves on synthetic datasheet pictures, checked against the drawing's own data.
+
+Each picture is drawn with matplotlib (a reference plotting library) from known curves
+(tests/pictures.py): black curves on a grey log-log grid, a framed plot with ticks and
+labels. The known vertices are the reference; tolerances are stated in pixels of the
+drawing and converted to decades.
+"""
+
+from __future__ import annotations
+
+import math
+import shlex
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from soacheck.calibration import AxisCalibration, decades_disagree
+from soacheck.cli import app
+from soacheck.files import read_image
+from soacheck.lint import lint_part
+from soacheck.partfiles import read_part
+from soacheck.tracing import OVERLAY_COLOUR, decades_seen, sharpen, simplify
+
+from .pictures import CURVES, DC, PULSE_1MS, PULSE_100US, KnownCurve, draw_sheet
+
+runner = CliRunner(env={"COLUMNS": "200"})
+
+RANGES = ["--x-range", "1:100", "--y-range", "0.1:100"]
+# seeds read off the picture by eye: on each curve's own stretch (not the shared 40 A line)
+SEEDS = {"dc": "20:6.2", "10ms": "15:12", "1ms": "20:20", "100us": "60:18"}
+
+
+def pixels_per_decade(sheet) -> float:
+    """The coarser axis's pixels per decade in the drawing (from matplotlib's transform)."""
+    (x1, x2), (y1, y2) = sheet.pixel([1.0, 100.0], [0.1, 100.0])
+    return min(abs(x2 - x1) / 2, abs(y2 - y1) / 3)
+
+
+@pytest.fixture(scope="module", params=["png", "jpg"])
+def sheet(request, tmp_path_factory):
+    """All four known curves, two of them touching along the 40 A line, as PNG and as JPEG (quality 75)."""
+    return draw_sheet(tmp_path_factory.mktemp("sheet") / f"sheet.{request.param}", CURVES)
+
+
+@pytest.fixture(scope="module")
+def traced(sheet, tmp_path_factory):
+    """The four curves traced from their seeds once per picture, with an overlay: (rows, result, overlay)."""
+    folder = tmp_path_factory.mktemp("traced")
+    out, overlay = folder / "soa.csv", folder / "check.png"
+    traces = [arg for pulse, seed in SEEDS.items() for arg in ("--trace", f"{seed}={pulse}")]
+    result = runner.invoke(
+        app, ["digitize", "--image", str(sheet.path), *RANGES, *traces, "--into", str(out), "--overlay", str(overlay)]
+    )
+    assert result.exit_code == 0, result.output
+    return pd.read_csv(out), result, overlay
+
+
+@pytest.mark.parametrize("known", CURVES, ids=[c.pulse for c in CURVES])
+def test_traced_vertices_are_the_drawn_vertices(traced, sheet, known: KnownCurve):
+    rows, _, _ = traced
+    curve = rows[rows["pulse"] == known.pulse]
+    # one vertex per drawn vertex: the corners, and the ends at the frame (1 V and 100 V)
+    assert curve["voltage"].size == len(known.voltage_v), curve
+    # within 1.5 px of the drawing on its coarser axis (antialiasing and JPEG noise), as a
+    # ratio of values; plus the 4-digit rounding of soa.csv
+    tolerance = 10 ** (1.5 / pixels_per_decade(sheet)) - 1 + 1e-3
+    assert curve["voltage"].to_numpy() == pytest.approx(known.voltage_v, rel=tolerance)
+    assert curve["current"].to_numpy() == pytest.approx(known.current_a, rel=tolerance)
+
+
+def test_the_printout_gives_vertices_and_largest_distance_per_curve(traced):
+    _, result, _ = traced
+    for pulse in SEEDS:
+        line = next(line for line in result.stdout.splitlines() if line.startswith(f"{pulse}:"))
+        assert "vertices" in line and "px" in line and "decade" in line
+        distance_px = float(line.split("within ")[1].split(" px")[0])
+        assert distance_px <= 1.5  # the Douglas-Peucker tolerance is 0.005 decade, about 0.6 px here
+
+
+def test_a_seed_between_two_curves_takes_the_nearer_and_says_so(tmp_path, sheet):
+    # at 12 V the 1 ms curve is at 33.3 A (40 A x 10/12) and the 100 us curve at 40 A, about
+    # 10 px apart; a seed a third of the way up (in log) lies nearer the 1 ms curve
+    v = 12.0
+    low, high = PULSE_1MS.current_at(np.array([v]))[0], PULSE_100US.current_at(np.array([v]))[0]
+    seed_i = low * (high / low) ** (1 / 3)
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(
+        app, ["digitize", "--image", str(sheet.path), *RANGES, "--trace", f"{v:g}:{seed_i:.2f}=1ms", "--into", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    assert "between two curves" in result.stderr and f"{v:g}:{seed_i:.2f} (1ms)" in result.stderr
+    rows = pd.read_csv(out)
+    assert rows["voltage"].to_numpy() == pytest.approx(PULSE_1MS.voltage_v, rel=0.03)  # the 1 ms curve
+    assert rows["current"].to_numpy() == pytest.approx(PULSE_1MS.current_a, rel=0.03)
+
+
+def test_a_seed_far_from_any_curve_exits_2_naming_it(tmp_path, sheet):
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(
+        app,
+        [
+            "digitize",
+            "--image",
+            str(sheet.path),
+            *RANGES,
+            "--trace",
+            "20:6.2=dc",
+            "--trace",
+            "2:0.5=1ms",
+            "--into",
+            str(out),
+        ],
+    )
+    assert result.exit_code == 2, result.output
+    assert "2:0.5 (1ms)" in result.stderr and "no curve within" in result.stderr
+    assert "Traceback" not in result.output and not out.exists()  # nothing written when one seed fails
+
+
+def test_touching_curves_each_keep_their_own_corner(traced):
+    """The 1 ms and 100 us curves share the 40 A line up to 10 V; each keeps its own bend."""
+    rows, _, _ = traced
+    one_ms = rows[rows["pulse"] == "1ms"]
+    short = rows[rows["pulse"] == "100us"]
+    assert one_ms["voltage"].iloc[1] == pytest.approx(10.0, rel=0.03)  # drawn at 10 V
+    assert short["voltage"].iloc[1] == pytest.approx(30.0, rel=0.03)  # drawn at 30 V
+
+
+def test_a_range_that_disagrees_with_the_grid_is_refused(tmp_path, sheet):
+    # the drawing's y axis spans 0.1 A to 100 A: three decades of grid
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(
+        app,
+        [
+            "digitize",
+            "--image",
+            str(sheet.path),
+            "--x-range",
+            "1:100",
+            "--y-range",
+            "0.1:10",
+            "--trace",
+            "20:6.2=dc",
+            "--into",
+            str(out),
+        ],
+    )
+    assert result.exit_code == 2, result.output
+    assert "--y-range 0.1:10 spans 2 decade(s)" in result.stderr and "grid shows 3" in result.stderr
+
+
+def test_the_overlay_draws_each_vertex_over_the_picture(traced, sheet):
+    rows, _, overlay = traced
+    picture = read_image(overlay)
+    assert picture.shape[:2] == read_image(sheet.path).shape[:2]  # pixel for pixel over the original
+    colour = np.array([int(OVERLAY_COLOUR[k : k + 2], 16) / 255 for k in (1, 3, 5)])
+    for v, i in zip(rows["voltage"], rows["current"], strict=True):
+        column, row = (int(round(float(p[0]))) for p in sheet.pixel(v, i))
+        # the vertex's marker ring (4 pt across) lies within 4 px of it
+        near = picture[max(row - 4, 0) : row + 5, max(column - 4, 0) : column + 5].reshape(-1, 3)
+        assert np.min(np.linalg.norm(near - colour, axis=1)) < 0.2, (v, i)
+
+
+def test_a_zth_curve_is_traced_into_zth_csv(tmp_path):
+    # an invented single-pulse Zth curve: rising, flattening towards 1 K/W
+    zth = KnownCurve("", (1e-5, 1e-3, 1e-1, 10.0), (0.02, 0.15, 0.7, 1.0))
+    sheet = draw_sheet(tmp_path / "zth.png", (zth,), x_range=(1e-5, 10.0), y_range=(0.01, 2.0))
+    out = tmp_path / "zth.csv"
+    result = runner.invoke(
+        app,
+        [
+            "digitize",
+            "--image",
+            str(sheet.path),
+            "--zth",
+            "--x-range",
+            "1e-5:10",
+            "--y-range",
+            "0.01:2",
+            "--trace",
+            "1e-3:0.15",
+            "--into",
+            str(out),
+        ],
+    )
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out)
+    truth = zth.current_at(rows["time"].to_numpy())
+    assert rows["zth"].to_numpy() == pytest.approx(truth, rel=0.02)  # 1.5 px of ~80 px/decade ≈ 4 %; typical 1 %
+    assert rows["time"].iloc[0] == pytest.approx(1e-5, rel=0.05) and rows["time"].iloc[-1] == pytest.approx(
+        10, rel=0.05
+    )
+
+
+# --------------------------------------------------------------------------- the pieces
+
+
+def test_douglas_peucker_keeps_corners_of_a_noisy_polyline():
+    """Points along two straight lines (slope 0 then -1) with ±0.001 noise keep one corner."""
+    x = np.linspace(0.0, 2.0, 401)
+    y = np.where(x < 1.0, 1.0, 2.0 - x) + 0.001 * np.sin(37 * x)
+    keep = simplify(x, y, 0.005)
+    assert x[keep] == pytest.approx([0.0, 1.0, 2.0], abs=0.011)
+
+
+def test_sharpen_moves_a_cut_corner_to_the_crossing_of_its_lines():
+    """A corner rounded over ±0.03 in x (a line join) moves to where the two lines cross, x = 1."""
+    x = np.linspace(0.0, 2.0, 401)
+    y = np.where(x < 1.0, 1.0, 2.0 - x)
+    rounded = np.abs(x - 1.0) < 0.03
+    y[rounded] -= 0.01  # the join pulls the corner inward
+    keep = simplify(x, y, 0.005)
+    vx, vy = sharpen(x, y, keep, np.ones(x.size, bool), margin=10)
+    assert vx == pytest.approx([0.0, 1.0, 2.0], abs=1e-9)
+    assert vy == pytest.approx([1.0, 1.0, 0.0], abs=1e-9)
+
+
+def test_decades_from_a_log_grid_with_minor_lines():
+    """Grid lines at log10(k) for k = 1..9 in each of three decades of 100 px: 3 decades across 300 px."""
+    k = np.arange(1, 10)
+    positions = np.concatenate([100 * (d + np.log10(k)) for d in range(3)] + [np.array([300.0])])
+    assert decades_seen(positions, 300.0) == pytest.approx(3.0)
+    majors = np.array([0.0, 100.0, 200.0, 300.0])
+    assert decades_seen(majors, 300.0) == pytest.approx(3.0)
+    axis = AxisCalibration(0.0, 0.1, 300.0, 10.0)  # two decades given
+    assert "grid shows 3" in decades_disagree(axis, 3.0, "--y-range 0.1:10")
+    assert decades_disagree(AxisCalibration(0.0, 0.1, 300.0, 100.0), 3.02, "--y-range") is None
+
+
+def test_calibration_pixel_is_the_inverse_of_value():
+    axis = AxisCalibration(10.0, 1.0, 310.0, 1000.0)
+    assert axis.pixel(axis.value([10.0, 110.0, 250.0])) == pytest.approx([10.0, 110.0, 250.0])
+    assert axis.pixel(10.0) == pytest.approx(110.0)  # one decade of three over 300 px
+    assert math.isclose(axis.decades, 3.0)
+
+
+def test_the_touching_pair_exists_in_the_drawing():
+    """The reference: 1 ms and 100 us share the 40 A line from 1 V to 10 V (so the touching test means something)."""
+    v = np.array([1.0, 5.0, 10.0])
+    assert PULSE_1MS.current_at(v) == pytest.approx(PULSE_100US.current_at(v))
+
+
+# --------------------------------------------------------------------------- the overlay's folder
+
+
+@pytest.fixture(scope="module")
+def small_sheet(tmp_path_factory):
+    return draw_sheet(tmp_path_factory.mktemp("small") / "sheet.png", (DC,), size_in=(4.0, 3.0))
+
+
+def overlay_args(sheet, out, overlay):
+    return [
+        "digitize",
+        "--image",
+        str(sheet.path),
+        *RANGES,
+        "--trace",
+        "20:6.2=dc",
+        "--into",
+        str(out),
+        "--overlay",
+        str(overlay),
+    ]
+
+
+def test_the_overlay_folder_is_made(tmp_path, small_sheet):
+    overlay = tmp_path / "checks" / "today" / "check.png"
+    result = runner.invoke(app, overlay_args(small_sheet, tmp_path / "soa.csv", overlay))
+    assert result.exit_code == 0, result.output
+    assert read_image(overlay).shape[:2] == read_image(small_sheet.path).shape[:2]
+
+
+def test_an_overlay_under_a_file_exits_2_in_one_line(tmp_path, small_sheet):
+    blocker = tmp_path / "checks"
+    blocker.write_text("a file")
+    result = runner.invoke(app, overlay_args(small_sheet, tmp_path / "soa.csv", blocker / "check.png"))
+    assert result.exit_code == 2, result.output
+    assert result.stderr.strip().count("\n") == 0 and str(blocker) in result.stderr
+    assert not (tmp_path / "soa.csv").exists()  # the overlay comes first: nothing half-written
+
+
+def test_an_existing_overlay_needs_force(tmp_path, small_sheet):
+    overlay = tmp_path / "check.png"
+    overlay.write_bytes(b"mine")
+    result = runner.invoke(app, overlay_args(small_sheet, tmp_path / "soa.csv", overlay))
+    assert result.exit_code == 2 and "--force" in result.stderr
+    assert overlay.read_bytes() == b"mine"
+
+
+# --------------------------------------------------------------------------- the documented path
+
+
+def documented_authoring_path() -> list[list[str]]:
+    """The commands of docs/part-format.md's authoring path, in the order written."""
+    text = (Path(__file__).parents[1] / "docs" / "part-format.md").read_text(encoding="utf-8")
+    block = text.split("<!-- authoring-path")[1].split("```sh\n")[1].split("```")[0]
+    return [shlex.split(line) for line in block.splitlines() if line.strip()]
+
+
+def test_the_documented_authoring_path_runs_from_an_empty_folder(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    draw_sheet(tmp_path / "sheet.png", (DC, PULSE_1MS))  # the picture the text describes
+    commands = documented_authoring_path()
+    assert [argv[1] for argv in commands] == ["digitize", "new-part", "lint", "check"]
+    for argv in commands:
+        assert argv[0] == "soacheck"
+        result = runner.invoke(app, argv[1:])
+        assert result.exit_code == 0, (argv, result.output)
+    part = read_part(tmp_path / "my-parts" / "lab-npn-a")
+    # the traced curves, not a synthesized one: the drawn vertices within 3 % (1.5 px, see above)
+    for known in (DC, PULSE_1MS):
+        curve = next(c for c in part.curves if (c.pulse_s == math.inf) == (known.pulse == "dc"))
+        assert curve.voltage_v == pytest.approx(known.voltage_v, rel=0.03)
+        assert curve.current_a == pytest.approx(known.current_a, rel=0.03)
+    assert lint_part(tmp_path / "my-parts" / "lab-npn-a") == []
+    assert (tmp_path / "check.png").is_file()
