@@ -18,12 +18,12 @@ from matplotlib.figure import Figure
 from typer.testing import CliRunner
 
 from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
+from soacheck.boundary import allowed_current
 from soacheck.cli import app
 from soacheck.files import read_image
 from soacheck.library import bundled_library, list_parts
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
-from soacheck.boundary import allowed_current
 
 from .conftest import REFERENCE_SOA, REFERENCE_TOML, write_part
 
@@ -86,7 +86,9 @@ def test_round_trip_of_picked_points_within_one_pixel(drawn, tmp_path):
     pd.DataFrame({"x": np.round(px), "y": np.round(py)}).to_csv(picked, index=False)
     x_cal, y_cal = calibrations(drawn)
     out = tmp_path / "soa.csv"
-    result = runner.invoke(app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)])
+    result = runner.invoke(
+        app, ["digitize", str(picked), "--x", x_cal, "--y", y_cal, "--pulse", "dc", "--into", str(out)]
+    )
     assert result.exit_code == 0, result.output
     rows = pd.read_csv(out)
     tolerance = one_pixel_relative(drawn) + 1e-3  # + the 4-digit rounding of the output

@@ -276,7 +276,7 @@ def new_part(
     ] = None,
     description: Annotated[str, typer.Option("--description", help="One line for tables.")] = "",
     into: Annotated[
-        Path, typer.Option("--into", help="Folder to write the part folder ID into; made when missing.")
+        Path, typer.Option("--into", metavar="DIR", help="Folder to write the part folder ID into; made when missing.")
     ] = Path("."),
     library: Annotated[list[Path] | None, typer.Option("--library", "-L", hidden=True)] = None,
     force: Annotated[
