@@ -370,6 +370,68 @@ def write_folder(
             shutil.rmtree(staging)
 
 
+def check_output(path: str | Path, *, force: bool = False, folder: bool = False, suffixes: Sequence[str] = ()) -> Path:
+    """Check an output path before any computation, so that a long run never fails at its last step.
+
+    The one check of every file or folder soacheck writes: the suffix is one of
+    ``suffixes`` (when given); the path is not a folder where a file is wanted, nor a file
+    where a folder is wanted; nothing there is replaced without ``force``; the nearest
+    existing parent is a folder this process may write into. Missing parent folders are
+    made here, so the write that follows the computation finds them.
+
+    Parameters
+    ----------
+    path
+        The file or folder to be written.
+    force
+        Allow replacing what is there.
+    folder
+        The output is a folder (a report), not a file.
+    suffixes
+        Accepted suffixes, lower case with the dot (``.png``); any when empty.
+
+    Returns
+    -------
+    pathlib.Path
+        The path.
+
+    Raises
+    ------
+    SoacheckError
+        Naming the path and what is wrong with it.
+    """
+    path = Path(path)
+    if suffixes and path.suffix.lower() not in suffixes:
+        raise SoacheckError(
+            f"'{path}' must end in {', '.join(suffixes[:-1])} or {suffixes[-1]}"
+            if len(suffixes) > 1
+            else f"'{path}' must end in {suffixes[0]}"
+        )
+    if folder and path.exists() and not path.is_dir():
+        raise SoacheckError(f"{path}: is a file, not a folder; choose another name for the output folder")
+    if not folder and path.is_dir():
+        raise SoacheckError(f"{path}: is a folder; give the name of a file to write")
+    if not folder and path.exists() and not force:
+        raise SoacheckError(f"{path}: exists; choose another name or add --force to overwrite it")
+    parent = path.absolute().parent
+    existing = parent
+    while not existing.exists() and existing != existing.parent:
+        existing = existing.parent
+    if not existing.is_dir():
+        raise SoacheckError(f"{path}: '{existing}' is a file, so no folder can be made there; choose another path")
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise SoacheckError(f"{path}: the folder '{existing}' is not writable; choose another path")
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        with tempfile.TemporaryFile(dir=parent):  # the one test that also holds for root and read-only mounts
+            pass
+    except OSError as err:
+        raise SoacheckError(
+            f"{path}: cannot write into the folder '{parent}' ({err.strerror}); choose another path"
+        ) from None
+    return path
+
+
 def replace_text(path: Path, text: str | bytes) -> None:
     """Write a file (text, or bytes such as a PNG) through a temporary file and an atomic rename."""
     handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)

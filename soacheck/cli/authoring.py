@@ -28,6 +28,7 @@ from soacheck.cli.base import (
     app,
     console_for_output,
     echo_json,
+    output_path,
     user_errors,
 )
 from soacheck.errors import SoacheckError
@@ -104,7 +105,7 @@ def digitize(
     force: ForceOpt = False,
 ) -> None:
     """Turn a datasheet plot into soa.csv (or zth.csv) rows: trace its curves, follow a colour, or use picked pixels."""
-    target = into or Path(ZTH_FILE if zth else SOA_FILE)
+    target = output_path(into or Path(ZTH_FILE if zth else SOA_FILE), "--into", force=True, suffixes=(".csv",))
     if trace:
         if image is None:
             raise SoacheckError("--trace needs the picture: add --image sheet.png")
@@ -287,6 +288,7 @@ def new_part(
     if library:
         raise SoacheckError("new-part: -L/--library is a search path; give the folder to write into with --into DIR")
     check_part_id(part_id)
+    folder = output_path(into / part_id, "--into", force=True, folder=True)
     made = soa_from_ratings(
         kind=kind,
         v_max_v=v_max,
@@ -297,7 +299,6 @@ def new_part(
         sb_knee_v=sb_knee,
         sb_exponent=sb_exponent,
     )
-    folder = into / part_id
     digitized = (folder / SOA_FILE).is_file()
     knee = "" if sb_knee is None else f", second breakdown from {sb_knee:g} V with exponent {sb_exponent:g}"
     source = (

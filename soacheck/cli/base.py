@@ -16,6 +16,7 @@ from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Annotated, Any
 
+import click
 import numpy as np
 import typer
 from rich.console import Console
@@ -24,8 +25,10 @@ from typer.core import TyperGroup
 from soacheck import __version__
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.files import check_output
 from soacheck.library import find_part, library_folders, read_stage
 from soacheck.parts import Part
+from soacheck.quantities import DUTY, SAMPLES, Quantity
 from soacheck.stage import Stage
 
 
@@ -116,8 +119,17 @@ PlotOpt = Annotated[Path | None, typer.Option("--plot", metavar="FILE", help="Wr
 ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
 
 
+BUG_REPORT = "this is a bug, please report it with the command and files to the soacheck issue tracker"
+
+
 def user_errors(command):
-    """Turn a SoacheckError into one line on stderr and exit code 2, without a traceback."""
+    """The one place errors become exit codes: one line on stderr, never a traceback.
+
+    A :class:`SoacheckError` (the user can fix the input) exits 2; running out of memory
+    exits 2 too, as an input too large for this machine. Anything else is a bug in
+    soacheck: exit 3 with "internal error" and where to report it, never 0 or 1, so a
+    crash can never read as a pass or as "outside".
+    """
 
     @functools.wraps(command)
     def wrapper(*args, **kwargs):
@@ -126,6 +138,15 @@ def user_errors(command):
         except SoacheckError as err:
             typer.echo(f"soacheck: error: {err}", err=True)
             raise typer.Exit(2) from None
+        except (typer.Exit, typer.Abort, click.exceptions.ClickException, KeyboardInterrupt, SystemExit):
+            raise
+        except MemoryError:
+            typer.echo("soacheck: error: not enough memory for this input; check fewer samples or devices", err=True)
+            raise typer.Exit(2) from None
+        except Exception as err:  # the one catch-all, by design
+            text = " ".join(str(err).split())[:300]
+            typer.echo(f"soacheck: internal error ({type(err).__name__}: {text}); {BUG_REPORT}", err=True)
+            raise typer.Exit(3) from None
 
     return wrapper
 
@@ -185,8 +206,7 @@ def duty_option(duty: float | None, pulse_s: float) -> float:
     """The duty cycle from ``--duty``: 0 (a single pulse) when absent."""
     if duty is None:
         return 0.0
-    if not (0 < duty <= 1):
-        raise SoacheckError(f"--duty is {duty:g}; give the duty cycle tp/T in (0, 1], such as 0.1 for 10 %")
+    DUTY.check(duty, "--duty")
     if math.isinf(pulse_s):
         raise SoacheckError("--duty needs a pulse width: add --pulse, such as --pulse 3ms --duty 0.1")
     return duty
@@ -213,38 +233,43 @@ def echo_json(payload: dict[str, Any]) -> None:
     typer.echo(json.dumps(jsonable(payload), indent=2, ensure_ascii=False))
 
 
-def refuse_overwrite(path: Path, force: bool) -> None:
-    if path.exists() and not force:
-        raise SoacheckError(f"{path}: exists; choose another name with -o or add --force to overwrite it")
+PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 
 
-def plot_suffix(path: Path) -> None:
-    if path.suffix.lower() not in (".png", ".svg", ".pdf"):
-        raise SoacheckError(f"'{path}' must end in .png, .svg or .pdf")
+def output_path(
+    path: Path | None, option: str, *, force: bool, folder: bool = False, suffixes: tuple[str, ...] = ()
+) -> Path | None:
+    """Check an output path before any computation; the one output check of every command.
+
+    See :func:`soacheck.files.check_output` (suffix, file or folder, overwrite, writable
+    parent, missing parents made); the message gains the option's name. None passes.
+    """
+    if path is None:
+        return None
+    try:
+        return check_output(path, force=force, folder=folder, suffixes=suffixes)
+    except SoacheckError as err:
+        raise SoacheckError(f"{option}: {err}") from None
 
 
 def stage_option(path: Path, library: list[Path] | None) -> Stage:
     return read_stage(path, library_folders(library or []))
 
 
-def number_list(text: str, option: str, example: str, *, positive: bool = False) -> np.ndarray:
-    """Comma-separated numbers from an option, such as ``25,75,125``; one clear error otherwise."""
+def number_list(text: str, option: str, example: str, quantity: Quantity) -> np.ndarray:
+    """Comma-separated values of one quantity from an option, such as ``25,75,125``; one clear error otherwise."""
     try:
         values = np.array([float(x) for x in text.split(",") if x.strip()])
     except ValueError:
         raise SoacheckError(f"{option}: '{text}' is not a list of numbers such as {example}") from None
-    if values.size == 0 or not np.all(np.isfinite(values)) or (positive and np.any(values <= 0)):
-        kind = "numbers above zero" if positive else "finite numbers"
-        raise SoacheckError(f"{option}: give {kind}, such as {example}")
-    return values
+    if values.size == 0:
+        raise SoacheckError(f"{option}: give at least one number, such as {example}")
+    return quantity.check_array(values, lambda k: f"{option}: value {k + 1}")
 
 
 def check_outputs(samples: int, plot: Path | None, force: bool) -> None:
-    if samples < 10:
-        raise SoacheckError("--samples must be at least 10")
-    if plot is not None:
-        plot_suffix(plot)
-        refuse_overwrite(plot, force)
+    SAMPLES.check(samples, "--samples")
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
 
 
 def main() -> None:

@@ -13,6 +13,7 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    PLOT_SUFFIXES,
     BreakdownOpt,
     ForceOpt,
     JsonOpt,
@@ -24,9 +25,8 @@ from soacheck.cli.base import (
     duty_option,
     echo_json,
     number_list,
-    plot_suffix,
+    output_path,
     progress_bar,
-    refuse_overwrite,
     stage_option,
     user_errors,
 )
@@ -39,13 +39,14 @@ from soacheck.jobfiles import discharge_from_table, read_envelope
 from soacheck.library import find_part, library_folders, list_parts, read_stage
 from soacheck.limit_table import export_writer, limit_table
 from soacheck.partfiles import read_part
+from soacheck.quantities import TEMPERATURE, VOLTAGE
 from soacheck.units import parse_duration
 
 
 def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
     if text is None:
         return np.geomspace(1.0, v_max_v, 25)
-    return np.unique(number_list(text, "--voltages", "10,20,40", positive=True))
+    return np.unique(number_list(text, "--voltages", "10,20,40", VOLTAGE))
 
 
 @app.command()
@@ -70,10 +71,8 @@ def envelope(
     breakdown = breakdown_option(breakdown_derating)
     loaded = stage_option(stage, library)
     if case_temp is not None:
-        loaded = replace(loaded, cooling=None, case_temp_c=case_temp)
-    if plot is not None:
-        plot_suffix(plot)
-        refuse_overwrite(plot, force)
+        loaded = replace(loaded, cooling=None, case_temp_c=TEMPERATURE.check(case_temp, "--case-temp"))
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     console = console_for_output()
     if check_file is not None:
         env = read_envelope(check_file)
@@ -110,7 +109,7 @@ def envelope(
         raise typer.Exit(0 if result.passed else 1)
     if export is not None:
         write_table = export_writer(export.suffix)
-        refuse_overwrite(export, force)
+        output_path(export, "--export", force=force)
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = 1.0 if math.isinf(pulse_s) else duty_option(duty, pulse_s) if duty is not None else 0.0
     with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
@@ -182,9 +181,8 @@ def compare(
         raise SoacheckError("give the job as one of --envelope FILE, --discharge FILE or --trace FILE")
     if discharge_file is not None and stage is None:
         raise SoacheckError("--discharge needs --stage: a battery discharges through a stage")
-    if plot is not None:
-        plot_suffix(plot)
-        refuse_overwrite(plot, force)
+    TEMPERATURE.check(case_temp, "--case-temp")
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     candidates = (
         [read_part(e.folder) for e in list_parts(folders)] if all_parts else [find_part(p, folders) for p in parts]
     )

@@ -19,6 +19,7 @@ from soacheck.cli.base import (
     console_for_output,
     echo_json,
     jsonable,
+    output_path,
     progress_bar,
     user_errors,
 )
@@ -38,8 +39,9 @@ def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, li
 
     folders = library_folders(library or [])
     plan = read_plan(plan_path, folders)
-    if out.exists() and not (out / REPORT_MARKER).is_file() and not force:
+    if out.is_dir() and not (out / REPORT_MARKER).is_file() and not force:
         raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
+    output_path(out, "--out", force=True, folder=True)
     with progress_bar("jobs", total=len(plan.jobs), quiet=as_json) as progress:
         results = run_plan(plan, progress=progress)
     files: dict[str, str | bytes] = {}

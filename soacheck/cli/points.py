@@ -12,6 +12,7 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    PLOT_SUFFIXES,
     BreakdownOpt,
     ForceOpt,
     JsonOpt,
@@ -23,9 +24,8 @@ from soacheck.cli.base import (
     duty_option,
     echo_json,
     number_list,
+    output_path,
     part_option,
-    plot_suffix,
-    refuse_overwrite,
     user_errors,
 )
 from soacheck.errors import SoacheckError
@@ -33,6 +33,7 @@ from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
 from soacheck.partfiles import read_part
 from soacheck.points import PointCheck, check_points
+from soacheck.quantities import CURRENT, TEMPERATURE, VOLTAGE
 from soacheck.units import parse_duration
 
 
@@ -106,13 +107,10 @@ def check(
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
     breakdown = breakdown_option(breakdown_derating)
-    if plot is not None:
-        plot_suffix(plot)
-        refuse_overwrite(plot, force)
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = duty_option(duty, pulse_s)
-    if not math.isfinite(case_temp):
-        raise SoacheckError("--case-temp must be a finite temperature in °C")
+    TEMPERATURE.check(case_temp, "--case-temp")
     if points is not None:
         if voltage is not None or current is not None:
             raise SoacheckError("give either --points FILE or --voltage and --current, not both")
@@ -124,9 +122,8 @@ def check(
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
-        for name, value in (("--voltage", voltage), ("--current", current)):
-            if not (math.isfinite(value) and value > 0):
-                raise SoacheckError(f"{name} is {value:g}; it must be a number above zero")
+        VOLTAGE.check(voltage, "--voltage")
+        CURRENT.check(current, "--current")
         v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
     loaded = part_option(part, library)
     result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, breakdown=breakdown)
@@ -205,8 +202,7 @@ def show(
     breakdown = breakdown_option(breakdown_derating)
     pulse_s = parse_duration(pulse, where="--pulse")
     output = plot or Path(f"{loaded.id}-soa.png")
-    plot_suffix(output)
-    refuse_overwrite(output, force)
+    output_path(output, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     checked = None
     if points is not None:
         frame = read_points(points).frame
@@ -222,7 +218,7 @@ def show(
 
     ax = plot_soa(
         loaded,
-        case_temps_c=number_list(case_temp, "--case-temp", "25,75,125").tolist(),
+        case_temps_c=number_list(case_temp, "--case-temp", "25,75,125", TEMPERATURE).tolist(),
         pulse_s=pulse_s,
         points=checked,
         breakdown=breakdown,

@@ -32,6 +32,18 @@ from soacheck.cli.base import (
 )
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import battery_from
+from soacheck.quantities import (
+    CAPACITY,
+    CELL_COUNT,
+    CURRENT,
+    DRAWS,
+    PERCENTILE,
+    POWER,
+    RESISTANCE,
+    SEED,
+    SETPOINT,
+    VOLTAGE,
+)
 from soacheck.search import max_safe_setpoint
 from soacheck.sharing import sharing_monte_carlo
 from soacheck.stage_run import StageRun, passes_at, run_stage
@@ -90,9 +102,15 @@ def discharge(
 ) -> None:
     """Discharge a battery through the stage and check every device all the way down."""
     breakdown = breakdown_option(breakdown_derating)
+    mode = choice_option(mode, MODES, "--mode")
+    CELL_COUNT.check(cells, "--cells")
+    CAPACITY.check(capacity, "--capacity")
+    RESISTANCE.check(internal_resistance, "--internal-resistance")
+    SETPOINT[mode].check(setpoint, "--setpoint")
+    if cutoff is not None:
+        VOLTAGE.check(cutoff, "--cutoff")
     loaded = stage_option(stage, library)
     pack = battery_from(battery, cells, capacity, internal_resistance)
-    mode = choice_option(mode, MODES, "--mode")
     check_outputs(samples, plot, force)
 
     def run_at(value: float) -> StageRun:
@@ -132,12 +150,17 @@ def sweep(
 ) -> None:
     """Run a V–I sweep through the stage and check every device along it."""
     breakdown = breakdown_option(breakdown_derating)
+    ramp = choice_option(ramp, ("current", "voltage", "power"), "--ramp")
+    ramped = CURRENT if ramp == "current" else VOLTAGE
+    ramped.check(stop, "--to")
+    if not (ramp == "current" and start == 0):
+        ramped.check(start, "--from")
+    {"current": VOLTAGE, "voltage": CURRENT, "power": POWER}[ramp].check(at, "--at")
     loaded = stage_option(stage, library)
     seconds = parse_duration(ramp_time, where="--time")
     if math.isinf(seconds):
         raise SoacheckError("--time must be a duration such as 10s, not dc")
     check_outputs(samples, plot, force)
-    ramp = choice_option(ramp, ("current", "voltage", "power"), "--ramp")
     path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
     run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
     _report_run(run, path.label, as_json=as_json, plot=plot, extra={})
@@ -156,9 +179,12 @@ def sharing(
     as_json: JsonOpt = False,
 ) -> None:
     """How unevenly the devices share: the worst device's share over random V_BE spreads."""
+    CURRENT.check(current, "--current")
+    VOLTAGE.check(voltage, "--voltage")
+    DRAWS.check(draws, "--draws")
+    PERCENTILE.check(percentile, "--percentile")
+    SEED.check(seed, "--seed")
     loaded = stage_option(stage, library)
-    if not (current > 0 and voltage > 0 and draws >= 1 and 0 < percentile <= 100):
-        raise SoacheckError("--current and --voltage must be above zero, --draws at least 1, --percentile in (0, 100]")
     with progress_bar("Monte Carlo draws", total=draws, quiet=as_json) as progress:
         spread = sharing_monte_carlo(
             loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress

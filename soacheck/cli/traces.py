@@ -12,6 +12,7 @@ from rich.markup import escape
 from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
+    PLOT_SUFFIXES,
     BreakdownOpt,
     ForceOpt,
     JsonOpt,
@@ -20,14 +21,14 @@ from soacheck.cli.base import (
     breakdown_option,
     console_for_output,
     echo_json,
+    output_path,
     part_option,
-    plot_suffix,
     progress_bar,
-    refuse_overwrite,
     user_errors,
 )
 from soacheck.errors import SoacheckError
 from soacheck.files import iter_trace
+from soacheck.quantities import CHUNK_ROWS, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker, TraceResult
 
@@ -62,6 +63,9 @@ def trace(
     as_json: JsonOpt = False,
 ) -> None:
     """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj."""
+    if case_temp is not None:
+        TEMPERATURE.check(case_temp, "--case-temp")
+    CHUNK_ROWS.check(chunk_rows, "--chunk-rows")
     loaded = part_option(part, library)
     breakdown = breakdown_option(breakdown_derating)
     cooling = None
@@ -70,12 +74,13 @@ def trace(
             raise SoacheckError("a heatsink needs both --heatsink-rth (K/W) and --heatsink-capacity (J/K)")
         if case_temp is not None:
             raise SoacheckError("give either --case-temp or a heatsink, not both")
-        cooling = Cooling(interface_rth, heatsink_rth, heatsink_capacity, ambient)
-    if plot is not None:
-        plot_suffix(plot)
-        refuse_overwrite(plot, force)
-    if chunk_rows < 2:
-        raise SoacheckError("--chunk-rows must be at least 2")
+        cooling = Cooling(
+            INTERFACE_RESISTANCE.check(interface_rth, "--interface-rth"),
+            THERMAL_RESISTANCE.check(heatsink_rth, "--heatsink-rth"),
+            HEAT_CAPACITY.check(heatsink_capacity, "--heatsink-capacity"),
+            TEMPERATURE.check(ambient, "--ambient"),
+        )
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     checker = TraceChecker(
         loaded,
         tc_c=None if cooling else (25.0 if case_temp is None else case_temp),
