@@ -25,10 +25,151 @@ The package is organised by domain concept:
 - :mod:`soacheck.authoring`, :mod:`soacheck.lint` -- making parts from datasheets, checking them
 - :mod:`soacheck.plan`, :mod:`soacheck.runner`, :mod:`soacheck.report` -- plans, runs, reports
 - :mod:`soacheck.plots`    -- log-log SOA plots and time plots
-- :mod:`soacheck.cli`      -- the ``soacheck`` command, a thin layer over the above
+- :mod:`soacheck.api`, :mod:`soacheck.results` -- the public functions and their result objects
+- :mod:`soacheck.cli`      -- the ``soacheck`` command, a thin layer over the API
+
+The public surface is what ``__all__`` lists below (see ``docs/python.md``); every other
+name, module and attribute is internal and may change without notice.
 """
 
-from soacheck.errors import SoacheckError
+import sys
+import types
+from typing import TYPE_CHECKING, Any
 
-__all__ = ["SoacheckError"]
 __version__ = "0.1.0"
+
+# Each public name and the module it lives in. They load on first use (PEP 562), so that
+# ``import soacheck`` and the command stay quick until a job needs numpy, scipy or pandas.
+_PUBLIC = {
+    "allowed_current": "soacheck.api",
+    "check": "soacheck.api",
+    "compare": "soacheck.api",
+    "discharge": "soacheck.api",
+    "envelope": "soacheck.api",
+    "load_part": "soacheck.api",
+    "load_stage": "soacheck.api",
+    "parts": "soacheck.api",
+    "run_plan": "soacheck.api",
+    "sharing": "soacheck.api",
+    "sweep": "soacheck.api",
+    "trace": "soacheck.api",
+    "Mode": "soacheck.battery",
+    "SweepKind": "soacheck.battery",
+    "BreakdownDerating": "soacheck.derating",
+    "Envelope": "soacheck.envelope",
+    "SoacheckError": "soacheck.errors",
+    "Part": "soacheck.parts",
+    "CheckResult": "soacheck.results",
+    "CompareResult": "soacheck.results",
+    "EnvelopeResult": "soacheck.results",
+    "PlanResult": "soacheck.results",
+    "Result": "soacheck.results",
+    "SafeEnvelopeResult": "soacheck.results",
+    "SharingResult": "soacheck.results",
+    "StageRunResult": "soacheck.results",
+    "TraceCheckResult": "soacheck.results",
+    "Verdict": "soacheck.results",
+    "Cooling": "soacheck.stage",
+    "Stage": "soacheck.stage",
+}
+
+__all__ = [
+    "__version__",
+    "BreakdownDerating",
+    "CheckResult",
+    "CompareResult",
+    "Cooling",
+    "Envelope",
+    "EnvelopeResult",
+    "Mode",
+    "Part",
+    "PlanResult",
+    "Result",
+    "SafeEnvelopeResult",
+    "SharingResult",
+    "SoacheckError",
+    "Stage",
+    "StageRunResult",
+    "SweepKind",
+    "TraceCheckResult",
+    "Verdict",
+    "allowed_current",
+    "check",
+    "compare",
+    "discharge",
+    "envelope",
+    "load_part",
+    "load_stage",
+    "parts",
+    "run_plan",
+    "sharing",
+    "sweep",
+    "trace",
+]
+
+
+class _Package(types.ModuleType):
+    """The package module: a submodule never hides the public function of the same name.
+
+    Importing ``soacheck.trace`` (the module) would otherwise bind the package attribute
+    ``trace`` to that module; the function :func:`soacheck.trace` keeps the name. The
+    modules stay importable as ever (``from soacheck.trace import TraceChecker``).
+    """
+
+    def __setattr__(self, name: str, value: Any) -> None:
+        if name in _PUBLIC and isinstance(value, types.ModuleType):
+            return
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package
+
+
+def __getattr__(name: str) -> Any:
+    """Load a public name from its module on first use."""
+    if name in _PUBLIC:
+        import importlib
+
+        value = getattr(importlib.import_module(_PUBLIC[name]), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'soacheck' has no attribute '{name}'")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_PUBLIC))
+
+
+if TYPE_CHECKING:  # what type checkers and editors see
+    from soacheck.api import (
+        allowed_current,
+        check,
+        compare,
+        discharge,
+        envelope,
+        load_part,
+        load_stage,
+        parts,
+        run_plan,
+        sharing,
+        sweep,
+        trace,
+    )
+    from soacheck.battery import Mode, SweepKind
+    from soacheck.derating import BreakdownDerating
+    from soacheck.envelope import Envelope
+    from soacheck.errors import SoacheckError
+    from soacheck.parts import Part
+    from soacheck.results import (
+        CheckResult,
+        CompareResult,
+        EnvelopeResult,
+        PlanResult,
+        Result,
+        SafeEnvelopeResult,
+        SharingResult,
+        StageRunResult,
+        TraceCheckResult,
+        Verdict,
+    )
+    from soacheck.stage import Cooling, Stage

@@ -222,7 +222,19 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
         yield from _checked_chunks(path, chunks)
 
 
-def _checked_chunks(path: Path, chunks):
+def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: int = 1_000_000):
+    """A trace already in memory, columns ``time,voltage,current``, checked and yielded like :func:`iter_trace`.
+
+    ``where`` names the trace in messages (``trace data row 7: ...``).
+    """
+    missing = [name for name in TRACE_COLUMNS if name not in frame.columns]
+    if missing:
+        raise SoacheckError(f"{where}: missing column '{missing[0]}'; a trace has the columns time,voltage,current")
+    pieces = (frame.iloc[k : k + chunk_rows] for k in range(0, len(frame), max(chunk_rows, 1)))
+    yield from _checked_chunks(where, pieces)
+
+
+def _checked_chunks(path: Path | str, chunks):
     last_t = None
     first_row = 0
     for frame in chunks:

@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Literal
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from soacheck.bipolar import Gain
 from soacheck.mosfet import TransferCurves
@@ -157,6 +158,40 @@ class Part:
         common practice, no source), so none is done.
         """
         return self.curves[int(self.curve_index(pulse_s))]
+
+    def allowed_current(
+        self,
+        voltage: ArrayLike,
+        case_temp: ArrayLike = REFERENCE_CASE_C,
+        pulse: str | float = "dc",
+        duty: float | None = None,
+        *,
+        breakdown: Literal["auto", "thermal", "none"] = "auto",
+    ) -> float | np.ndarray:
+        """The highest current allowed at each voltage; see :func:`soacheck.allowed_current`.
+
+        Parameters
+        ----------
+        voltage
+            Voltage across the device, any shape. [V]
+        case_temp
+            Case temperature, broadcast against ``voltage``. [°C]
+        pulse
+            ``"dc"``, a width such as ``"1ms"``, or seconds.
+        duty
+            Duty cycle of a pulse train in (0, 1]; None for DC or a single pulse. [1]
+        breakdown
+            Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+
+        Returns
+        -------
+        float or numpy.ndarray
+            The allowed current [A]: a float for scalars, else the broadcast shape; 0 above
+            ``v_max`` or at ``tj_max``; NaN where a point cannot be evaluated.
+        """
+        from soacheck.api import allowed_current  # the API sits above the part; imported when called
+
+        return allowed_current(self, voltage, case_temp=case_temp, pulse=pulse, duty=duty, breakdown=breakdown)
 
     def curve_index(self, pulse_s: np.ndarray | float) -> np.ndarray:
         """Index into :attr:`curves` of the curve :meth:`curve_for` picks, for any shape of widths. [s]"""

@@ -291,13 +291,14 @@ def plot_compare(
     case_temp_c: float,
     count: int = 1,
     breakdown: BreakdownDerating = "auto",
+    ax: Axes | None = None,
 ) -> Axes:
     """Candidates' SOAs derated at one case temperature, overlaid, with the envelope's edge.
 
     With ``count`` devices the edge is drawn at an even share, I/count per device, for
     orientation only: the verdicts include the uneven sharing and the resistor drops.
     """
-    ax = new_axes(9, 6.5)
+    ax = new_axes(9, 6.5) if ax is None else ax
     ax.set_xscale("log")
     ax.set_yscale("log")
     colours = ["#1f5fa8", "#d1495b", "#2a9d8f", "#e08214", "#6a3d9a", "#8c564b", "#17becf", "#bcbd22"]

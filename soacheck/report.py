@@ -17,6 +17,7 @@ from typing import Any
 from matplotlib.figure import Figure
 
 from soacheck import __version__
+from soacheck.jsonvalues import json_text
 from soacheck.plan import Plan
 from soacheck.runner import SAFETY_CAUTIONS, JobResult, failures_first
 
@@ -192,3 +193,28 @@ def _section(result: JobResult, figures: list[str]) -> str:
 <ul class="notes">{notes}</ul>
 </section>
 """
+
+
+REPORT_MARKER = ".soacheck-report"
+"""The file a report folder carries, so that a later run may replace the folder without ``--force``."""
+
+
+def plot_files(results: list[JobResult]) -> dict[str, list[str]]:
+    """The report's plot files of each job, by job name: ``plots/JOB-FIGURE.svg``."""
+    return {r.name: [f"plots/{slug(r.name)}-{name}.svg" for name in r.figures] for r in results if r.figures}
+
+
+def report_files(plan: Plan, results: list[JobResult]) -> dict[str, str | bytes]:
+    """Every file of the report folder, by relative path: report.html, report.json and the SVG plots."""
+    names = plot_files(results)
+    files: dict[str, str | bytes] = {}
+    svgs: dict[str, list[str]] = {}
+    for result in results:
+        for file, figure in zip(names.get(result.name, []), result.figures.values(), strict=True):
+            svg = svg_text(figure)
+            files[file] = svg
+            svgs.setdefault(result.name, []).append(svg)
+    payload = report_json(plan, results, names)
+    files["report.json"] = json_text(payload) + "\n"
+    files["report.html"] = report_html(plan, results, svgs)
+    return files
