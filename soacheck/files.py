@@ -413,16 +413,16 @@ def check_output(path: str | Path, *, force: bool = False, folder: bool = False,
         Naming the path and what is wrong with it.
     """
     path = Path(path)
+    if folder and path.exists() and not path.is_dir():
+        raise SoacheckError(f"{path}: is a file, not a folder; choose another name for the output folder")
+    if not folder and path.is_dir():
+        raise SoacheckError(f"{path}: is a folder; give the name of a file to write")
     if suffixes and path.suffix.lower() not in suffixes:
         raise SoacheckError(
             f"'{path}' must end in {', '.join(suffixes[:-1])} or {suffixes[-1]}"
             if len(suffixes) > 1
             else f"'{path}' must end in {suffixes[0]}"
         )
-    if folder and path.exists() and not path.is_dir():
-        raise SoacheckError(f"{path}: is a file, not a folder; choose another name for the output folder")
-    if not folder and path.is_dir():
-        raise SoacheckError(f"{path}: is a folder; give the name of a file to write")
     if not folder and path.exists() and not force:
         raise SoacheckError(f"{path}: exists; choose another name or add --force to overwrite it")
     parent = path.absolute().parent
