@@ -40,6 +40,7 @@ from soacheck.partfiles import read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
+from soacheck.quantities import DUTY
 from soacheck.results import (
     CheckResult,
     CompareResult,
@@ -219,8 +220,7 @@ def _duty(duty: float | None, pulse_s: float) -> float:
     """The duty cycle: 0 (a single pulse) when None."""
     if duty is None:
         return 0.0
-    if not (0 < duty <= 1):
-        raise SoacheckError(f"--duty is {duty:g}; give the duty cycle tp/T in (0, 1], such as 0.1 for 10 %")
+    DUTY.check(duty, "--duty")
     if math.isinf(pulse_s):
         raise SoacheckError("--duty needs a pulse width: add --pulse, such as --pulse 3ms --duty 0.1")
     return float(duty)
