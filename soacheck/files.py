@@ -26,6 +26,7 @@ import numpy as np
 
 from soacheck.battery import Trajectory
 from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.filemarks import written_by_soacheck
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -387,7 +388,8 @@ def check_output(path: str | Path, *, force: bool = False, folder: bool = False,
 
     The one check of every file or folder soacheck writes: the suffix is one of
     ``suffixes`` (when given); the path is not a folder where a file is wanted, nor a file
-    where a folder is wanted; nothing there is replaced without ``force``; the nearest
+    where a folder is wanted; nothing there is replaced without ``force``, except a file
+    soacheck wrote earlier (it carries soacheck's mark, :mod:`soacheck.filemarks`); the nearest
     existing parent is a folder this process may write into. Missing parent folders are
     made here, so the write that follows the computation finds them.
 
@@ -423,8 +425,10 @@ def check_output(path: str | Path, *, force: bool = False, folder: bool = False,
             if len(suffixes) > 1
             else f"'{path}' must end in {suffixes[0]}"
         )
-    if not folder and path.exists() and not force:
-        raise SoacheckError(f"{path}: exists; choose another name or add --force to overwrite it")
+    if not folder and path.exists() and not force and not written_by_soacheck(path):
+        raise SoacheckError(
+            f"{path}: exists and was not written by soacheck; choose another name or add --force to replace it"
+        )
     parent = path.absolute().parent
     existing = parent
     while not existing.exists() and existing != existing.parent:

@@ -27,6 +27,7 @@ from decimal import ROUND_FLOOR, Decimal
 
 from soacheck.envelope import SafeEnvelope
 from soacheck.errors import SoacheckError
+from soacheck.filemarks import first_line
 from soacheck.units import format_duration
 
 CURRENT_RESOLUTION_A = 0.001
@@ -147,6 +148,7 @@ def to_csv(table: LimitTable) -> str:
     """The table as CSV: ``#`` comment lines with units, rounding, rule and assumptions, then
     the columns ``voltage,max_current,limit`` (V, A)."""
     lines = [
+        first_line(".csv").rstrip("\n"),
         f"# {table.part} x {table.count}, {_timing(table)}: largest safe total current; voltage in V, max_current in A",
         *(f"# {note}" for note in table.assumptions),
         "voltage,max_current,limit",
@@ -203,6 +205,7 @@ def to_c_header(table: LimitTable, *, name: str = "SOA_LIMIT") -> str:
     volts = ", ".join(_c_float(v) for v in table.voltage_v)
     amps = ", ".join(_c_float(i) for i in table.max_current_a)
     lines = [
+        first_line(".h").rstrip("\n"),
         "/*",
         f" * Largest safe total current of {_c_comment(table.part)} x {table.count} against the source voltage,",
         f" * {_timing(table)}, written by soacheck.",

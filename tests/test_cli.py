@@ -13,6 +13,7 @@ import pytest
 from typer.testing import CliRunner
 
 from soacheck.cli import app
+from soacheck.filemarks import written_by_soacheck
 
 from .conftest import write_part
 
@@ -67,19 +68,22 @@ def test_check_table_output_names_the_verdict_and_assumptions():
     assert "derated like the thermal limit" in result.stdout
 
 
-def test_show_writes_png_svg_pdf_and_never_overwrites_without_force(tmp_path):
+def test_show_writes_png_svg_pdf_replaces_its_own_and_never_a_users_without_force(tmp_path):
     points = tmp_path / "p.csv"
     points.write_text("voltage,current\n10,2\n50,3\n")
     for suffix in ("png", "svg", "pdf"):
         out = tmp_path / f"soa.{suffix}"
         result = invoke("show", "demo-nmos-to247-300w", "--points", points, "--plot", out, "--case-temp", "25,100")
         assert result.exit_code == 0, result.output
-        assert out.stat().st_size > 1000
-    before = (tmp_path / "soa.png").read_bytes()
-    result = invoke("show", "demo-npn-to3-250w", "--plot", tmp_path / "soa.png")
-    assert result.exit_code == 2 and "--force" in result.stderr
-    assert (tmp_path / "soa.png").read_bytes() == before
-    assert invoke("show", "demo-npn-to3-250w", "--plot", tmp_path / "soa.png", "--force").exit_code == 0
+        assert written_by_soacheck(out), suffix
+        again = invoke("show", "demo-npn-to3-250w", "--plot", out)
+        assert again.exit_code == 0, again.output
+    users = tmp_path / "photo.png"
+    users.write_bytes(b"\x89PNG\r\n\x1a\n not soacheck's")
+    result = invoke("show", "demo-npn-to3-250w", "--plot", users)
+    assert result.exit_code == 2 and "--force" in result.stderr, result.output
+    assert users.read_bytes() == b"\x89PNG\r\n\x1a\n not soacheck's"
+    assert invoke("show", "demo-npn-to3-250w", "--plot", users, "--force").exit_code == 0
 
 
 def test_svg_plot_shows_every_mechanism_of_the_fet(tmp_path):

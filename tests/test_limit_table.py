@@ -215,15 +215,20 @@ def test_c_header_alone_compiles_as_c_and_cpp_including_twice(tmp_path):
     ), literals
 
 
-def test_an_export_is_not_overwritten_without_force(tmp_path):
+def test_an_export_replaces_its_own_earlier_file_but_not_a_users(tmp_path):
+    """soacheck marks its exports (a first comment line); a re-run replaces a marked file, never another."""
     out = export(tmp_path, "limits.h")
-    before = out.read_text(encoding="utf-8")
+    assert out.read_text(encoding="utf-8").startswith("/* written by soacheck ")
     again = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", out)
-    assert again.exit_code == 2 and "--force" in again.stderr, again.output
-    assert out.read_text(encoding="utf-8") == before
-    forced = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", out, "--force")
-    assert forced.exit_code == 0, forced.output
+    assert again.exit_code == 0, again.output
     assert "#define SOA_LIMIT_POINTS ((size_t)2)" in out.read_text(encoding="utf-8")
+    mine = tmp_path / "mine.h"
+    mine.write_text("/* my own limits */\n", encoding="utf-8")
+    refused = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", mine)
+    assert refused.exit_code == 2 and "--force" in refused.stderr, refused.output
+    assert mine.read_text(encoding="utf-8") == "/* my own limits */\n"
+    forced = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", mine, "--force")
+    assert forced.exit_code == 0, forced.output
 
 
 def test_an_unknown_export_suffix_is_refused_before_anything_is_written(tmp_path):

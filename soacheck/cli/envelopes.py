@@ -34,6 +34,7 @@ from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
 from soacheck.envelope import check_envelope, largest_safe_envelope
 from soacheck.errors import SoacheckError
+from soacheck.filemarks import save_figure
 from soacheck.files import read_toml, read_trace
 from soacheck.jobfiles import discharge_from_table, read_envelope
 from soacheck.library import find_part, library_folders, list_parts, read_stage
@@ -80,7 +81,7 @@ def envelope(
         if plot is not None:
             from soacheck.plots import plot_envelope_check  # matplotlib: only when plotting
 
-            plot_envelope_check(result, breakdown=breakdown).savefig(plot)
+            save_figure(plot_envelope_check(result, breakdown=breakdown), plot)
         payload = result.summary()
         if as_json:
             echo_json(payload)
@@ -135,7 +136,7 @@ def envelope(
         ax.set_ylabel("largest safe total current [A]")
         ax.set_title(f"{loaded.part.id} × {loaded.count}: largest safe envelope", fontsize=10)
         ax.grid(True, which="both", lw=0.3, alpha=0.6)
-        ax.figure.savefig(plot)
+        save_figure(ax.figure, plot)
     if as_json:
         echo_json(table.to_dict())
         return
@@ -211,13 +212,14 @@ def compare(
         from soacheck.plots import plot_compare  # matplotlib: only when plotting
 
         by_id = {p.id: p for p in candidates}
-        plot_compare(
+        drawn = plot_compare(
             [by_id[c.part] for c in ranked],
             env,
             case_temp_c=tc,
             count=loaded_stage.count if loaded_stage else 1,
             breakdown=breakdown,
-        ).figure.savefig(plot)
+        ).figure
+        save_figure(drawn, plot)
     payload = {
         "job": label,
         "stage": str(stage) if stage else None,

@@ -29,6 +29,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
+from soacheck.filemarks import save_figure
 from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
 from soacheck.partfiles import read_part
@@ -130,7 +131,7 @@ def check(
     if plot is not None:
         from soacheck.plots import plot_point_check  # matplotlib: only when plotting
 
-        plot_point_check(loaded, result, breakdown=breakdown).figure.savefig(plot)
+        save_figure(plot_point_check(loaded, result, breakdown=breakdown).figure, plot)
     if as_json:
         echo_json(check_payload(result))
     else:
@@ -223,5 +224,5 @@ def show(
         points=checked,
         breakdown=breakdown,
     )
-    ax.figure.savefig(output)
+    save_figure(ax.figure, output)
     typer.echo(f"wrote {output}")

@@ -31,6 +31,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
+from soacheck.filemarks import save_figure
 from soacheck.jobfiles import battery_from
 from soacheck.quantities import (
     CAPACITY,
@@ -55,7 +56,7 @@ def _report_run(run: StageRun, label: str, *, as_json: bool, plot: Path | None, 
     if plot is not None:
         from soacheck.plots import plot_stage_run  # matplotlib: only when plotting
 
-        plot_stage_run(run, title=label).savefig(plot)
+        save_figure(plot_stage_run(run, title=label), plot)
     if as_json:
         echo_json(payload)
     else:

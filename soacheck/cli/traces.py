@@ -27,6 +27,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.errors import SoacheckError
+from soacheck.filemarks import save_figure
 from soacheck.files import iter_trace
 from soacheck.quantities import CHUNK_ROWS, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
 from soacheck.stage import Cooling
@@ -101,7 +102,7 @@ def trace(
     if plot is not None:
         from soacheck.plots import plot_trace  # matplotlib: only when plotting
 
-        plot_trace(loaded, result, breakdown=breakdown).savefig(plot)
+        save_figure(plot_trace(loaded, result, breakdown=breakdown), plot)
     if as_json:
         echo_json(result.summary())
     else:
