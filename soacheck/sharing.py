@@ -35,6 +35,7 @@ def share_current(
     ballast_ohm: float,
     bipolar: bool,
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
+    start_a: np.ndarray | None = None,
 ) -> np.ndarray:
     """Split a total current between parallel devices with a common base (gate) drive.
 
@@ -42,7 +43,10 @@ def share_current(
     V_B, and Σ I_k = I_total. For a bipolar part u(I) = V_T ln(I / 1 A), so
     I_k = (V_T/R_E)·ω(ln(R_E/V_T) + x_k/V_T) with ω the Wright omega function; for a FET or
     IGBT u = 0 (1/g_m neglected, conservative), so I_k = x_k/R_E. V_B is found by Newton's
-    method, vectorized over all samples.
+    method, vectorized over all samples. Devices with the same offset and temperature
+    everywhere (all but one in a worst-case stage) are solved once and weighted by their
+    number; ``start_a``, the currents of a nearby solution (the previous step of a fixed
+    point), starts Newton from the base voltage they imply.
 
     Parameters
     ----------
@@ -56,6 +60,8 @@ def share_current(
         Emitter resistor of each device. [Ω]
     bipolar
         The device law, see above.
+    start_a
+        Currents of a nearby solution, shape ``(n, m)``, to start from; equal sharing when None. [A]
 
     Returns
     -------
@@ -76,6 +82,14 @@ def share_current(
 
     import scipy.special  # deferred: scipy costs start-up time to commands that never use it
 
+    # identical devices (same offset and temperature at every sample) are one unknown, counted;
+    # a loop over devices (at most a few hundred), not samples
+    seen: dict[bytes, int] = {}
+    which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in shift])
+    keep = np.unique(which, return_index=True)[1]
+    shift = shift[keep]
+    weight = np.bincount(which).astype(float)[:, None]
+
     def currents(vb: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         x = vb[None, :] - shift
         if not bipolar:
@@ -87,17 +101,21 @@ def share_current(
             i = np.exp(x / vt)
         return i, 1.0 / (r + vt / np.maximum(i, 1e-300))
 
-    # start from equal sharing
-    each = np.maximum(total / n, 1e-12)
-    vb = (each * r + (vt * np.log(each) if bipolar else 0.0)) + shift.mean(axis=0)
+    if start_a is None:  # equal sharing
+        each = np.maximum(total / n, 1e-12)
+        vb = (each * r + (vt * np.log(each) if bipolar else 0.0)) + (weight * shift).sum(axis=0) / n
+    else:  # the base voltage of the device that carried the most, at its current and the new temperature
+        k = np.argmax(np.asarray(start_a, dtype=float), axis=0)
+        each = np.maximum(np.asarray(start_a, dtype=float)[k, np.arange(k.size)], 1e-12)
+        vb = each * r + (vt * np.log(each) if bipolar else 0.0) + shift[which[k], np.arange(k.size)]
     for _ in range(100):
         i, slope = currents(vb)
-        residual = i.sum(axis=0) - total
+        residual = (weight * i).sum(axis=0) - total
         if np.all(np.abs(residual) <= 1e-12 * np.maximum(total, 1.0)):
             break
-        step = residual / np.maximum(slope.sum(axis=0), 1e-300)
+        step = residual / np.maximum((weight * slope).sum(axis=0), 1e-300)
         vb = vb - np.clip(step, -0.5, 0.5)
-    return currents(vb)[0]
+    return currents(vb)[0][which]
 
 
 def loop_gain(
@@ -169,8 +187,9 @@ def sharing_monte_carlo(
         offsets = rng.uniform(0.0, stage.vbe_spread_v, (n, size))
         total = np.full(size, float(total_a))
         tj = np.full((n, size), float(sink_c))
+        cur = None
         for _ in range(200):
-            cur = stage.share(total, tj, offsets)
+            cur = stage.share(total, tj, offsets, start_a=cur)  # Newton starts from the last step's sharing
             vce = stage.device_voltage(source_v, total_a, cur)
             tj_new = sink_c + rth * np.maximum(vce, 0) * cur
             if np.max(np.abs(tj_new - tj)) < 1e-6:

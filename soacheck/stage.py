@@ -105,7 +105,14 @@ class Stage:
         """Sum of the devices' continuous current ratings; the load should stay well below it. [A]"""
         return self.count * self.part.ratings.i_max_a
 
-    def share(self, total_a: np.ndarray, tj_c: np.ndarray, offsets_v: np.ndarray | None = None) -> np.ndarray:
+    def share(
+        self,
+        total_a: np.ndarray,
+        tj_c: np.ndarray,
+        offsets_v: np.ndarray | None = None,
+        *,
+        start_a: np.ndarray | None = None,
+    ) -> np.ndarray:
         """Each device's current, shape ``(n, m)``; see :func:`share_current`. [A]"""
         return share_current(
             total_a,
@@ -114,6 +121,7 @@ class Stage:
             ballast_ohm=self.ballast_ohm,
             bipolar=self.part.is_bipolar,
             tempco_v_per_k=self.vbe_tempco_v_per_k,
+            start_a=start_a,
         )
 
     def device_voltage(self, source_v: np.ndarray, total_a: np.ndarray, device_a: np.ndarray) -> np.ndarray:

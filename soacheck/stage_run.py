@@ -147,8 +147,9 @@ def run_stage(
 
     tj = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
     converged = False
+    currents = None
     for _ in range(max_iterations):
-        currents = stage.share(total, tj)
+        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
         sink, case, tj_new = _temperatures(stage, junction, t, power)

@@ -71,8 +71,9 @@ def steady_state(
     tj = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
     settled = np.zeros(m, dtype=bool)
     gone = np.zeros(m, dtype=bool)
+    currents = None
     for _ in range(max_iterations):
-        currents = stage.share(total, tj)
+        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
         if cooling is not None:

@@ -71,6 +71,49 @@ def test_sharing_conserves_the_total_and_is_vectorized():
         assert np.all(split >= 0)
 
 
+@pytest.mark.parametrize("bipolar", [True, False])
+def test_identical_devices_solved_once_match_a_root_finder_device_by_device(bipolar):
+    """Eight devices, the fourth at the bottom of a 20 mV band and hotter, seven alike, 0.1 Ω ballasts.
+
+    Reference: scipy.optimize.brentq on the common base voltage V_B, each device's
+    current found from its own law V_B = u(I) + I·R_E + shift (u = V_T ln I for a
+    bipolar part, 0 for a FET) by brentq as well, with no merging and no Wright omega."""
+    from scipy.optimize import brentq
+
+    r, vt = 0.1, 0.02569
+    total = np.array([0.5, 4.0, 24.0])
+    tj = np.full((8, 3), 60.0)
+    tj[3] = 80.0
+    offsets = np.zeros(8)
+    offsets[3] = -0.02
+    shift = offsets[:, None] - 0.002 * (tj - 25.0)
+
+    def device(vb, s):
+        if not bipolar:
+            return max(vb - s, 0.0) / r
+        return math.exp(brentq(lambda y: vt * y + math.exp(y) * r + s - vb, -300.0, 10.0, xtol=1e-14))  # y = ln I
+
+    def excess(vb, column, want_total):
+        return sum(device(vb, s) for s in column) - want_total
+
+    got = share_current(total, tj, offsets, ballast_ohm=r, bipolar=bipolar)
+    for k, want_total in enumerate(total):
+        vb = brentq(excess, -2.0, 10.0, args=(shift[:, k], want_total), xtol=1e-15)
+        assert got[:, k] == pytest.approx([device(vb, s) for s in shift[:, k]], rel=1e-9, abs=1e-12)
+
+
+def test_a_warm_start_reaches_the_same_sharing():
+    """Newton from a nearby solution's currents lands on the same root as from equal sharing
+    (the root is unique: the sum of currents rises strictly with V_B)."""
+    total = np.linspace(0.5, 20.0, 50)
+    offsets = np.array([-0.03, 0.0, 0.0])
+    cold = share_current(total, np.full((3, 50), 40.0), offsets, ballast_ohm=0.05, bipolar=True)
+    hot = np.vstack([np.full(50, 90.0), np.full((2, 50), 70.0)])
+    fresh = share_current(total, hot, offsets, ballast_ohm=0.05, bipolar=True)
+    warm = share_current(total, hot, offsets, ballast_ohm=0.05, bipolar=True, start_a=cold)
+    assert warm == pytest.approx(fresh, rel=1e-10)
+
+
 def test_fet_sharing_is_set_by_the_source_resistors():
     # with 1/g_m neglected: I1 - I2 = ΔV / R_S exactly (elementary, with g_m -> infinity)
     split = share_current(
