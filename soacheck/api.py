@@ -40,7 +40,7 @@ from soacheck.partfiles import read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
-from soacheck.quantities import DUTY
+from soacheck.quantities import DUTY, IDLE_CURRENT
 from soacheck.results import (
     CheckResult,
     CompareResult,
@@ -341,6 +341,7 @@ def check(
     case_temp: ArrayLike = 25.0,
     pulse: Pulse = "dc",
     duty: float | None = None,
+    idle_current: ArrayLike = 0.0,
     breakdown: BreakdownDerating = "auto",
     library: Library = None,
 ) -> CheckResult:
@@ -360,6 +361,10 @@ def check(
         Case temperature of the points, broadcast. [°C]
     pulse, duty
         ``"dc"``, or a pulse width; ``duty`` in (0, 1] for a pulse train, None for a single pulse.
+    idle_current
+        Current standing between pulses at the same voltage, broadcast; 0 for none. With a
+        thermal model the junction peak is the exact periodic steady state by superposition;
+        without one such a pulse is judged as DC. [A]
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
     library
@@ -391,6 +396,7 @@ def check(
         tc = frame["case_temp"].to_numpy() if "case_temp" in frame else np.asarray(case_temp, dtype=float)
         tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
         d = frame["duty"].to_numpy() if "duty" in frame else duty_value
+        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else idle_current
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
@@ -400,7 +406,9 @@ def check(
             if bad.size:
                 raise SoacheckError(f"{name} is {bad.flat[0]:g}; it must be a number above zero")
         v, i, tc, tp, d = voltage, current, np.asarray(case_temp, dtype=float), pulse_s, duty_value
-    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, breakdown=chosen)
+        idle = idle_current
+    IDLE_CURRENT.check_array(np.ravel(np.asarray(idle, dtype=float)), lambda k: "idle_current")
+    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
     return CheckResult(loaded, result, chosen)
 
 

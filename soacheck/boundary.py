@@ -23,9 +23,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from soacheck.derating import BreakdownDerating, mechanism_factors
+from soacheck.derating import BreakdownDerating, mechanism_factors, thermal_factor
 from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
+from soacheck.search import highest_each
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC
 
@@ -122,6 +123,79 @@ def _derated_lines(
         return np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
 
 
+def repeated_pulse_lines(
+    voltage_v: np.ndarray,
+    tc_c: np.ndarray,
+    idle_current_a: np.ndarray,
+    part: Part,
+    bound: PulseLines,
+    pulse_s: float,
+    duty: float,
+    *,
+    breakdown: BreakdownDerating,
+) -> np.ndarray:
+    """ln I of every derated line of a modelled pulse condition, shape ``(lines, points)``.
+
+    Parameters
+    ----------
+    voltage_v, tc_c, idle_current_a
+        Voltage, case temperature and current standing between pulses, shape ``(n,)``. [V], [°C], [A]
+    bound
+        The pulse condition's lines (:func:`pulse_lines` with the thermal model).
+    pulse_s, duty
+        The pulse width and duty cycle (0 for a single pulse). [s], [1]
+
+    Notes
+    -----
+    The thermal network is linear, so with P_idle = V·I_idle standing between pulses of
+    power P the junction peaks, in the periodic steady state, at
+
+        Tj = Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D)
+
+    and starts each pulse at Tc + P_idle·Rth + (P − P_idle)·Z_start(tp, D) (superposition;
+    see :func:`~soacheck.thermal.pulse_train_zth_start`). The constant-power line
+    P = (tj_max − 25 °C)/Zth(tp, D) derated at Tc + P_idle·(Rth − Zth(tp, D)) gives exactly
+    the largest P with Tj ≤ tj_max. Second-breakdown, instability and unclassified lines
+    hold for a junction that starts the pulse at the case temperature (common practice,
+    no source), so they are derated at the junction temperature where each pulse starts,
+    which rises with the pulse current itself: the allowed current is the largest I with
+    I ≤ I_line(V)·f(T_start(I)), found by bisection. A single pulse with no standing
+    current starts at Tc, which leaves these lines as they are.
+    """
+    model = thermal_model(part)
+    rth = model.foster.rth_k_per_w
+    z_peak = float(model.pulse_zth(pulse_s, duty))
+    z_start = float(model.pulse_zth_start(pulse_s, duty))
+    p_idle = voltage_v * idle_current_a
+    tc_power = tc_c + p_idle * (rth - z_peak)
+    start_base = tc_c + p_idle * (rth - z_start)
+    start_per_a = voltage_v * z_start
+    log_v = np.log(voltage_v)
+    stacked = []
+    for line in bound.lines:
+        log_i = line(log_v)
+        if line.mechanism in ("current", "on_resistance"):
+            stacked.append(log_i)
+            continue
+        if line.mechanism == "power":
+            with np.errstate(divide="ignore"):
+                stacked.append(log_i + np.log(thermal_factor(tc_power, part.ratings.tj_max_c)))
+            continue
+
+        def factor(t_c: np.ndarray, name: str = line.mechanism) -> np.ndarray:
+            return mechanism_factors(t_c, part, breakdown)[name]
+
+        line_a = np.exp(log_i)
+        first = line_a * factor(start_base)
+        if z_start > 0:
+            first = highest_each(
+                lambda i, a=line_a: i <= a * factor(start_base + start_per_a * i), np.zeros_like(first), first
+            )
+        with np.errstate(divide="ignore"):
+            stacked.append(np.log(first))
+    return np.stack(stacked)
+
+
 def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The minimum over lines and the index of the line that gives it, each shape ``(points,)``."""
     which = np.argmin(stacked, axis=0)
@@ -135,6 +209,7 @@ def allowed_current(
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
     duty: np.ndarray | float = 0.0,
+    idle_current_a: np.ndarray | float = 0.0,
     breakdown: BreakdownDerating = "auto",
     use_model: bool = True,
 ) -> Allowed:
@@ -154,6 +229,8 @@ def allowed_current(
         than the shortest uses the shortest. [s]
     duty
         Duty cycle of a periodic pulse train, 0 for a single pulse, broadcast. [1]
+    idle_current_a
+        Current standing between pulses, at the same voltage, broadcast; 0 for none. [A]
     breakdown
         Derating of second breakdown or instability, see :data:`BreakdownDerating`.
     use_model
@@ -171,10 +248,16 @@ def allowed_current(
     Below the lowest digitized voltage the first segment extends, capped by the rated
     current; above ``v_max`` nothing is allowed (limit ``voltage``); at or above
     ``tj_max`` nothing is allowed (limit ``case_at_tj_max``). A non-finite or non-positive
-    voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], gives
-    NaN with limit ``invalid``.
+    voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], or a
+    negative idle current, gives NaN with limit ``invalid``.
+
+    Pulses repeated (a duty) or on a standing current, with a thermal model, follow
+    :func:`repeated_pulse_lines`; without a model a pulse on a standing current is judged
+    as DC (conservative). The standing current must itself lie inside the DC boundary.
     """
-    v, tc, tp, d = (np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty))
+    v, tc, tp, d, idle = (
+        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty, idle_current_a)
+    )
     n = v.size
     allowed = np.full(n, np.nan)
     limit = np.full(n, "invalid", dtype=object)
@@ -183,13 +266,15 @@ def allowed_current(
     below = np.zeros(n, dtype=bool)
     above = np.zeros(n, dtype=bool)
 
-    valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & (tp > 0) & (d >= 0) & (d <= 1)
+    valid = np.isfinite(v) & (v > 0) & np.isfinite(tc) & (tp > 0) & (d >= 0) & (d <= 1) & (idle >= 0)
     # group the points by the pulse condition that decides their lines: a width and duty
     # where the thermal model applies, else just the digitized curve that will be used
     model_applies = use_model and thermal_model(part) is not None
     continuous = np.isinf(tp) | (d >= 1)
     by_model = model_applies & ~continuous
-    by_curve = np.where(continuous | (d > 0), DC, part.pulse_widths_s[part.curve_index(np.where(valid, tp, DC))])
+    by_curve = np.where(
+        continuous | (d > 0) | (idle > 0), DC, part.pulse_widths_s[part.curve_index(np.where(valid, tp, DC))]
+    )
     keys = np.column_stack([np.where(by_model, tp, by_curve), np.where(by_model, d, 0.0)])
     with np.errstate(divide="ignore", invalid="ignore"):
         log_v = np.log(np.where(valid, v, 1.0))
@@ -199,13 +284,25 @@ def allowed_current(
         for k, (width, train) in enumerate(conditions):
             sel = rows[group.ravel() == k]
             bound = pulse_lines(part, pulse_s=width, duty=train, use_model=use_model)
-            log_i, which = _lower_envelope(_derated_lines(log_v[sel], tc[sel], part, bound.lines, breakdown))
+            if bound.modelled:
+                stacked = repeated_pulse_lines(
+                    v[sel], tc[sel], idle[sel], part, bound, width, train, breakdown=breakdown
+                )
+            else:
+                stacked = _derated_lines(log_v[sel], tc[sel], part, bound.lines, breakdown)
+            log_i, which = _lower_envelope(stacked)
             allowed[sel] = np.exp(log_i)
             limit[sel] = np.array([line.mechanism for line in bound.lines], dtype=object)[which]
             curve_pulse[sel] = bound.curve.pulse_s
             modelled[sel] = bound.modelled
             below[sel] = v[sel] < bound.curve.voltage_v[0] * (1 - 1e-9)
             above[sel] = v[sel] > bound.curve.voltage_v[-1] * (1 + 1e-9)
+
+    standing = valid & (idle > 0) & ~continuous
+    if standing.any():  # between pulses the standing current sits at the same voltage, as DC
+        dc = allowed_current(v[standing], part, tc_c=tc[standing], breakdown=breakdown, use_model=use_model)
+        over = np.flatnonzero(standing)[idle[standing] > dc.current_a]
+        allowed[over], limit[over] = 0.0, dc.limit[idle[standing] > dc.current_a]
 
     too_hot = valid & (tc >= part.ratings.tj_max_c)
     allowed[too_hot], limit[too_hot] = 0.0, "case_at_tj_max"

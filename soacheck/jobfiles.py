@@ -12,22 +12,24 @@ from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, d
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.files import Table, check_keys, read_table, read_toml, toml_number, toml_text
+from soacheck.quantities import IDLE_CURRENT
 from soacheck.units import parse_duration
 
 
 def read_points(path: str | Path) -> Table:
-    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse,duty``.
+    """Read operating points: columns ``voltage,current`` and optional ``case_temp,pulse,duty,idle_current``.
 
     Voltage and current must be above zero (they go on log axes); ``case_temp`` is in °C;
     ``pulse`` is ``dc`` or a width such as ``1ms``; ``duty`` is the duty cycle of a pulse
-    train in (0, 1], or 0 for a single pulse. The frame gains a column ``pulse_s``
-    (seconds, ``inf`` for DC) when ``pulse`` is present.
+    train in (0, 1], or 0 for a single pulse; ``idle_current`` is the current standing
+    between pulses at the same voltage, in A, 0 or more. The frame gains a column
+    ``pulse_s`` (seconds, ``inf`` for DC) when ``pulse`` is present.
     """
     table = read_table(
         path,
-        numeric=("voltage", "current", "case_temp", "duty"),
+        numeric=("voltage", "current", "case_temp", "duty", "idle_current"),
         text=("pulse",),
-        optional=("case_temp", "pulse", "duty"),
+        optional=("case_temp", "pulse", "duty", "idle_current"),
         positive=("voltage", "current"),
     )
     frame = table.frame
@@ -41,6 +43,8 @@ def read_points(path: str | Path) -> Table:
                 f"{table.where(row)}: duty {frame['duty'].iloc[row]:g} is outside 0 to 1; write the duty cycle "
                 "tp/T as a fraction (0.1 for 10 %), or 0 for a single pulse"
             )
+    if "idle_current" in frame:
+        IDLE_CURRENT.check_array(frame["idle_current"].to_numpy(), lambda k: f"{table.where(k)}: idle_current")
     return table
 
 

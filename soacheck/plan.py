@@ -20,6 +20,7 @@ from soacheck.files import check_keys, read_toml, read_trace, toml_number, toml_
 from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_points
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
+from soacheck.quantities import IDLE_CURRENT
 from soacheck.stage import Stage
 from soacheck.units import parse_duration
 
@@ -27,7 +28,7 @@ JobKind = Literal["points", "envelope", "discharge", "sweep", "trace", "compare"
 JOB_KINDS: tuple[JobKind, ...] = ("points", "envelope", "discharge", "sweep", "trace", "compare")
 _TOP_KEYS = ("title", "stage", *JOB_KINDS)
 _JOB_KEYS: dict[str, tuple[str, ...]] = {
-    "points": ("name", "file", "part", "case_temp", "pulse", "duty"),
+    "points": ("name", "file", "part", "case_temp", "pulse", "duty", "idle_current"),
     "envelope": ("name", "file", "voltage", "current", "power", "pulse", "duty", "ambient", "case_temp"),
     "discharge": (
         "name",
@@ -134,6 +135,9 @@ def _prepare(kind: str, entry: dict[str, Any], *, where: str, base: Path, stage:
                 else toml_number(f"{where}: case_temp", entry.get("case_temp", 25.0), positive=False),
                 "pulse": frame["pulse_s"].to_numpy() if "pulse_s" in frame else default_pulse,
                 "duty": frame["duty"].to_numpy() if "duty" in frame else float(entry.get("duty", 0.0)),
+                "idle_current": frame["idle_current"].to_numpy()
+                if "idle_current" in frame
+                else IDLE_CURRENT.check(entry.get("idle_current", 0.0), f"{where}: idle_current"),
             }
         if kind == "envelope":
             return {"envelope": _envelope(entry, where, base)}

@@ -40,6 +40,7 @@ class PointCheck:
     tc_c: np.ndarray
     pulse_s: np.ndarray
     duty: np.ndarray
+    idle_current_a: np.ndarray
     allowed_current_a: np.ndarray
     margin: np.ndarray
     inside: np.ndarray
@@ -68,6 +69,7 @@ class PointCheck:
                 "pulse": [format_duration(t) for t in self.pulse_s],
                 # null for DC and single pulses: a duty only means something for a pulse train
                 "duty": pd.Series(np.where((self.duty > 0) & np.isfinite(self.pulse_s), self.duty, None), dtype=object),
+                "idle_current": self.idle_current_a,
                 "inside": self.inside,
                 "allowed_current": self.allowed_current_a,
                 "margin": self.margin,
@@ -96,6 +98,7 @@ def check_points(
     tc_c: np.ndarray | float = REFERENCE_CASE_C,
     pulse_s: np.ndarray | float = DC,
     duty: np.ndarray | float = 0.0,
+    idle_current_a: np.ndarray | float = 0.0,
     breakdown: BreakdownDerating = "auto",
 ) -> PointCheck:
     """Check operating points against the part's SOA derated at their case temperatures.
@@ -112,6 +115,8 @@ def check_points(
         Pulse width of each point, ``inf`` for DC. [s]
     duty
         Duty cycle of each point's pulse train, 0 for a single pulse. [1]
+    idle_current_a
+        Current standing between the pulses of each point, at the same voltage; 0 for none. [A]
     breakdown
         Derating of second breakdown or instability.
 
@@ -120,10 +125,11 @@ def check_points(
     PointCheck
         Per-point verdicts with the assumptions made, in words.
     """
-    v, i, tc, tp, d = (
-        np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty)
+    v, i, tc, tp, d, idle = (
+        np.ravel(a).astype(float)
+        for a in np.broadcast_arrays(voltage_v, current_a, tc_c, pulse_s, duty, idle_current_a)
     )
-    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, breakdown=breakdown)
+    result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=breakdown)
     evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
     inside = evaluated & (i <= result.current_a)
     limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
@@ -134,18 +140,27 @@ def check_points(
         tc_c=tc,
         pulse_s=tp,
         duty=d,
+        idle_current_a=idle,
         allowed_current_a=result.current_a,
         margin=margin(i, result.current_a, evaluated),
         inside=inside,
         limit=limit,
         curve_pulse_s=result.curve_pulse_s,
         extrapolated=result.extrapolated,
-        assumptions=_assumptions(part, tc, tp, d, result, breakdown),
+        assumptions=_assumptions(part, v, i, tc, tp, d, idle, result, breakdown),
     )
 
 
 def _assumptions(
-    part: Part, tc: np.ndarray, tp: np.ndarray, d: np.ndarray, result: Allowed, breakdown: BreakdownDerating
+    part: Part,
+    v: np.ndarray,
+    i: np.ndarray,
+    tc: np.ndarray,
+    tp: np.ndarray,
+    d: np.ndarray,
+    idle: np.ndarray,
+    result: Allowed,
+    breakdown: BreakdownDerating,
 ) -> tuple[str, ...]:
     notes = [
         f"curves digitized at {REFERENCE_CASE_C:g} °C case; thermal limit derated as "
@@ -154,17 +169,29 @@ def _assumptions(
         breakdown_note(part, breakdown),
     ]
     shortest = part.pulse_widths_s[0]
-    conditions = zip(tp.tolist(), d.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True)
-    for asked, duty, used, modelled in sorted(set(conditions)):
+    standing = (idle > 0) & np.isfinite(tp) & (d < 1)
+    conditions = zip(
+        tp.tolist(), d.tolist(), standing.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True
+    )
+    for asked, duty, on_idle, used, modelled in sorted(set(conditions)):
         if math.isnan(used) or (math.isinf(asked) and duty == 0):
             continue
         label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")
+        label += " on a standing current" if on_idle else ""
         if modelled:
             model = thermal_model(part)
             form = "Zth(tp, D), exact periodic steady state" if duty > 0 else "Zth(tp), single pulse"
             notes.append(
                 f"{label}: thermal limit (tj_max − Tc)/{form}, from the {model.origin}; other limits from the "
                 f"{format_duration(used)} curve (the next longer digitized width; conservative)"
+            )
+            same = (tp == asked) & (d == duty) & (standing == on_idle) & result.modelled
+            notes.extend(_repeated_pulse_notes(part, label, v[same], i[same], tc[same], idle[same], asked, duty))
+            continue
+        if on_idle:
+            notes.append(
+                f"{label}: no thermal model (add [thermal] terms or zth.csv), so the pulse is judged as DC "
+                "(conservative)"
             )
             continue
         if asked == used:
@@ -202,3 +229,31 @@ def _assumptions(
                     "derated by the smaller of the thermal and breakdown factors"
                 )
     return tuple(notes)
+
+
+def _repeated_pulse_notes(
+    part: Part, label: str, v: np.ndarray, i: np.ndarray, tc: np.ndarray, idle: np.ndarray, pulse_s: float, duty: float
+) -> list[str]:
+    """What a repeated pulse or a pulse on a standing current was judged at, with the temperatures used."""
+    if duty == 0 and not np.any(idle > 0):
+        return []
+    model = thermal_model(part)
+    rth = model.foster.rth_k_per_w
+    z_start = float(model.pulse_zth_start(pulse_s, duty))
+    notes = []
+    if np.any(idle > 0):
+        notes.append(
+            f"{label}: junction peak Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D) with P_idle = V·I_idle between pulses "
+            "(superposition in the linear thermal network; the exact periodic steady state); the standing current is "
+            "also checked as DC"
+        )
+    start_c = tc + v * idle * (rth - z_start) + v * i * z_start
+    low, high = float(np.nanmin(start_c)), float(np.nanmax(start_c))
+    at = f"{high:.1f} °C" if f"{low:.1f}" == f"{high:.1f}" else f"{low:.1f} to {high:.1f} °C"
+    steep = part.steep_mechanism.replace("_", " ")
+    notes.append(
+        f"{label}: {steep} and unclassified lines derated at the junction temperature where each pulse starts "
+        f"(the periodic minimum Tc + P_idle·Rth + (P − P_idle)·Z_start: {at} at the checked current), not at the "
+        "case temperature"
+    )
+    return notes

@@ -75,7 +75,15 @@ def run_job(plan: Plan, job: Job) -> JobResult:
     d = job.data
     if job.kind == "points":
         part = d["part"]
-        result = check_points(d["voltage"], d["current"], part, tc_c=d["case_temp"], pulse_s=d["pulse"], duty=d["duty"])
+        result = check_points(
+            d["voltage"],
+            d["current"],
+            part,
+            tc_c=d["case_temp"],
+            pulse_s=d["pulse"],
+            duty=d["duty"],
+            idle_current_a=d["idle_current"],
+        )
         margin = np.where(np.isfinite(result.margin), result.margin, -np.inf)
         k = int(np.argmin(margin))
         summary = {

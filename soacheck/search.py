@@ -10,6 +10,8 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
+import numpy as np
+
 MAX_COUNT = 256
 """The most devices in parallel :func:`fewest` tries."""
 
@@ -121,3 +123,21 @@ def highest(passes: Callable[[float], bool], start: float, *, rel_tol: float = 1
         mid = math.sqrt(lo * hi)
         lo, hi = (mid, hi) if passes(mid) else (lo, mid)
     return lo
+
+
+def highest_each(passes: Callable[[np.ndarray], np.ndarray], lo: np.ndarray, hi: np.ndarray, *, steps: int = 60):
+    """Element-wise, the largest x in [lo, hi] for which ``passes(x)``, by bisection vectorized over arrays.
+
+    ``lo`` must pass (it is returned where ``hi`` fails at every step), and past the answer a
+    larger x never passes again. ``steps`` halvings leave the answer within (hi − lo)/2^steps
+    below the true one, on the passing side.
+    """
+    lo = np.array(lo, dtype=float)
+    top = np.array(hi, dtype=float)
+    hi = top.copy()
+    for _ in range(steps):
+        mid = 0.5 * (lo + hi)
+        ok = passes(mid)
+        lo = np.where(ok, mid, lo)
+        hi = np.where(ok, hi, mid)
+    return np.where(passes(top), top, lo)

@@ -73,6 +73,10 @@ class Foster:
         """Peak impedance of a periodic pulse train, exact. See :func:`pulse_train_zth`."""
         return pulse_train_zth(tp_s, duty, self.r_k_per_w, self.tau_s)
 
+    def zth_train_start(self, tp_s: np.ndarray | float, duty: np.ndarray | float) -> np.ndarray:
+        """Impedance of a periodic pulse train at the start of a pulse. See :func:`pulse_train_zth_start`."""
+        return pulse_train_zth_start(tp_s, duty, self.r_k_per_w, self.tau_s)
+
     def to_cauer(self) -> Cauer:
         """The equivalent Cauer ladder. See :func:`foster_to_cauer`."""
         return foster_to_cauer(self)
@@ -178,6 +182,34 @@ def pulse_train_zth(
     with np.errstate(divide="ignore"):
         period = np.where(d > 0, tp / np.where(d > 0, d, 1.0), np.inf)
     return np.sum(r_k_per_w * np.expm1(-tp / tau_s) / np.expm1(-period / tau_s), axis=-1)
+
+
+def pulse_train_zth_start(
+    tp_s: np.ndarray | float, duty: np.ndarray | float, r_k_per_w: np.ndarray, tau_s: np.ndarray
+) -> np.ndarray:
+    """Thermal impedance of a periodic pulse train at the start of each pulse (its minimum), exact.
+
+    In the periodic steady state of :func:`pulse_train_zth` the junction rise just before
+    a pulse starts is P·Z_start(tp, D) with
+
+        Z_start(tp, D) = Σ Rᵢ (1 − e^(−tp/τᵢ)) e^(−(T − tp)/τᵢ) / (1 − e^(−T/τᵢ)),  T = tp/D.
+
+    D = 0 (a single pulse) gives 0; D = 1 gives Σ Rᵢ. With a standing power P_idle between
+    pulses, superposition (the thermal network is linear) gives the junction at
+    Tc + P_idle·Σ Rᵢ + (P − P_idle)·Z_start at the start and
+    Tc + P_idle·Σ Rᵢ + (P − P_idle)·Zth(tp, D) at the end of each pulse.
+
+    References
+    ----------
+    Elementary: the same geometric series as :func:`pulse_train_zth`, followed by the
+    free decay of each Foster branch over the pause T − tp.
+    """
+    tp = np.asarray(tp_s, dtype=float)[..., None]
+    d = np.asarray(duty, dtype=float)[..., None]
+    with np.errstate(divide="ignore"):
+        period = np.where(d > 0, tp / np.where(d > 0, d, 1.0), np.inf)
+        decay = np.exp(-(period - tp) / tau_s)
+    return np.sum(r_k_per_w * np.expm1(-tp / tau_s) * decay / np.expm1(-period / tau_s), axis=-1)
 
 
 def pulse_train_zth_superposition(

@@ -98,6 +98,16 @@ class ThermalModel:
         """Peak Zth of a single pulse (``duty`` 0) or a periodic train, conservative below t_min. [K/W]"""
         return self.foster.zth_train(np.maximum(np.asarray(tp_s, dtype=float), self.t_min_s), duty)
 
+    def pulse_zth_start(self, tp_s: np.ndarray | float, duty: np.ndarray | float = 0.0) -> np.ndarray:
+        """Zth of a periodic train at the start of a pulse (its minimum). [K/W]
+
+        Below t_min, where the fit is not backed by data, the train's mean D·Σ Rᵢ is used:
+        the minimum of a periodic temperature never exceeds its mean (conservative).
+        """
+        tp = np.asarray(tp_s, dtype=float)
+        exact = self.foster.zth_train_start(tp, duty)
+        return np.where(tp < self.t_min_s, np.asarray(duty, dtype=float) * self.foster.rth_k_per_w, exact)
+
 
 @functools.lru_cache(maxsize=128)
 def thermal_model(part: Part) -> ThermalModel | None:

@@ -34,7 +34,7 @@ from soacheck.jobfiles import read_points
 from soacheck.library import library_folders, list_parts
 from soacheck.partfiles import read_part
 from soacheck.points import PointCheck, check_points
-from soacheck.quantities import CURRENT, TEMPERATURE, VOLTAGE
+from soacheck.quantities import CURRENT, IDLE_CURRENT, TEMPERATURE, VOLTAGE
 from soacheck.units import parse_duration
 
 
@@ -50,7 +50,8 @@ def check_payload(result: PointCheck) -> dict[str, Any]:
 
 def _print_check(console: Console, result: PointCheck) -> None:
     table = RichTable(title=escape(f"{result.part_id}: operating points"), title_justify="left")
-    for name in ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "curve", "allowed [A]", "margin", "limit", ""):
+    names = ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "idle [A]", "curve", "allowed [A]", "margin", "limit", "")
+    for name in names:
         table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
     frame = result.to_frame()
     for row in frame.itertuples(index=False):
@@ -64,6 +65,7 @@ def _print_check(console: Console, result: PointCheck) -> None:
             f"{row.case_temp:g}",
             row.pulse,
             f"{row.duty:g}" if row.duty is not None else "single" if row.pulse != "dc" else "",
+            f"{row.idle_current:g}" if row.idle_current > 0 else "",
             row.curve,
             allowed,
             margin,
@@ -100,6 +102,13 @@ def check(
         float | None,
         typer.Option("--duty", help="Duty cycle of a pulse train, in (0, 1]; a single pulse when absent."),
     ] = None,
+    idle_current: Annotated[
+        float,
+        typer.Option(
+            "--idle-current",
+            help="Current standing between pulses, at the same voltage [A], where the points give none.",
+        ),
+    ] = 0.0,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
@@ -112,6 +121,7 @@ def check(
     pulse_s = parse_duration(pulse, where="--pulse")
     duty_value = duty_option(duty, pulse_s)
     TEMPERATURE.check(case_temp, "--case-temp")
+    IDLE_CURRENT.check(idle_current, "--idle-current")
     if points is not None:
         if voltage is not None or current is not None:
             raise SoacheckError("give either --points FILE or --voltage and --current, not both")
@@ -120,14 +130,15 @@ def check(
         tc = frame["case_temp"].to_numpy() if "case_temp" in frame else case_temp
         tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
         d = frame["duty"].to_numpy() if "duty" in frame else duty_value
+        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else idle_current
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
         VOLTAGE.check(voltage, "--voltage")
         CURRENT.check(current, "--current")
-        v, i, tc, tp, d = voltage, current, case_temp, pulse_s, duty_value
+        v, i, tc, tp, d, idle = voltage, current, case_temp, pulse_s, duty_value, idle_current
     loaded = part_option(part, library)
-    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, breakdown=breakdown)
+    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=breakdown)
     if plot is not None:
         from soacheck.plots import plot_point_check  # matplotlib: only when plotting
 

@@ -1,0 +1,145 @@
+"""Pulses on a standing current, and repeated pulses judged at the junction temperature where they start.
+
+References: the periodic junction temperature is checked against an explicit simulation of
+many pulses with scipy (``solve_ivp`` on each Foster branch, dθ/dt = (R·P(t) − θ)/τ, one
+call per pulse and per pause so that no step straddles a jump of power); the second-breakdown
+lines against closed forms derived in the docstrings.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+import scipy.integrate
+from typer.testing import CliRunner
+
+from soacheck.boundary import allowed_current
+from soacheck.cli import app
+from soacheck.partfiles import read_part
+
+from .conftest import FOUR, THERMAL, write_part
+
+# a FET-like curve with no steep segment: the 15 A current limit, then 125 W to 100 V (constructed)
+POWER_ONLY_SOA = "pulse,voltage,current\ndc,1,15\ndc,8.3333,15\ndc,100,1.25\n"
+TP_S, DUTY, TC_C = 3e-3, 0.1, 25.0
+
+
+def simulated_periodic_tj(p_w: float, p_idle_w: float, *, periods: int = 60) -> tuple[float, float]:
+    """Junction rise at the end of the last pulse and just before it, from rest, by solve_ivp. [K]
+
+    60 periods of 30 ms are 18 time constants of the slowest branch (0.1 s): settled to e^-18.
+    """
+    r, tau = FOUR.r_k_per_w, FOUR.tau_s
+    theta = np.zeros(r.size)
+    period = TP_S / DUTY
+    start = peak = 0.0
+    for _ in range(periods):
+        for width, power in ((TP_S, p_w), (period - TP_S, p_idle_w)):
+            sol = scipy.integrate.solve_ivp(
+                lambda _t, th, p=power: (r * p - th) / tau, (0.0, width), theta, method="LSODA", rtol=1e-10, atol=1e-12
+            )
+            if power == p_w:
+                start = float(theta.sum())
+            theta = sol.y[:, -1]
+            if power == p_w:
+                peak = float(theta.sum())
+    return peak, start
+
+
+def test_superposition_gives_the_periodic_peak_and_start_of_a_many_pulse_simulation():
+    """Tj − Tc = P_idle·Rth + (P − P_idle)·Z at the end (Zth(tp, D)) and the start (Z_start) of a pulse."""
+    p_w, p_idle_w = 30.0 * 15.0, 30.0 * 1.3  # W: 15 A pulses on 1.3 A at 30 V
+    peak, start = simulated_periodic_tj(p_w, p_idle_w)
+    rth = FOUR.rth_k_per_w
+    assert p_idle_w * rth + (p_w - p_idle_w) * float(FOUR.zth_train(TP_S, DUTY)) == pytest.approx(peak, abs=1e-4)
+    assert p_idle_w * rth + (p_w - p_idle_w) * float(FOUR.zth_train_start(TP_S, DUTY)) == pytest.approx(start, abs=1e-4)
+
+
+@pytest.fixture
+def power_only_part(tmp_path):
+    return read_part(write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL))
+
+
+def test_allowed_pulse_current_on_a_standing_current_brings_the_simulated_peak_to_tj_max(power_only_part):
+    """At the allowed current the simulated periodic peak is tj_max = 150 °C (the definition of the limit)."""
+    idle_a, volts = 1.3, 30.0
+    got = allowed_current(volts, power_only_part, pulse_s=TP_S, duty=DUTY, idle_current_a=idle_a, tc_c=TC_C)
+    assert got.limit[0] == "power"
+    peak, _ = simulated_periodic_tj(volts * got.current_a[0], volts * idle_a)
+    assert TC_C + peak == pytest.approx(150.0, abs=1e-3)
+    alone = allowed_current(volts, power_only_part, pulse_s=TP_S, duty=DUTY, tc_c=TC_C).current_a[0]
+    assert got.current_a[0] < alone
+
+
+def test_a_standing_current_outside_the_dc_boundary_allows_no_pulse(power_only_part):
+    """5 A standing at 30 V is 150 W, above the DC 125 W line: nothing is allowed on top of it."""
+    got = allowed_current(30.0, power_only_part, pulse_s=TP_S, duty=DUTY, idle_current_a=5.0)
+    assert got.current_a[0] == 0.0 and got.limit[0] == "power"
+
+
+def test_without_a_thermal_model_a_pulse_on_a_standing_current_is_judged_as_dc(tmp_path):
+    part = read_part(write_part(tmp_path / "no-model"))
+    on_idle = allowed_current(20.0, part, pulse_s=1e-3, idle_current_a=0.5)
+    dc = allowed_current(20.0, part)
+    assert on_idle.current_a[0] == dc.current_a[0] and on_idle.curve_pulse_s[0] == math.inf
+
+
+def test_second_breakdown_of_a_pulse_on_a_standing_current_is_derated_where_the_pulse_starts(modelled_part):
+    """The reference part (no derating table: second breakdown derates like power) at 60 V, 3 ms, D 0.1, 0.5 A idle.
+
+    The 3 ms pulse takes its second-breakdown line from the DC curve (the next longer width):
+    c = 3.125·(60/40)^m, m = ln(0.5/3.125)/ln(100/40). The pulse starts at
+    T_s = Tc + V·I_idle·(Rth − Z_s) + V·I·Z_s, so I = c·(150 − T_s)/125 solves to
+    I = c·(125 − V·I_idle·(Rth − Z_s))/(125 + c·V·Z_s) (hand derivation).
+    """
+    volts, idle_a = 60.0, 0.5
+    m = math.log(0.5 / 3.125) / math.log(100 / 40)
+    c = 3.125 * (volts / 40) ** m
+    z_s = float(FOUR.zth_train_start(TP_S, DUTY))
+    expected = c * (125 - volts * idle_a * (1.0 - z_s)) / (125 + c * volts * z_s)
+    got = allowed_current(volts, modelled_part, pulse_s=TP_S, duty=DUTY, idle_current_a=idle_a)
+    assert got.limit[0] == "second_breakdown"
+    assert got.current_a[0] == pytest.approx(expected, rel=1e-9)
+
+
+def test_a_single_pulse_from_the_case_temperature_is_unchanged(modelled_part):
+    """No duty and no standing current: the pulse starts at Tc, so the 1 ms curve's own lines apply as before."""
+    got = allowed_current(90.0, modelled_part, pulse_s=1e-3)
+    # the 1 ms curve's second breakdown through (40 V, 10 A) and (100 V, 2 A), read at 90 V (constructed)
+    assert got.current_a[0] == pytest.approx(10 * (90 / 40) ** (math.log(0.2) / math.log(2.5)), rel=1e-12)
+
+
+def test_check_idle_current_fails_a_pulse_that_passes_alone(tmp_path):
+    folder = write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL)
+    args = ["check", str(folder), "-v", "30", "-i", "10.5", "--pulse", "3ms", "--duty", "0.1", "--json"]
+    runner = CliRunner(env={"COLUMNS": "120"})
+    alone = runner.invoke(app, args)
+    assert alone.exit_code == 0, alone.output
+    result = runner.invoke(app, [*args, "--idle-current", "1.3"])
+    assert result.exit_code == 1, result.output
+    payload = json.loads(result.stdout)
+    (point,) = payload["points"]
+    assert point["idle_current"] == 1.3 and point["limit"] == "power"
+    assert any("P_idle" in note for note in payload["assumptions"])
+
+
+def test_points_file_idle_current_column(tmp_path):
+    folder = write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL)
+    points = tmp_path / "points.csv"
+    points.write_text("voltage,current,pulse,duty,idle_current\n30,10.5,3ms,0.1,0\n30,10.5,3ms,0.1,1.3\n")
+    result = CliRunner(env={"COLUMNS": "120"}).invoke(app, ["check", str(folder), "-p", str(points), "--json"])
+    assert result.exit_code == 1, result.output
+    inside = [p["inside"] for p in json.loads(result.stdout)["points"]]
+    assert inside == [True, False]
+
+
+def test_a_negative_idle_current_names_the_line(tmp_path):
+    folder = write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL)
+    points = tmp_path / "points.csv"
+    points.write_text("voltage,current,idle_current\n30,9,0\n30,9,-1\n")
+    result = CliRunner(env={"COLUMNS": "120"}).invoke(app, ["check", str(folder), "-p", str(points)])
+    assert result.exit_code == 2, result.output
+    assert "line 3" in result.output and "idle_current" in result.output
