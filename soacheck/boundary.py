@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from soacheck.derating import BreakdownDerating, mechanism_factors, thermal_factor
+from soacheck.derating import BreakdownDerating, mechanism_factors
 from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
 from soacheck.search import highest_each
@@ -155,8 +155,8 @@ def repeated_pulse_lines(
     and starts each pulse at Tc + P_idle·Rth + (P − P_idle)·Z_start(tp, D) (superposition;
     see :func:`~soacheck.thermal.pulse_train_zth_start`). The constant-power line
     P = (tj_max − 25 °C)/Zth(tp, D) derated at Tc + P_idle·(Rth − Zth(tp, D)) gives exactly
-    the largest P with Tj ≤ tj_max. Second-breakdown, instability and unclassified lines
-    hold for a junction that starts the pulse at the case temperature (common practice,
+    the largest P with Tj ≤ tj_max (under a policy, its junction ceiling). Second-breakdown,
+    instability and unclassified lines hold for a junction that starts the pulse at the case temperature (common practice,
     no source), so they are derated at the junction temperature where each pulse starts,
     which rises with the pulse current itself: the allowed current is the largest I with
     I ≤ I_line(V)·f(T_start(I)), found by bisection. A single pulse with no standing
@@ -174,12 +174,11 @@ def repeated_pulse_lines(
     stacked = []
     for line in bound.lines:
         log_i = line(log_v)
-        if line.mechanism in ("current", "on_resistance"):
-            stacked.append(log_i)
-            continue
-        if line.mechanism == "power":
+        if line.mechanism in ("current", "on_resistance", "power"):
+            # the one place derating (and a policy) scales a line: mechanism_factors
+            at_c = tc_power if line.mechanism == "power" else tc_c
             with np.errstate(divide="ignore"):
-                stacked.append(log_i + np.log(thermal_factor(tc_power, part.ratings.tj_max_c)))
+                stacked.append(log_i + np.log(mechanism_factors(at_c, part, breakdown)[line.mechanism]))
             continue
 
         def factor(t_c: np.ndarray, name: str = line.mechanism) -> np.ndarray:
@@ -247,7 +246,10 @@ def allowed_current(
     for power-law segments; linear interpolation would lie above a falling segment).
     Below the lowest digitized voltage the first segment extends, capped by the rated
     current; above ``v_max`` nothing is allowed (limit ``voltage``); at or above
-    ``tj_max`` nothing is allowed (limit ``case_at_tj_max``). A non-finite or non-positive
+    ``tj_max`` nothing is allowed (limit ``case_at_tj_max``). Under a policy
+    (``part.policy``) the boundary is the policy's (:func:`~soacheck.derating.mechanism_factors`),
+    nothing is allowed above its voltage fraction of ``v_max`` (limit ``policy_voltage``)
+    nor at a case at or above its junction ceiling (limit ``tj_ceiling``). A non-finite or non-positive
     voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], or a
     negative idle current, gives NaN with limit ``invalid``.
 
@@ -304,10 +306,12 @@ def allowed_current(
         over = np.flatnonzero(standing)[idle[standing] > dc.current_a]
         allowed[over], limit[over] = 0.0, dc.limit[idle[standing] > dc.current_a]
 
-    too_hot = valid & (tc >= part.ratings.tj_max_c)
-    allowed[too_hot], limit[too_hot] = 0.0, "case_at_tj_max"
-    over_v = valid & (v > part.ratings.v_max_v)
-    allowed[over_v], limit[over_v], above[over_v] = 0.0, "voltage", False
+    too_hot = valid & (tc >= part.tj_limit_c)
+    allowed[too_hot] = 0.0
+    limit[too_hot] = np.where(tc[too_hot] >= part.ratings.tj_max_c, "case_at_tj_max", part.tj_limit)
+    over_v = valid & (v > part.v_limit_v)
+    allowed[over_v], above[over_v] = 0.0, False
+    limit[over_v] = np.where(v[over_v] > part.ratings.v_max_v, "voltage", part.v_limit)
     return Allowed(allowed, limit.astype(str), curve_pulse, modelled, below, above)
 
 
@@ -387,14 +391,19 @@ def envelope_polyline(
     breakdown: BreakdownDerating = "auto",
     v_min_v: float,
 ) -> BoundaryPolyline:
-    """Exact vertices of the lower envelope of derated ``lines`` from ``v_min_v`` to ``v_max``."""
-    x_lo, x_hi = math.log(v_min_v), math.log(part.ratings.v_max_v)
+    """Exact vertices of the lower envelope of derated ``lines`` from ``v_min_v`` to ``v_max``.
+
+    Under a policy the polyline ends at its voltage fraction of ``v_max`` and is empty at a
+    case at or above its junction ceiling.
+    """
+    x_lo, x_hi = math.log(v_min_v), math.log(part.v_limit_v)
     vertices = np.concatenate([line.log_v for line in lines])
     x = np.unique(np.r_[x_lo, x_hi, vertices[(vertices > x_lo) & (vertices < x_hi)]])
     y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, breakdown)
-    if np.all(np.isneginf(y)) or tc_c >= part.ratings.tj_max_c:
+    if np.all(np.isneginf(y)) or tc_c >= part.tj_limit_c:
         v = np.exp(np.array([x_lo, x_hi]))
-        return BoundaryPolyline(v, np.zeros(2), np.array(["case_at_tj_max", "case_at_tj_max"]))
+        name = "case_at_tj_max" if tc_c >= part.ratings.tj_max_c or part.policy is None else part.tj_limit
+        return BoundaryPolyline(v, np.zeros(2), np.array([name, name]))
     # crossings of every pair of lines inside every interval between vertices
     finite = np.where(np.isfinite(y), y, -1e6)
     diff = finite[:, None, :] - finite[None, :, :]  # (lines, lines, points)
@@ -479,14 +488,14 @@ def max_case_temp(
     above I/I_k(V); the factors never rise with Tc, so each gives a highest Tc, found by
     inverting f_k tabulated every ``step_k`` kelvin (rounded down: conservative). The
     answer is the lowest over lines and points; None when a point is outside even at
-    ``lowest_c`` (or above ``v_max``).
+    ``lowest_c`` (or above ``v_max``; under a policy, its junction ceiling and voltage fraction).
     """
     v = np.asarray(voltage_v, dtype=float).ravel()
     i = np.asarray(current_a, dtype=float).ravel()
-    if np.any(v > part.ratings.v_max_v):
+    if np.any(v > part.v_limit_v):
         return None
     bound = pulse_lines(part, pulse_s=pulse_s, duty=duty)
-    grid = np.arange(lowest_c, part.ratings.tj_max_c, step_k)
+    grid = np.arange(lowest_c, part.tj_limit_c, step_k)
     factors = mechanism_factors(grid, part, breakdown)
     log_v = np.log(v)
     highest = np.inf

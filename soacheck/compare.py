@@ -136,7 +136,7 @@ def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -
         hottest = highest_linear(
             lambda tc: _single_trace(part, replace(job, case_temp_c=tc), 1, breakdown).passed,
             job.case_temp_c,
-            part.ratings.tj_max_c,
+            part.tj_limit_c,
         )
     k = int(np.argmin(np.abs(job.trajectory.time_s - (result.margin_time_s or 0.0))))
     return Candidate(

@@ -173,7 +173,7 @@ def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, breakd
     dropout = state.device_v <= 0
     limit = np.where(dropout, "dropout", limit)
     margin = np.where(dropout, -np.inf, margin)
-    hot = state.junction_c > stage.part.ratings.tj_max_c
+    hot = state.junction_c > stage.part.tj_limit_c
     margin = np.where(hot | (limit == "runaway"), np.minimum(margin, -1e-9), margin)
     return allowed, margin, limit
 
@@ -291,7 +291,8 @@ def largest_safe_envelope(
         f"{stage.count} × {stage.part.id}, {timing_note}; {surroundings}",
         f"ballast {stage.ballast_ohm:g} Ω each, series {stage.series_ohm:g} Ω, V_BE band {stage.vbe_spread_v * 1e3:g} "
         "mV with Q1 at its bottom",
-        "each current is the highest at which every device stays inside its derated SOA and below tj_max, "
+        f"each current is the highest at which every device stays inside its derated SOA and below "
+        f"{stage.part.tj_limit} = {stage.part.tj_limit_c:g} °C, "
         "without runaway and with V_CE above zero",
     )
     return SafeEnvelope(stage, v, lo, limit, pulse_s, duty, notes)

@@ -33,6 +33,8 @@ Limit = Literal[
     "voltage",
     "case_at_tj_max",
     "tj_max",
+    "tj_ceiling",
+    "policy_voltage",
     "invalid",
 ]
 

@@ -7,9 +7,9 @@ are SI: volts, amperes, watts, degrees Celsius, kelvin per watt, seconds.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -17,6 +17,9 @@ from numpy.typing import ArrayLike
 from soacheck.bipolar import Gain
 from soacheck.mosfet import TransferCurves
 from soacheck.units import format_duration
+
+if TYPE_CHECKING:
+    from soacheck.policy import Policy
 
 Kind = Literal["npn", "pnp", "nmos", "pmos", "igbt"]
 KINDS: tuple[Kind, ...] = ("npn", "pnp", "nmos", "pmos", "igbt")
@@ -111,6 +114,9 @@ class Part:
         True for a Darlington pair (bipolar): two base-emitter junctions in series.
     folder
         Where the part was read from, or None.
+    policy
+        The design-margin policy the part is judged under (see :meth:`under`), or None:
+        the absolute ratings.
     """
 
     id: str
@@ -129,6 +135,7 @@ class Part:
     gain: Gain | None = None
     darlington: bool = False
     folder: Path | None = None
+    policy: Policy | None = None
 
     @property
     def is_bipolar(self) -> bool:
@@ -199,3 +206,41 @@ class Part:
         # a relative tolerance lets 1e-3 s written as "1ms" match the 1 ms curve exactly
         index = np.searchsorted(widths, np.asarray(pulse_s, dtype=float) * (1 - 1e-9), side="left")
         return np.minimum(index, widths.size - 1)
+
+    def under(self, policy: Policy | None) -> Part:
+        """The same part judged under a design-margin ``policy``; None or a policy taking no margin: the ratings.
+
+        Raises
+        ------
+        SoacheckError
+            The policy's ceiling is above this part's tj_max.
+        """
+        if policy is None or policy.is_none:
+            return self if self.policy is None else replace(self, policy=None)
+        policy.check_for(self.ratings.tj_max_c, self.id)
+        return replace(self, policy=policy)
+
+    @property
+    def rated(self) -> Part:
+        """The same part judged against its absolute ratings (no policy)."""
+        return self.under(None)
+
+    @property
+    def tj_limit_c(self) -> float:
+        """The junction temperature not to exceed: the policy's ceiling, else tj_max. [°C]"""
+        return self.ratings.tj_max_c if self.policy is None else self.policy.ceiling_c(self.ratings.tj_max_c)
+
+    @property
+    def tj_limit(self) -> Literal["tj_max", "tj_ceiling"]:
+        """The limit a junction above :attr:`tj_limit_c` is reported as."""
+        return "tj_ceiling" if self.policy is not None and self.policy.tj_ceiling_c is not None else "tj_max"
+
+    @property
+    def v_limit_v(self) -> float:
+        """The highest voltage allowed: the policy's fraction of v_max, else v_max. [V]"""
+        return self.ratings.v_max_v * (1.0 if self.policy is None else self.policy.voltage_factor)
+
+    @property
+    def v_limit(self) -> Literal["voltage", "policy_voltage"]:
+        """The limit a voltage above :attr:`v_limit_v` (but not above v_max) is reported as."""
+        return "policy_voltage" if self.policy is not None and self.policy.voltage_fraction is not None else "voltage"

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Literal
 import numpy as np
 
 from soacheck.boundary import Allowed, allowed_current, model_consistency
-from soacheck.derating import BreakdownDerating, breakdown_note
+from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
 from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part
 from soacheck.thermal_model import thermal_model
@@ -22,6 +22,8 @@ from soacheck.units import DC, format_duration
 
 if TYPE_CHECKING:
     import pandas as pd
+
+    from soacheck.policy import Policy
 
 
 @dataclass(frozen=True, eq=False)
@@ -31,7 +33,9 @@ class PointCheck:
     Arrays have shape ``(n,)``. ``margin`` = 1 − current/allowed_current, NaN where
     nothing is allowed or the point cannot be evaluated; ``inside`` is True only where
     the point was evaluated and its current is at most the allowed current (a point on
-    the boundary is inside).
+    the boundary is inside). Under a design-margin ``policy`` the allowed current, margin,
+    limit and verdict are the policy's, and ``margin_to_rating`` is the margin against the
+    absolute ratings (None without a policy).
     """
 
     part_id: str
@@ -48,6 +52,8 @@ class PointCheck:
     curve_pulse_s: np.ndarray
     extrapolated: np.ndarray
     assumptions: tuple[str, ...] = field(default_factory=tuple)
+    policy: Policy | None = None
+    margin_to_rating: np.ndarray | None = None
 
     @property
     def passed(self) -> bool:
@@ -61,7 +67,7 @@ class PointCheck:
         """One row per point, columns named as in the JSON output; ``duty`` None for DC and single pulses."""
         import pandas as pd  # deferred: a command that prints no table starts without it
 
-        return pd.DataFrame(
+        frame = pd.DataFrame(
             {
                 "voltage": self.voltage_v,
                 "current": self.current_a,
@@ -78,6 +84,9 @@ class PointCheck:
                 "extrapolated": self.extrapolated,
             }
         )
+        if self.margin_to_rating is not None:
+            frame.insert(frame.columns.get_loc("margin") + 1, "margin_to_rating", self.margin_to_rating)
+        return frame
 
 
 def margin(current_a: np.ndarray, allowed_a: np.ndarray, evaluated: np.ndarray) -> np.ndarray:
@@ -123,7 +132,9 @@ def check_points(
     Returns
     -------
     PointCheck
-        Per-point verdicts with the assumptions made, in words.
+        Per-point verdicts with the assumptions made, in words; under the part's policy
+        (:meth:`~soacheck.parts.Part.under`) judged against the policy, with the margin to
+        the absolute ratings beside.
     """
     v, i, tc, tp, d, idle = (
         np.ravel(a).astype(float)
@@ -133,6 +144,12 @@ def check_points(
     evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
     inside = evaluated & (i <= result.current_a)
     limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
+    to_rating = None
+    if part.policy is not None:
+        rated = allowed_current(
+            v, part.rated, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=breakdown
+        ).current_a
+        to_rating = margin(i, rated, np.isfinite(rated) & np.isfinite(i) & (i >= 0))
     return PointCheck(
         part_id=part.id,
         voltage_v=v,
@@ -148,6 +165,8 @@ def check_points(
         curve_pulse_s=result.curve_pulse_s,
         extrapolated=result.extrapolated,
         assumptions=_assumptions(part, v, i, tc, tp, d, idle, result, breakdown),
+        policy=part.policy,
+        margin_to_rating=to_rating,
     )
 
 
@@ -167,6 +186,7 @@ def _assumptions(
         f"(tj_max − Tc)/(tj_max − 25 °C) with tj_max = {part.ratings.tj_max_c:g} °C",
         "current limit and voltage limit not derated",
         breakdown_note(part, breakdown),
+        policy_note(part),
     ]
     shortest = part.pulse_widths_s[0]
     standing = (idle > 0) & np.isfinite(tp) & (d < 1)

@@ -51,8 +51,8 @@ class StageRun:
 
     @property
     def inside(self) -> np.ndarray:
-        """(n, m): inside the SOA and below tj_max, and not in runaway."""
-        ok = (self.device_a <= self.allowed_a) & (self.junction_c <= self.stage.part.ratings.tj_max_c)
+        """(n, m): inside the SOA and at or below tj_max (under a policy, its ceiling), and not in runaway."""
+        ok = (self.device_a <= self.allowed_a) & (self.junction_c <= self.stage.part.tj_limit_c)
         return ok & ~(self.limit == "runaway")
 
     @property
@@ -171,7 +171,8 @@ def run_stage(
         "quasi-static on top (conservative)"
         if stage.cooling
         else f"cases held at {stage.case_temp_c:g} °C",
-        "each device checked against its DC boundary at its own case temperature, and its junction against tj_max",
+        "each device checked against its DC boundary at its own case temperature, and its junction against "
+        f"{part.tj_limit} = {part.tj_limit_c:g} °C",
     ]
     if not bipolar and n > 1:
         notes.append("FET sharing: 1/g_m neglected, only the source resistors balance the devices (conservative)")
@@ -215,7 +216,8 @@ def check_devices(
     """Allowed current, margin and limit of every device at every point, each ``(n, m)``.
 
     Each device is checked against its SOA (for the pulse condition) derated at its own
-    case temperature; a junction above tj_max is labelled ``tj_max``; where the stage runs
+    case temperature; a junction above tj_max is labelled ``tj_max`` (under a policy with a
+    junction ceiling, above the ceiling: ``tj_ceiling``); where the stage runs
     away the hog (Q1, index 0) is labelled ``runaway``.
     """
     n, m = device_a.shape
@@ -224,8 +226,8 @@ def check_devices(
     )
     allowed_a = allowed.current_a.reshape(n, m)
     limit = allowed.limit.reshape(n, m).astype(object)
-    hot = junction_c > stage.part.ratings.tj_max_c
-    limit = np.where(hot & (device_a <= allowed_a), "tj_max", limit)
+    hot = junction_c > stage.part.tj_limit_c
+    limit = np.where(hot & (device_a <= allowed_a), stage.part.tj_limit, limit)
     limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))

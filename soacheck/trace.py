@@ -198,7 +198,7 @@ class TraceChecker:
             allowed, _ = evaluate_lines(
                 np.maximum(v, 1e-300), self.part, self.lines[index], tc_c=tc, breakdown=self.breakdown
             )
-            blocked = (v > self.part.ratings.v_max_v) | (tc >= self.part.ratings.tj_max_c)
+            blocked = (v > self.part.v_limit_v) | (tc >= self.part.tj_limit_c)
             with np.errstate(divide="ignore"):
                 log_allowed = np.where(blocked, -np.inf, np.log(allowed))
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -256,13 +256,13 @@ class TraceChecker:
         k = int(np.argmax(rise))
         if self.reference_c + rise[k] > self.tj_peak:
             self.tj_peak, self.tj_peak_time = float(self.reference_c + rise[k]), float(t[k])
-        over = rise > self.part.ratings.tj_max_c - self.reference_c
+        over = rise > self.part.tj_limit_c - self.reference_c
         if self.over_pending:  # the last sample of the previous chunk was over, held until now
             self.time_over += float(t[0] - self.last_t)
         if over.any():
             held = np.diff(t, append=t[-1])  # the chunk's last hold is added with the next chunk
             self.time_over += float(np.sum(held[over]))
-            self.worst.violation(float(t[int(np.argmax(over))]), None, "tj_max")
+            self.worst.violation(float(t[int(np.argmax(over))]), None, self.part.tj_limit)
         self.over_pending = bool(over[-1])
 
     def _excursions(self, t, v, i, tc, outside, excess) -> None:
@@ -385,10 +385,10 @@ class TraceChecker:
         limit = self.worst.violation_limit
         if limit is None and self.worst.violation_sample is not None:
             v, i, tc, b = self.worst.violation_sample
-            if v > self.part.ratings.v_max_v:
-                limit = "voltage"
-            elif tc >= self.part.ratings.tj_max_c:
-                limit = "case_at_tj_max"
+            if v > self.part.v_limit_v:
+                limit = "voltage" if v > self.part.ratings.v_max_v else self.part.v_limit
+            elif tc >= self.part.tj_limit_c:
+                limit = "case_at_tj_max" if tc >= self.part.ratings.tj_max_c else self.part.tj_limit
             else:
                 limit = str(
                     evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=tc, breakdown=self.breakdown)[1][0]
@@ -437,8 +437,8 @@ class TraceChecker:
             notes.append(f"case held at {self.reference_c:g} °C")
         if self.model is not None:
             notes.append(
-                f"junction temperature from the {self.model.origin}; it must stay at or below tj_max = "
-                f"{part.ratings.tj_max_c:g} °C"
+                f"junction temperature from the {self.model.origin}; it must stay at or below "
+                f"{part.tj_limit} = {part.tj_limit_c:g} °C"
             )
             notes.append(
                 "an excursion above the DC boundary is allowed when it ends within the width of a digitized pulse "
