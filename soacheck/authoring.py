@@ -14,10 +14,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from soacheck.calibration import AxisCalibration
+from soacheck.calibration import AxisCalibration, Seed
 from soacheck.errors import SoacheckError
 from soacheck.parts import KINDS
-from soacheck.tracing import Seed
 from soacheck.units import parse_duration
 
 PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")

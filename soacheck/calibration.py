@@ -118,3 +118,17 @@ def decades_disagree(axis: AxisCalibration, seen: float | None, option: str) -> 
         f"{option} spans {given:.2g} decade(s), but the grid shows {seen:.2g} across the frame; check the "
         "range (the values at the frame's edges), or give pixel ticks with --x/--y instead"
     )
+
+
+@dataclass(frozen=True)
+class Seed:
+    """A point on or near a curve, in the plot's values, and the curve's name (its pulse width)."""
+
+    x: float
+    y: float
+    name: str
+
+    @property
+    def label(self) -> str:
+        """The seed as the user wrote it, such as ``20:5 (dc)``."""
+        return f"{self.x:g}:{self.y:g}" + (f" ({self.name})" if self.name else "")

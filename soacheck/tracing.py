@@ -33,7 +33,7 @@ from skimage.color import rgb2gray, rgba2rgb
 from skimage.morphology import skeletonize
 from skimage.transform import probabilistic_hough_line
 
-from soacheck.calibration import AxisCalibration
+from soacheck.calibration import AxisCalibration, Seed
 from soacheck.errors import SoacheckError
 
 DARK_BELOW = 0.5  # grey level under which a pixel is ink of a curve, the frame or text (0 black, 1 white)
@@ -411,15 +411,18 @@ def simplify(x: np.ndarray, y: np.ndarray, tolerance: float) -> np.ndarray:
     return np.searchsorted(x, kept[:, 0])
 
 
-def sharpen(x: np.ndarray, y: np.ndarray, keep: np.ndarray, clear: np.ndarray, margin: int) -> tuple:
+def sharpen(
+    x: np.ndarray, y: np.ndarray, keep: np.ndarray, clear: np.ndarray, *, margin: int, tolerance: float
+) -> tuple[np.ndarray, np.ndarray]:
     """Vertices at the crossings of straight lines fitted between the kept points.
 
     Points within ``margin`` of a kept point (a rounded or anti-aliased corner) and points
-    that are not ``clear`` are left out of the fits. A segment too short for a fit (the
-    corner cut in two by Douglas-Peucker) is dropped when its neighbours' lines cross
-    between their far ends; then every inner vertex moves to the crossing of its two
-    neighbouring lines when that crossing lies between its neighbours, and an end vertex
-    moves onto its line.
+    that are not ``clear`` are left out of the fits. A run of segments too short for a fit
+    (a corner cut in pieces by Douglas-Peucker, or a bump where another curve touches) is
+    replaced by one vertex where its neighbours' lines cross between their far ends, or
+    dropped when those lines are one straight line (parallel and within ``tolerance``);
+    then every inner vertex moves to the crossing of its two neighbouring lines when that
+    crossing lies between its neighbours, and an end vertex moves onto its line.
 
     Returns
     -------
@@ -432,26 +435,37 @@ def sharpen(x: np.ndarray, y: np.ndarray, keep: np.ndarray, clear: np.ndarray, m
         inner = inner[clear[inner]] if inner.size else inner
         return np.polyfit(x[inner], y[inner], 1) if inner.size >= 3 else None
 
+    def parallel(before, after) -> bool:
+        return abs(before[0] - after[0]) < 0.05
+
     def crossing(before, after) -> float | None:
-        if before is None or after is None or abs(before[0] - after[0]) < 0.05:
+        if before is None or after is None or parallel(before, after):
             return None
         return float((after[1] - before[1]) / (before[0] - after[0]))
 
+    index = [int(k) for k in keep]
     vx, vy = list(x[keep].astype(float)), list(y[keep].astype(float))
-    fits = [fit(a, b) for a, b in zip(keep[:-1], keep[1:], strict=True)]
+    fits = [fit(a, b) for a, b in zip(index[:-1], index[1:], strict=True)]
     j = 1
     while j < len(fits) - 1:
         k = j  # fits[j:k] is a run of segments too short to fit
         while k < len(fits) - 1 and fits[k] is None:
             k += 1
-        cx = crossing(fits[j - 1], fits[k]) if k > j else None
-        if cx is not None and vx[j - 1] < cx < vx[k + 1]:
-            del fits[j:k], vx[j + 1 : k + 1], vy[j + 1 : k + 1]
-            vx[j], vy[j] = cx, float(np.polyval(fits[j - 1], cx))
+        before, after = fits[j - 1], fits[k]
+        if k > j and before is not None and after is not None:
+            cx = crossing(before, after)
+            middle = 0.5 * (vx[j] + vx[k])
+            if cx is not None and vx[j - 1] < cx < vx[k + 1]:
+                del fits[j:k], vx[j + 1 : k + 1], vy[j + 1 : k + 1], index[j + 1 : k + 1]
+                vx[j], vy[j] = cx, float(np.polyval(before, cx))
+            elif parallel(before, after) and abs(np.polyval(before, middle) - np.polyval(after, middle)) < tolerance:
+                del fits[j - 1 : k + 1], vx[j : k + 1], vy[j : k + 1], index[j : k + 1]
+                fits.insert(j - 1, fit(index[j - 1], index[j]))
+                continue
         j += 1
     for end, inner in ((0, 1), (-1, -2)):
         if len(fits) > 1 and fits[end] is None and fits[inner] is not None:
-            del fits[end], vx[inner], vy[inner]
+            del fits[end], vx[inner], vy[inner], index[inner]
     for j in range(1, len(vx) - 1):
         cx = crossing(fits[j - 1], fits[j])
         if cx is not None and vx[j - 1] < cx < vx[j + 1]:
@@ -464,20 +478,6 @@ def sharpen(x: np.ndarray, y: np.ndarray, keep: np.ndarray, clear: np.ndarray, m
 
 
 # --------------------------------------------------------------------------- from seeds to curves
-
-
-@dataclass(frozen=True)
-class Seed:
-    """A point on or near a curve, in the plot's values, and the curve's name (its pulse width)."""
-
-    x: float
-    y: float
-    name: str
-
-    @property
-    def label(self) -> str:
-        """The seed as the user wrote it, such as ``20:5 (dc)``."""
-        return f"{self.x:g}:{self.y:g}" + (f" ({self.name})" if self.name else "")
 
 
 @dataclass(frozen=True)
@@ -572,7 +572,7 @@ def _vertices(pixels, seed, note, frame, x_axis, y_axis, tolerance_decades) -> T
     lx = np.log10(x_axis.value(pixels.column))
     ly = np.log10(y_axis.value(pixels.row))
     keep = simplify(lx, ly, tolerance_decades)
-    vx, vy = sharpen(lx, ly, keep, pixels.clear, margin=int(2 * pixels.width_px) + 2)
+    vx, vy = sharpen(lx, ly, keep, pixels.clear, margin=int(2 * pixels.width_px) + 2, tolerance=tolerance_decades)
     # a curve that runs into the frame goes on to the frame's edge
     reach = frame.line_px + 2
     for end, inner, edge in ((0, 1, frame.left), (-1, -2, frame.right)):

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import errno
+import os
+import tempfile
 from pathlib import Path
 
 import pytest
@@ -82,3 +85,27 @@ BUNDLED_IDS = [entry.id for entry in list_parts([bundled_library()])]
 def bundled_part(request):
     """Each bundled demo part in turn."""
     return read_part(bundled_library() / request.param)
+
+
+@pytest.fixture
+def unwritable(tmp_path, monkeypatch):
+    """A folder nobody may write into: mode 0o555, and for root (whom modes do not stop) the
+    refusal the operating system gives everyone else (EACCES) when a file is made in it."""
+    folder = tmp_path / "locked"
+    folder.mkdir()
+    folder.chmod(0o555)
+    if os.access(folder, os.W_OK):
+        real_mkstemp, real_mkdtemp = tempfile.mkstemp, tempfile.mkdtemp
+
+        def refuse(real):
+            def make(*args, dir=None, **kwargs):
+                if dir is not None and Path(dir).resolve().is_relative_to(folder.resolve()):
+                    raise PermissionError(errno.EACCES, "Permission denied", str(dir))
+                return real(*args, dir=dir, **kwargs)
+
+            return make
+
+        monkeypatch.setattr(tempfile, "mkstemp", refuse(real_mkstemp))
+        monkeypatch.setattr(tempfile, "mkdtemp", refuse(real_mkdtemp))
+    yield folder
+    folder.chmod(0o755)

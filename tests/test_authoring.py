@@ -421,34 +421,6 @@ def test_inconsistent_ratings_use_the_smaller_power():
 # --------------------------------------------------------------------------- output folders
 
 
-@pytest.fixture
-def unwritable(tmp_path, monkeypatch):
-    """A folder nobody may write into: mode 0o555, and for root (whom modes do not stop) the
-    refusal the operating system gives everyone else (EACCES) when a file is made in it."""
-    import errno
-    import os
-    import tempfile
-
-    folder = tmp_path / "locked"
-    folder.mkdir()
-    folder.chmod(0o555)
-    if os.access(folder, os.W_OK):
-        real_mkstemp, real_mkdtemp = tempfile.mkstemp, tempfile.mkdtemp
-
-        def refuse(real):
-            def make(*args, dir=None, **kwargs):
-                if dir is not None and Path(dir).resolve().is_relative_to(folder.resolve()):
-                    raise PermissionError(errno.EACCES, "Permission denied", str(dir))
-                return real(*args, dir=dir, **kwargs)
-
-            return make
-
-        monkeypatch.setattr(tempfile, "mkstemp", refuse(real_mkstemp))
-        monkeypatch.setattr(tempfile, "mkdtemp", refuse(real_mkdtemp))
-    yield folder
-    folder.chmod(0o755)
-
-
 def one_line_exit_2(result, *fragments):
     assert result.exit_code == 2, result.output
     assert "Traceback" not in result.output and result.exception is None or isinstance(result.exception, SystemExit)

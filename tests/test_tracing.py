@@ -212,7 +212,7 @@ def test_sharpen_moves_a_cut_corner_to_the_crossing_of_its_lines():
     rounded = np.abs(x - 1.0) < 0.03
     y[rounded] -= 0.01  # the join pulls the corner inward
     keep = simplify(x, y, 0.005)
-    vx, vy = sharpen(x, y, keep, np.ones(x.size, bool), margin=10)
+    vx, vy = sharpen(x, y, keep, np.ones(x.size, bool), margin=10, tolerance=0.005)
     assert vx == pytest.approx([0.0, 1.0, 2.0], abs=1e-9)
     assert vy == pytest.approx([1.0, 1.0, 0.0], abs=1e-9)
 
@@ -316,3 +316,22 @@ def test_the_documented_authoring_path_runs_from_an_empty_folder(tmp_path, monke
         assert curve.current_a == pytest.approx(known.current_a, rel=0.03)
     assert lint_part(tmp_path / "my-parts" / "lab-npn-a") == []
     assert (tmp_path / "check.png").is_file()
+
+
+def test_sharpen_drops_a_bump_on_a_straight_line():
+    """A straight line with a 0.006 dip over 0.04 (a touching curve pulls the middle) stays one segment."""
+    x = np.linspace(0.0, 2.0, 401)
+    y = np.full(x.size, 1.0)
+    y[np.abs(x - 1.0) < 0.02] -= 0.006
+    keep = simplify(x, y, 0.005)
+    assert keep.size > 2  # Douglas-Peucker alone keeps the dip
+    vx, vy = sharpen(x, y, keep, np.ones(x.size, bool), margin=10, tolerance=0.005)
+    assert vx == pytest.approx([0.0, 2.0])
+    # the refitted line takes in the dip: 9 of 401 points 0.006 low pull it down by 1.3e-4
+    assert vy == pytest.approx([1.0, 1.0], abs=2e-4)
+
+
+def test_an_overlay_in_an_unwritable_folder_exits_2_in_one_line(tmp_path, small_sheet, unwritable):
+    result = runner.invoke(app, overlay_args(small_sheet, tmp_path / "soa.csv", unwritable / "check.png"))
+    assert result.exit_code == 2, result.output
+    assert result.stderr.strip().count("\n") == 0 and "Permission denied" in result.stderr

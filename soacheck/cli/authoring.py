@@ -45,15 +45,6 @@ from soacheck.partfiles import (
     write_output,
     write_zth,
 )
-from soacheck.tracing import (
-    SIMPLIFY_DECADES,
-    decades_seen,
-    find_frame,
-    grey_levels,
-    grid_lines,
-    plot_overlay,
-    trace_curves,
-)
 
 
 @app.command()
@@ -146,6 +137,8 @@ def digitize(
 
 def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overlay, target, force) -> None:
     """Trace each seeded curve in the picture and add it to ``target``."""
+    from soacheck.tracing import SIMPLIFY_DECADES, find_frame, grey_levels, trace_curves
+
     if linear_x or linear_y:
         raise SoacheckError("--trace works on log-log plots; leave out --linear-x/--linear-y")
     seeds = [parse_seed(text, zth=zth) for text in trace]
@@ -184,6 +177,8 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
 
 def _axis(ticks, value_range, option, edges, grey, frame, *, horizontal) -> AxisCalibration:
     """An axis from pixel ticks, or from its range put on the frame's edges and checked against the grid."""
+    from soacheck.tracing import decades_seen, grid_lines
+
     if ticks and value_range:
         raise SoacheckError(f"give {option} (pixel ticks) or {option}-range (values at the frame's edges), not both")
     if ticks:
@@ -205,6 +200,8 @@ def _write_overlay(path: Path, picture: np.ndarray, curves) -> None:
     import io
 
     from matplotlib.figure import Figure
+
+    from soacheck.tracing import plot_overlay
 
     rows, columns = picture.shape[:2]
     figure = Figure(figsize=(columns / 100, rows / 100), dpi=100)
