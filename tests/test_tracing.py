@@ -335,3 +335,11 @@ def test_an_overlay_in_an_unwritable_folder_exits_2_in_one_line(tmp_path, small_
     result = runner.invoke(app, overlay_args(small_sheet, tmp_path / "soa.csv", unwritable / "check.png"))
     assert result.exit_code == 2, result.output
     assert result.stderr.strip().count("\n") == 0 and "Permission denied" in result.stderr
+
+
+def test_a_rerun_replaces_its_own_overlay_without_force(tmp_path, small_sheet):
+    overlay = tmp_path / "check.png"
+    first = runner.invoke(app, overlay_args(small_sheet, tmp_path / "a" / "soa.csv", overlay))
+    assert first.exit_code == 0, first.output
+    again = runner.invoke(app, overlay_args(small_sheet, tmp_path / "b" / "soa.csv", overlay))
+    assert again.exit_code == 0, again.output  # soacheck marked the PNG it wrote (issue 14)

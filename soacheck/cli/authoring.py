@@ -144,11 +144,7 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
     seeds = [parse_seed(text, zth=zth) for text in trace]
     if zth and len(seeds) > 1:
         raise SoacheckError("a part has one Zth curve: give one --trace T:Z with --zth")
-    if overlay is not None:
-        if overlay.suffix.lower() != ".png":
-            raise SoacheckError(f"--overlay '{overlay}' must end in .png")
-        if overlay.exists() and not force:
-            raise SoacheckError(f"{overlay}: exists; choose another name or add --force to replace it")
+    overlay = output_path(overlay, "--overlay", force=force, suffixes=(".png",))
     picture = read_image(image)
     grey = grey_levels(picture)
     frame = find_frame(grey)
@@ -201,13 +197,14 @@ def _write_overlay(path: Path, picture: np.ndarray, curves) -> None:
 
     from matplotlib.figure import Figure
 
+    from soacheck.filemarks import figure_metadata
     from soacheck.tracing import plot_overlay
 
     rows, columns = picture.shape[:2]
     figure = Figure(figsize=(columns / 100, rows / 100), dpi=100)
     plot_overlay(picture, curves, ax=figure.add_axes((0, 0, 1, 1)))
     buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=100)
+    figure.savefig(buffer, format="png", dpi=100, metadata=figure_metadata(path))
     write_output(path, buffer.getvalue())
 
 
