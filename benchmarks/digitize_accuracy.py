@@ -23,9 +23,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from soacheck.calibration import range_calibration  # noqa: E402
+from soacheck.calibration import Seed, range_calibration  # noqa: E402
 from soacheck.files import read_image  # noqa: E402
-from soacheck.tracing import Seed, find_frame, grey_levels, trace_curves  # noqa: E402
+from soacheck.picture import find_frame, grey_levels  # noqa: E402
+from soacheck.tracing import trace_curves  # noqa: E402
 from tests.pictures import CURVES, DC, PULSE_1MS, PULSE_10MS, X_RANGE, Y_RANGE, draw_sheet  # noqa: E402
 
 SEED_VOLTAGE = {"dc": 20.0, "10ms": 15.0, "1ms": 20.0, "100us": 60.0}  # on each curve's own stretch

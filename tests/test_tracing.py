@@ -22,7 +22,9 @@ from soacheck.cli import app
 from soacheck.files import read_image
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
-from soacheck.tracing import OVERLAY_COLOUR, decades_seen, sharpen, simplify
+from soacheck.picture import decades_seen
+from soacheck.tracing import OVERLAY_COLOUR
+from soacheck.vertices import sharpen, simplify
 
 from .pictures import CURVES, DC, PULSE_1MS, PULSE_100US, KnownCurve, draw_sheet
 
@@ -301,7 +303,10 @@ def documented_authoring_path() -> list[list[str]]:
 
 def test_the_documented_authoring_path_runs_from_an_empty_folder(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    draw_sheet(tmp_path / "sheet.png", (DC, PULSE_1MS))  # the picture the text describes
+    # the picture the text describes, drawn here from the known curves (examples/sheet.png
+    # is the same drawing, written by tools/make_example_sheet.py)
+    (tmp_path / "examples").mkdir()
+    draw_sheet(tmp_path / "examples" / "sheet.png", (DC, PULSE_1MS))
     commands = documented_authoring_path()
     assert [argv[1] for argv in commands] == ["digitize", "new-part", "lint", "check"]
     for argv in commands:

@@ -137,7 +137,9 @@ def digitize(
 
 def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overlay, target, force) -> None:
     """Trace each seeded curve in the picture and add it to ``target``."""
-    from soacheck.tracing import SIMPLIFY_DECADES, find_frame, grey_levels, trace_curves
+    from soacheck.picture import find_frame, grey_levels
+    from soacheck.tracing import trace_curves
+    from soacheck.vertices import SIMPLIFY_DECADES
 
     if linear_x or linear_y:
         raise SoacheckError("--trace works on log-log plots; leave out --linear-x/--linear-y")
@@ -173,7 +175,7 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
 
 def _axis(ticks, value_range, option, edges, grey, frame, *, horizontal) -> AxisCalibration:
     """An axis from pixel ticks, or from its range put on the frame's edges and checked against the grid."""
-    from soacheck.tracing import decades_seen, grid_lines
+    from soacheck.picture import decades_seen, grid_lines
 
     if ticks and value_range:
         raise SoacheckError(f"give {option} (pixel ticks) or {option}-range (values at the frame's edges), not both")
