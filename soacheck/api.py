@@ -40,7 +40,7 @@ from soacheck.partfiles import read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
-from soacheck.quantities import DUTY, IDLE_CURRENT
+from soacheck.quantities import CHUNK_ROWS, CURRENT, DUTY, IDLE_CURRENT, TEMPERATURE, VOLTAGE, Quantity
 from soacheck.results import (
     CheckResult,
     CompareResult,
@@ -226,6 +226,14 @@ def _duty(duty: float | None, pulse_s: float) -> float:
     return float(duty)
 
 
+def _check_all(quantity: Quantity, values: ArrayLike, where: str) -> None:
+    """Every value of a number or an array in the quantity's range, or the command's one-line error."""
+    if np.ndim(values) == 0 and not isinstance(values, np.ndarray):
+        quantity.check(values, where)
+    else:
+        quantity.check_array(np.ravel(np.asarray(values, dtype=float)), lambda k: where)
+
+
 def _breakdown(breakdown: str) -> BreakdownDerating:
     if breakdown not in ("auto", "thermal", "none"):
         raise SoacheckError(f"--breakdown-derating: '{breakdown}' is not one of auto, thermal, none")
@@ -385,9 +393,8 @@ def check(
     chosen = _breakdown(breakdown)
     pulse_s = _pulse_s(pulse)
     duty_value = _duty(duty, pulse_s)
-    if not np.all(np.isfinite(np.asarray(case_temp, dtype=float))):
-        raise SoacheckError("--case-temp must be a finite temperature in °C")
-    loaded = load_part(part, library=library)
+    _check_all(TEMPERATURE, case_temp, "--case-temp")
+    _check_all(IDLE_CURRENT, idle_current, "--idle-current")
     if points is not None:
         if voltage is not None or current is not None:
             raise SoacheckError("give either --points FILE or --voltage and --current, not both")
@@ -400,14 +407,13 @@ def check(
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
-        for name, value in (("--voltage", voltage), ("--current", current)):
-            values = np.asarray(value, dtype=float)
-            bad = values[~(np.isfinite(values) & (values > 0))]
-            if bad.size:
-                raise SoacheckError(f"{name} is {bad.flat[0]:g}; it must be a number above zero")
+        _check_all(VOLTAGE, voltage, "--voltage")
+        _check_all(CURRENT, current, "--current")
         v, i, tc, tp, d = voltage, current, np.asarray(case_temp, dtype=float), pulse_s, duty_value
         idle = idle_current
-    IDLE_CURRENT.check_array(np.ravel(np.asarray(idle, dtype=float)), lambda k: "idle_current")
+    if points is not None and "idle_current" in frame:
+        IDLE_CURRENT.check_array(np.ravel(np.asarray(idle, dtype=float)), lambda k: f"points row {k + 1}: idle_current")
+    loaded = load_part(part, library=library)
     result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
     return CheckResult(loaded, result, chosen)
 
@@ -492,8 +498,9 @@ def trace(
         heatsink on a part without a thermal model.
     """
     chosen = _breakdown(breakdown)
-    if chunk_rows < 2:
-        raise SoacheckError("--chunk-rows must be at least 2")
+    if case_temp is not None:
+        TEMPERATURE.check(case_temp, "--case-temp")
+    CHUNK_ROWS.check(chunk_rows, "--chunk-rows")
     if isinstance(part, Stage):
         loaded = part.part
         if case_temp is None and cooling is None:

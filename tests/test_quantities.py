@@ -151,12 +151,12 @@ def test_a_report_folder_that_is_a_file_stops_the_run(tmp_path):
 
 
 def test_a_bug_exits_3_with_one_line_and_no_traceback(monkeypatch):
-    import soacheck.cli.points as points
+    import soacheck.api as api  # `check` computes there; the command only calls it
 
     def broken(*args, **kwargs):
         raise ZeroDivisionError("float division by zero")
 
-    monkeypatch.setattr(points, "check_points", broken)
+    monkeypatch.setattr(api, "check_points", broken)
     result = runner.invoke(app, ["check", "demo-npn-to3-250w", "--voltage", "10", "--current", "1"])
     assert result.exit_code == 3, result.output
     lines = [line for line in result.stderr.splitlines() if line.strip()]

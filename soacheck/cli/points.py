@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Annotated, Any
+from typing import Annotated
 
 import typer
 from rich.console import Console
@@ -21,31 +21,16 @@ from soacheck.cli.base import (
     app,
     breakdown_option,
     console_for_output,
-    duty_option,
     echo_json,
     number_list,
     output_path,
     part_option,
     user_errors,
 )
-from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.jobfiles import read_points
-from soacheck.library import library_folders, list_parts
-from soacheck.partfiles import read_part
-from soacheck.points import PointCheck, check_points
-from soacheck.quantities import CURRENT, IDLE_CURRENT, TEMPERATURE, VOLTAGE
+from soacheck.points import PointCheck
+from soacheck.quantities import TEMPERATURE
 from soacheck.units import parse_duration
-
-
-def check_payload(result: PointCheck) -> dict[str, Any]:
-    frame = result.to_frame()
-    return {
-        "part": result.part_id,
-        "verdict": result.verdict,
-        "points": frame.to_dict(orient="records"),
-        "assumptions": list(result.assumptions),
-    }
 
 
 def _print_check(console: Console, result: PointCheck) -> None:
@@ -116,37 +101,27 @@ def check(
     as_json: JsonOpt = False,
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
-    breakdown = breakdown_option(breakdown_derating)
-    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    pulse_s = parse_duration(pulse, where="--pulse")
-    duty_value = duty_option(duty, pulse_s)
-    TEMPERATURE.check(case_temp, "--case-temp")
-    IDLE_CURRENT.check(idle_current, "--idle-current")
-    if points is not None:
-        if voltage is not None or current is not None:
-            raise SoacheckError("give either --points FILE or --voltage and --current, not both")
-        frame = read_points(points).frame
-        v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
-        tc = frame["case_temp"].to_numpy() if "case_temp" in frame else case_temp
-        tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
-        d = frame["duty"].to_numpy() if "duty" in frame else duty_value
-        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else idle_current
-    else:
-        if voltage is None or current is None:
-            raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
-        VOLTAGE.check(voltage, "--voltage")
-        CURRENT.check(current, "--current")
-        v, i, tc, tp, d, idle = voltage, current, case_temp, pulse_s, duty_value, idle_current
-    loaded = part_option(part, library)
-    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=breakdown)
-    if plot is not None:
-        from soacheck.plots import plot_point_check  # matplotlib: only when plotting
+    from soacheck import api
 
-        save_figure(plot_point_check(loaded, result, breakdown=breakdown).figure, plot)
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
+    result = api.check(
+        part,
+        voltage,
+        current,
+        points=points,
+        case_temp=case_temp,
+        pulse=pulse,
+        duty=duty,
+        idle_current=idle_current,
+        breakdown=breakdown_option(breakdown_derating),
+        library=library,
+    )
+    if plot is not None:
+        save_figure(result.plot().figure, plot)
     if as_json:
-        echo_json(check_payload(result))
+        echo_json(result.to_dict())
     else:
-        _print_check(console_for_output(), result)
+        _print_check(console_for_output(), result.points)
     raise typer.Exit(0 if result.passed else 1)
 
 
@@ -154,23 +129,9 @@ def check(
 @user_errors
 def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     """List the parts in the libraries, first match of each id."""
-    folders = library_folders(library or [])
-    loaded = [read_part(entry.folder) for entry in list_parts(folders)]
-    rows = [
-        {
-            "id": p.id,
-            "kind": p.kind,
-            "v_max": p.ratings.v_max_v,
-            "i_max": p.ratings.i_max_a,
-            "p_max": p.ratings.p_max_w,
-            "tj_max": p.ratings.tj_max_c,
-            "rth_jc": p.ratings.rth_jc_k_per_w,
-            "curves": [c.label for c in p.curves],
-            "description": p.description,
-            "folder": str(p.folder),
-        }
-        for p in loaded
-    ]
+    from soacheck import api
+
+    rows = api.parts(library=library).to_dict(orient="records")
     if as_json:
         echo_json({"parts": rows})
         return
@@ -217,15 +178,9 @@ def show(
     output_path(output, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     checked = None
     if points is not None:
-        frame = read_points(points).frame
-        checked = check_points(
-            frame["voltage"].to_numpy(),
-            frame["current"].to_numpy(),
-            loaded,
-            tc_c=frame["case_temp"].to_numpy() if "case_temp" in frame else 25.0,
-            pulse_s=frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s,
-            breakdown=breakdown,
-        )
+        from soacheck import api
+
+        checked = api.check(loaded, points=points, pulse=pulse, breakdown=breakdown).points
     from soacheck.plots import plot_soa  # matplotlib: only when plotting
 
     ax = plot_soa(

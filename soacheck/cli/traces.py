@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import contextlib
 from pathlib import Path
 from typing import Annotated
 
@@ -22,16 +21,14 @@ from soacheck.cli.base import (
     console_for_output,
     echo_json,
     output_path,
-    part_option,
     progress_bar,
     user_errors,
 )
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.files import iter_trace
-from soacheck.quantities import CHUNK_ROWS, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
+from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
 from soacheck.stage import Cooling
-from soacheck.trace import TraceChecker, TraceResult
+from soacheck.trace import TraceResult
 
 
 @app.command()
@@ -64,11 +61,8 @@ def trace(
     as_json: JsonOpt = False,
 ) -> None:
     """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj."""
-    if case_temp is not None:
-        TEMPERATURE.check(case_temp, "--case-temp")
-    CHUNK_ROWS.check(chunk_rows, "--chunk-rows")
-    loaded = part_option(part, library)
-    breakdown = breakdown_option(breakdown_derating)
+    from soacheck import api
+
     cooling = None
     if heatsink_rth is not None or heatsink_capacity is not None:
         if heatsink_rth is None or heatsink_capacity is None:
@@ -82,31 +76,23 @@ def trace(
             TEMPERATURE.check(ambient, "--ambient"),
         )
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    checker = TraceChecker(
-        loaded,
-        tc_c=None if cooling else (25.0 if case_temp is None else case_temp),
-        cooling=cooling,
-        breakdown=breakdown,
-    )
-    with (
-        progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress,
-        contextlib.closing(iter_trace(file, chunk_rows=chunk_rows)) as chunks,
-    ):
-        for t, v, i, first_row in chunks:
-            try:
-                checker.feed(t, v, i)
-            except SoacheckError as err:
-                raise SoacheckError(f"{file} near data row {first_row + 1}: {err}") from None
-            progress(first_row + t.size)
-    result = checker.result()
+    with progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress:
+        result = api.trace(
+            part,
+            file,
+            case_temp=case_temp,
+            cooling=cooling,
+            breakdown=breakdown_option(breakdown_derating),
+            chunk_rows=chunk_rows,
+            library=library,
+            progress=progress,
+        )
     if plot is not None:
-        from soacheck.plots import plot_trace  # matplotlib: only when plotting
-
-        save_figure(plot_trace(loaded, result, breakdown=breakdown), plot)
+        save_figure(result.plot().figure, plot)
     if as_json:
-        echo_json(result.summary())
+        echo_json(result.to_dict())
     else:
-        _print_trace(console_for_output(), result, plot)
+        _print_trace(console_for_output(), result.trace, plot)
     raise typer.Exit(0 if result.passed else 1)
 
 
