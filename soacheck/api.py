@@ -403,16 +403,16 @@ def check(
         tc = frame["case_temp"].to_numpy() if "case_temp" in frame else np.asarray(case_temp, dtype=float)
         tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
         d = frame["duty"].to_numpy() if "duty" in frame else duty_value
-        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else idle_current
+        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else np.asarray(idle_current, dtype=float)
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
         _check_all(VOLTAGE, voltage, "--voltage")
         _check_all(CURRENT, current, "--current")
         v, i, tc, tp, d = voltage, current, np.asarray(case_temp, dtype=float), pulse_s, duty_value
-        idle = idle_current
+        idle = np.asarray(idle_current, dtype=float)
     if points is not None and "idle_current" in frame:
-        IDLE_CURRENT.check_array(np.ravel(np.asarray(idle, dtype=float)), lambda k: f"points row {k + 1}: idle_current")
+        IDLE_CURRENT.check_array(np.ravel(idle), lambda k: f"points row {k + 1}: idle_current")
     loaded = load_part(part, library=library)
     result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
     return CheckResult(loaded, result, chosen)
