@@ -31,7 +31,7 @@ from soacheck.compare import TrajectoryJob
 from soacheck.compare import compare as compare_parts
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, largest_safe_envelope
-from soacheck.errors import SoacheckError
+from soacheck.errors import SoacheckError, choose
 from soacheck.files import iter_trace, iter_trace_frame, read_toml, read_trace
 from soacheck.jobfiles import battery_from, discharge_from_table, read_envelope, read_points
 from soacheck.library import find_part, library_folders, list_parts, read_stage
@@ -40,7 +40,24 @@ from soacheck.partfiles import read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
-from soacheck.quantities import CHUNK_ROWS, CURRENT, DUTY, IDLE_CURRENT, TEMPERATURE, VOLTAGE, Quantity
+from soacheck.quantities import (
+    CAPACITY,
+    CELL_COUNT,
+    CHUNK_ROWS,
+    CURRENT,
+    DRAWS,
+    DUTY,
+    IDLE_CURRENT,
+    PERCENTILE,
+    POWER,
+    RESISTANCE,
+    SAMPLES,
+    SEED,
+    SETPOINT,
+    TEMPERATURE,
+    VOLTAGE,
+    Quantity,
+)
 from soacheck.results import (
     CheckResult,
     CompareResult,
@@ -235,9 +252,7 @@ def _check_all(quantity: Quantity, values: ArrayLike, where: str) -> None:
 
 
 def _breakdown(breakdown: str) -> BreakdownDerating:
-    if breakdown not in ("auto", "thermal", "none"):
-        raise SoacheckError(f"--breakdown-derating: '{breakdown}' is not one of auto, thermal, none")
-    return breakdown  # type: ignore[return-value]
+    return choose(breakdown, ("auto", "thermal", "none"), "--breakdown-derating")  # type: ignore[return-value]
 
 
 def default_voltages(v_max_v: float) -> np.ndarray:
@@ -584,12 +599,16 @@ def discharge(
         cut-off at or above the full voltage, fewer than 10 samples.
     """
     chosen = _breakdown(breakdown)
+    mode = choose(mode, MODES, "--mode")  # type: ignore[assignment]
+    CELL_COUNT.check(cells, "--cells")
+    CAPACITY.check(capacity, "--capacity")
+    RESISTANCE.check(internal_resistance, "--internal-resistance")
+    SETPOINT[mode].check(setpoint, "--setpoint")
+    if cutoff is not None:
+        VOLTAGE.check(cutoff, "--cutoff")
+    SAMPLES.check(samples, "--samples")
     loaded = load_stage(stage, library=library)
     pack = battery_from(str(battery), cells, capacity, internal_resistance)
-    if mode not in MODES:
-        raise SoacheckError(f"--mode: '{mode}' is not one of cc, cp, cr")
-    if samples < 10:
-        raise SoacheckError("--samples must be at least 10")
 
     def run_at(value: float) -> StageRun:
         path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
@@ -642,12 +661,17 @@ def sweep(
         Per device and sample: currents, voltages, temperatures, margins, limits.
     """
     chosen = _breakdown(breakdown)
+    ramp = choose(ramp, ("current", "voltage", "power"), "--ramp")  # type: ignore[assignment]
+    ramped = CURRENT if ramp == "current" else VOLTAGE
+    ramped.check(stop, "--to")
+    if not (ramp == "current" and start == 0):
+        ramped.check(start, "--from")
+    {"current": VOLTAGE, "voltage": CURRENT, "power": POWER}[ramp].check(at, "--at")
     loaded = load_stage(stage, library=library)
     seconds = _pulse_s(time, where="--time")
     if math.isinf(seconds):
         raise SoacheckError("--time must be a duration such as 10s, not dc")
-    if samples < 10:
-        raise SoacheckError("--samples must be at least 10")
+    SAMPLES.check(samples, "--samples")
     path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
     run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=chosen)
     return StageRunResult(run, path.label, {}, chosen)
@@ -688,9 +712,12 @@ def sharing(
     SharingResult
         ``verdict`` ``fail`` when any draw runs away thermally.
     """
+    CURRENT.check(current, "--current")
+    VOLTAGE.check(voltage, "--voltage")
+    DRAWS.check(draws, "--draws")
+    PERCENTILE.check(percentile, "--percentile")
+    SEED.check(seed, "--seed")
     loaded = load_stage(stage, library=library)
-    if not (current > 0 and voltage > 0 and draws >= 1 and 0 < percentile <= 100):
-        raise SoacheckError("--current and --voltage must be above zero, --draws at least 1, --percentile in (0, 100]")
     spread = sharing_monte_carlo(
         loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress
     )

@@ -24,7 +24,7 @@ from typer.core import TyperGroup
 
 from soacheck import __version__
 from soacheck.derating import BreakdownDerating
-from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.errors import SoacheckError, choose
 from soacheck.files import check_output
 from soacheck.library import find_part, library_folders, read_stage
 from soacheck.parts import Part
@@ -191,11 +191,8 @@ def progress_bar(description: str, *, total: float | None = None, quiet: bool = 
 
 
 def choice_option(text: str, choices: Sequence[str], option: str) -> str:
-    """The choice named by ``text``, in any letter case (``CC`` is ``cc``); one clear error otherwise."""
-    value = text.strip().lower()
-    if value not in choices:
-        raise SoacheckError(f"{option}: '{text}' is not one of {', '.join(choices)}{did_you_mean(value, choices)}")
-    return value
+    """The choice named by ``text``, in any letter case (``CC`` is ``cc``); see :func:`soacheck.errors.choose`."""
+    return choose(text, choices, option)
 
 
 def breakdown_option(text: str) -> BreakdownDerating:

@@ -2,19 +2,15 @@
 
 from __future__ import annotations
 
-import math
-from dataclasses import replace
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.markup import escape
 from rich.table import Table as RichTable
 
-from soacheck.battery import MODES
-from soacheck.battery import discharge as battery_discharge
-from soacheck.battery import sweep as battery_sweep
 from soacheck.cli.base import (
+    PLOT_SUFFIXES,
     BreakdownOpt,
     ForceOpt,
     JsonOpt,
@@ -22,41 +18,22 @@ from soacheck.cli.base import (
     PlotOpt,
     app,
     breakdown_option,
-    check_outputs,
-    choice_option,
     console_for_output,
     echo_json,
+    output_path,
     progress_bar,
-    stage_option,
     user_errors,
 )
-from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.jobfiles import battery_from
-from soacheck.quantities import (
-    CAPACITY,
-    CELL_COUNT,
-    CURRENT,
-    DRAWS,
-    PERCENTILE,
-    POWER,
-    RESISTANCE,
-    SEED,
-    SETPOINT,
-    VOLTAGE,
-)
-from soacheck.search import max_safe_setpoint
-from soacheck.sharing import sharing_monte_carlo
-from soacheck.stage_run import StageRun, passes_at, run_stage
-from soacheck.units import parse_duration
+
+if TYPE_CHECKING:
+    from soacheck.results import StageRunResult
 
 
-def _report_run(run: StageRun, label: str, *, as_json: bool, plot: Path | None, extra: dict[str, Any]) -> None:
-    payload = {"test": label, **run.summary(), **extra, "assumptions": list(run.assumptions)}
+def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> None:
+    run, label, payload = result.run, result.test, result.to_dict()
     if plot is not None:
-        from soacheck.plots import plot_stage_run  # matplotlib: only when plotting
-
-        save_figure(plot_stage_run(run, title=label), plot)
+        save_figure(result.plot().figure, plot)
     if as_json:
         echo_json(payload)
     else:
@@ -102,29 +79,24 @@ def discharge(
     as_json: JsonOpt = False,
 ) -> None:
     """Discharge a battery through the stage and check every device all the way down."""
-    breakdown = breakdown_option(breakdown_derating)
-    mode = choice_option(mode, MODES, "--mode")
-    CELL_COUNT.check(cells, "--cells")
-    CAPACITY.check(capacity, "--capacity")
-    RESISTANCE.check(internal_resistance, "--internal-resistance")
-    SETPOINT[mode].check(setpoint, "--setpoint")
-    if cutoff is not None:
-        VOLTAGE.check(cutoff, "--cutoff")
-    loaded = stage_option(stage, library)
-    pack = battery_from(battery, cells, capacity, internal_resistance)
-    check_outputs(samples, plot, force)
+    from soacheck import api
 
-    def run_at(value: float) -> StageRun:
-        path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
-        run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
-        return replace(run, assumptions=run.assumptions + path.notes)
-
-    run = run_at(setpoint)
-    label = battery_discharge(pack, mode, setpoint, cutoff_v=cutoff, samples=10).label
-    extra: dict[str, Any] = {}
-    if find_max:
-        extra["max_safe_setpoint"] = max_safe_setpoint(passes_at(run_at), setpoint, mode)
-    _report_run(run, label, as_json=as_json, plot=plot, extra=extra)
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
+    result = api.discharge(
+        stage,
+        battery=battery,
+        cells=cells,
+        capacity=capacity,
+        mode=mode,  # type: ignore[arg-type]
+        setpoint=setpoint,
+        cutoff=cutoff,
+        internal_resistance=internal_resistance,
+        samples=samples,
+        find_max=find_max,
+        breakdown=breakdown_option(breakdown_derating),
+        library=library,
+    )
+    _report_run(result, as_json=as_json, plot=plot)
 
 
 @app.command()
@@ -150,21 +122,21 @@ def sweep(
     as_json: JsonOpt = False,
 ) -> None:
     """Run a V–I sweep through the stage and check every device along it."""
-    breakdown = breakdown_option(breakdown_derating)
-    ramp = choice_option(ramp, ("current", "voltage", "power"), "--ramp")
-    ramped = CURRENT if ramp == "current" else VOLTAGE
-    ramped.check(stop, "--to")
-    if not (ramp == "current" and start == 0):
-        ramped.check(start, "--from")
-    {"current": VOLTAGE, "voltage": CURRENT, "power": POWER}[ramp].check(at, "--at")
-    loaded = stage_option(stage, library)
-    seconds = parse_duration(ramp_time, where="--time")
-    if math.isinf(seconds):
-        raise SoacheckError("--time must be a duration such as 10s, not dc")
-    check_outputs(samples, plot, force)
-    path = battery_sweep(ramp, start, stop, at=at, ramp_s=seconds, samples=samples)
-    run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
-    _report_run(run, path.label, as_json=as_json, plot=plot, extra={})
+    from soacheck import api
+
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
+    result = api.sweep(
+        stage,
+        ramp=ramp,  # type: ignore[arg-type]
+        start=start,
+        stop=stop,
+        at=at,
+        time=ramp_time,
+        samples=samples,
+        breakdown=breakdown_option(breakdown_derating),
+        library=library,
+    )
+    _report_run(result, as_json=as_json, plot=plot)
 
 
 @app.command()
@@ -180,28 +152,20 @@ def sharing(
     as_json: JsonOpt = False,
 ) -> None:
     """How unevenly the devices share: the worst device's share over random V_BE spreads."""
-    CURRENT.check(current, "--current")
-    VOLTAGE.check(voltage, "--voltage")
-    DRAWS.check(draws, "--draws")
-    PERCENTILE.check(percentile, "--percentile")
-    SEED.check(seed, "--seed")
-    loaded = stage_option(stage, library)
+    from soacheck import api
+
     with progress_bar("Monte Carlo draws", total=draws, quiet=as_json) as progress:
-        spread = sharing_monte_carlo(
-            loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress
+        result = api.sharing(
+            stage,
+            current=current,
+            voltage=voltage,
+            draws=draws,
+            percentile=percentile,
+            seed=seed,
+            library=library,
+            progress=progress,
         )
-    payload = {
-        "stage": str(stage),
-        "count": loaded.count,
-        "equal_share": spread.equal_share,
-        "worst_share": spread.worst_share,
-        "percentile": spread.percentile,
-        "mean_worst_share": spread.mean_share,
-        "worst_device_current": spread.worst_share * current,
-        "runaway_fraction": spread.runaway_fraction,
-        "draws": spread.draws,
-        "seed": seed,
-    }
+    loaded, spread, payload = result.stage, result.spread, result.to_dict()
     if as_json:
         echo_json(payload)
     else:
