@@ -23,6 +23,7 @@ from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
+from soacheck.points import overload_of
 from soacheck.search import MAX_COUNT, fewest, highest, highest_linear
 from soacheck.stage import Stage
 from soacheck.stage_run import run_stage
@@ -49,8 +50,9 @@ class Candidate:
     def as_dict(self) -> dict[str, object]:
         return {
             "part": self.part,
-            "passes": self.passes,
+            "verdict": "pass" if self.passes else "fail",
             "margin": self.margin,
+            "overload": overload_of(self.margin),
             "limit": self.limit,
             "min_count": self.min_count,
             "max_heatsink_rth": self.max_heatsink_rth,

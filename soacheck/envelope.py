@@ -21,6 +21,7 @@ import numpy as np
 
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
+from soacheck.points import overload_of
 from soacheck.stage import Stage
 from soacheck.stage_run import check_devices
 from soacheck.steady_state import SteadyState, steady_state
@@ -147,6 +148,7 @@ class EnvelopeCheck:
             "count": self.stage.count,
             "verdict": "pass" if self.passed else "fail",
             "margin": self.min_margin if np.isfinite(self.min_margin) else None,
+            "overload": overload_of(float(self.min_margin)) if np.isfinite(self.min_margin) else None,
             "limit": str(self.limit[d, k]),
             "worst_voltage": float(self.source_v[k]),
             "worst_current": float(self.total_a[k]),

@@ -69,7 +69,9 @@ VERDICTS: dict[str, str] = {
 
 
 def _t(name: str, unit: str, text: str, heading: str | None = None) -> Term:
-    words = (heading or name.replace("_", " ")) + (f" ({unit})" if unit not in ("", "1") else "")
+    words = heading or name.replace("_", " ")
+    if unit not in ("", "1") and not words.endswith(f"({unit})"):
+        words += f" ({unit})"
     return Term(name, unit, text, words)
 
 
@@ -81,7 +83,8 @@ _TERMS = [
         "1",
         "1 − I/I_allowed: the fraction of the allowed current still unused; negative outside. Per point at that "
         "point; for a whole result the least over everything checked. A fraction in JSON, a percentage in tables "
-        "and plots.",
+        "and plots; null where nothing is allowed (the limit says why).",
+        "margin (%)",
     ),
     _t(
         "overload",
@@ -93,20 +96,22 @@ _TERMS = [
     _t("limit", "", "what bounds the allowed current at that point, or why it fails (see the limits)"),
     _t("assumptions", "", "every choice made where the data did not decide, conservative unless it says otherwise"),
     # an operating point
-    _t("voltage", "V", "voltage across the device (V_CE or V_DS); for a stage, the source voltage"),
+    _t("voltage", "V", "voltage across the device (V_CE or V_DS); for a stage or a limit table, the source voltage"),
     _t("current", "A", "current through the device (I_C or I_D); for a stage, the total current"),
-    _t("case_temp", "°C", "case temperature the point is checked at", "case temp"),
+    _t("case_temp", "°C", "case temperature the point is checked at; in a stage file, a fixed case temperature"),
     _t("pulse", "", "dc, or the width of a pulse such as 1ms"),
     _t("duty", "1", "duty cycle tp/T of a pulse train in (0, 1]; null for DC and for a single pulse"),
-    _t("inside", "", "true when the point is inside the derated SOA"),
+    _t("inside", "", "true when the point is inside the derated SOA", "inside"),
     _t("allowed_current", "A", "the most current the derated SOA allows at the point's voltage", "allowed"),
     _t("curve", "", "the digitized curve the point was checked against (dc or a pulse width)"),
     _t("extrapolated", "", "true when the point lies beyond the digitized voltage range (conservative)"),
     # results over time
-    _t("duration", "s", "length of the test or trace"),
+    _t("test", "", "the planned test in words (mode, setpoint, battery or ramp)"),
+    _t("duration", "s", "length of the test or trace (tables: s, min or h as fits)"),
     _t("samples", "", "number of samples checked"),
     _t("first_violation_time", "s", "time of the first sample outside, null when none is", "first violation"),
     _t("margin_time", "s", "time at which the least margin occurs", "margin at"),
+    _t("device", "", "the device with the least margin, numbered from 1 (Q1, Q2 ...)"),
     _t("tj_peak", "°C", "highest junction temperature"),
     _t("tj_peak_time", "s", "time of the highest junction temperature", "tj peak at"),
     _t("case_peak", "°C", "highest case temperature"),
@@ -114,34 +119,81 @@ _TERMS = [
     _t("time_outside", "s", "total time spent outside"),
     _t("time_over_tj_max", "s", "total time the junction spent above tj_max"),
     _t("excursions", "", "runs of samples above the DC boundary, each judged as a pulse"),
-    _t("worst_device", "", "the device (Q1, Q2 ...) with the least margin"),
     _t("loop_gain_peak", "1", "highest electro-thermal loop gain; 1 or more is runaway"),
     _t("device_power_peak", "W", "highest power in one device"),
-    _t(
-        "sense_resistor_power_peak",
-        "W",
-        "highest power in the shared sense and wiring resistance",
-        "sense R power peak",
-    ),
+    _t("sense_resistor_power_peak", "W", "highest power in the shared sense and wiring resistance", "sense R peak"),
     _t("energy", "Wh", "energy taken from the source over the test"),
-    _t("max_safe_setpoint", "", "the most demanding setpoint that still passes (A, W or Ω, as the mode)"),
-    # stages, envelopes, comparisons
+    _t("max_safe_setpoint", "", "the most demanding setpoint that still passes (A, W or Ω, as the test's mode)"),
+    # stages and their files, as the user writes them
+    _t("stage", "", "the stage: the pass devices, their resistors and cooling (or the stage file's path)"),
     _t("count", "", "devices in parallel"),
+    _t("ballast", "Ω", "emitter (source) resistor of each device"),
+    _t("series_resistance", "Ω", "shared current-sense and wiring resistance"),
+    _t("vbe_spread", "V", "spread of V_BE (V_GS) between devices at equal current and temperature"),
+    _t("vbe_tempco", "V/K", "temperature coefficient of V_BE (V_GS) at constant current", "vbe tempco"),
+    _t("cooling", "", "the heatsink the devices share (a [cooling] table in the stage file)"),
+    _t("interface_rth", "K/W", "case to heatsink, each device", "interface Rth"),
+    _t("heatsink_rth", "K/W", "heatsink to ambient", "heatsink Rth"),
+    _t("heatsink_capacity", "J/K", "heat capacity of the heatsink"),
+    _t("ambient", "°C", "ambient temperature around the heatsink"),
+    # envelopes and limit tables
+    _t("envelope", "", "the envelope checked, in words: voltage range, current, power, timing"),
     _t("worst_voltage", "V", "source voltage where the least margin occurs"),
     _t("worst_current", "A", "total current where the least margin occurs"),
+    _t("heatsink_temp", "°C", "the heatsink's steady temperature at the envelope's worst power"),
+    _t("outside", "", "the stretches of source voltage that lie outside, each with its limit"),
+    _t("from_voltage", "V", "start of a stretch outside", "from"),
+    _t("to_voltage", "V", "end of a stretch outside", "to"),
     _t("max_current", "A", "the largest safe total current at that source voltage, rounded down", "max current"),
+    _t("current_resolution", "A", "the exported currents are multiples of this, rounded down"),
+    # comparisons
+    _t("job", "", "what the candidates are compared on, in words"),
+    _t("candidates", "", "each candidate part's answer, passing first, then by margin"),
     _t("min_count", "", "the fewest devices in parallel that pass", "fewest devices"),
     _t("max_heatsink_rth", "K/W", "the highest heatsink resistance at which the candidate still passes"),
     _t("max_case_temp", "°C", "the highest case temperature at which the candidate alone still passes"),
+    _t("best", "", "the best candidate"),
+    _t("passing", "", "how many candidates pass"),
+    # sharing
     _t("equal_share", "1", "each device's share of the current if all shared evenly"),
     _t("worst_share", "1", "the worst device's share of the current at the chosen percentile"),
+    _t("mean_worst_share", "1", "the worst device's share, averaged over the draws"),
+    _t("worst_device_current", "A", "the worst device's current at the chosen percentile"),
+    _t("percentile", "%", "percentile of the worst share reported"),
     _t("runaway_fraction", "1", "fraction of random draws that run away thermally"),
-    # the part
+    _t("draws", "", "Monte Carlo draws of the V_BE offsets"),
+    _t("seed", "", "random seed, for a repeatable answer"),
+    # parts
+    _t("parts", "", "the parts of the libraries"),
+    _t("part", "", "a part id, or the path of a part folder"),
+    _t("id", "", "a part id"),
+    _t("kind", "", "npn, pnp, nmos, pmos or igbt; for a plan's job, its kind"),
+    _t("description", "", "the part's description in words"),
+    _t("folder", "", "the part's folder"),
+    _t("curves", "", "the digitized curves: dc and pulse widths"),
     _t("v_max", "V", "rated voltage (V_CEO or V_DSS)"),
     _t("i_max", "A", "rated continuous current"),
     _t("p_max", "W", "rated power at 25 °C case"),
     _t("tj_max", "°C", "rated junction temperature"),
     _t("rth_jc", "K/W", "junction-to-case thermal resistance", "Rth jc"),
+    _t("findings", "", "what lint found in a part folder"),
+    _t("severity", "", "error (the part cannot be trusted) or warning"),
+    _t("file", "", "the file a finding is in"),
+    _t("row", "", "the data row of the file a finding is on, from 1"),
+    _t("message", "", "the finding and its fix, in words"),
+    # plans and reports
+    _t("title", "", "the plan's title"),
+    _t("plan", "", "the plan file"),
+    _t("soacheck", "", "the version of soacheck that wrote the report"),
+    _t("jobs", "", "each job's answer, failures first"),
+    _t("name", "", "the job's name, as the plan gives it"),
+    _t("summary", "", "a job's figures: the same names as its command's JSON"),
+    _t("rows", "", "a job's table: points, stretches outside or candidates"),
+    _t("points", "", "one entry per point checked"),
+    _t("points_checked", "", "how many points a job checked"),
+    _t("points_outside", "", "how many of them lie outside"),
+    _t("plots", "", "the job's plot files, relative to the report"),
+    _t("cautions", "", "the safety cautions every report carries"),
 ]
 
 TERMS: dict[str, Term] = {term.name: term for term in _TERMS}
@@ -157,6 +209,14 @@ def heading(name: str) -> str:
     """Table heading of ``name``: words and the unit, such as ``tj peak (°C)``; the name itself if unknown."""
     found = TERMS.get(name)
     return found.heading if found else name.replace("_", " ")
+
+
+def words(name: str) -> str:
+    """``name`` in words without its unit, for a row whose value carries the unit: ``tj peak``."""
+    found = TERMS.get(name)
+    if found is None:
+        return name.replace("_", " ")
+    return found.heading.removesuffix(f" ({found.unit})").removesuffix(" (%)")
 
 
 def unit(name: str) -> str:

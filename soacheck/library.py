@@ -99,6 +99,32 @@ _STAGE_KEYS = ("part", "count", "ballast", "series_resistance", "vbe_spread", "v
 _COOLING_KEYS = ("interface_rth", "heatsink_rth", "heatsink_capacity", "ambient")
 
 
+def stage_table(stage: Stage) -> dict[str, Any]:
+    """A stage as the keys of its file (``ballast``, ``[cooling] heatsink_rth`` ...): the inverse of reading it.
+
+    Keys the file left out appear with the values they took by default, so a report shows
+    everything the answer used, under the names the user writes.
+    """
+    table: dict[str, Any] = {
+        "part": stage.part.id,
+        "count": stage.count,
+        "ballast": stage.ballast_ohm,
+        "series_resistance": stage.series_ohm,
+        "vbe_spread": stage.vbe_spread_v,
+        "vbe_tempco": stage.vbe_tempco_v_per_k,
+    }
+    if stage.cooling is not None:
+        table["cooling"] = {
+            "interface_rth": stage.cooling.case_sink_k_per_w,
+            "heatsink_rth": stage.cooling.sink_ambient_k_per_w,
+            "heatsink_capacity": stage.cooling.sink_j_per_k,
+            "ambient": stage.cooling.ambient_c,
+        }
+    else:
+        table["case_temp"] = stage.case_temp_c
+    return table
+
+
 def read_stage(path: str | Path, folders) -> Stage:
     """Read a stage file (TOML); the part is an id in the libraries or a folder path relative to the file.
 

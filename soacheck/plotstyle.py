@@ -19,6 +19,8 @@ import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
+from soacheck.display import time_unit
+
 OKABE_ITO = {
     "black": "#000000",
     "orange": "#E69F00",
@@ -80,19 +82,6 @@ VOLTAGE_LABEL = r"voltage $V_{CE}$ / $V_{DS}$ (V)"
 CURRENT_LABEL = r"current $I_C$ / $I_D$ (A)"
 MARGIN_LABEL = r"margin $1 - I/I_{allowed}$ (%)"
 TJ_MAX_LABEL = r"$T_{j,max}$"
-
-_TIME_UNITS = ((7200.0, 3600.0, "h"), (300.0, 60.0, "min"), (1.0, 1.0, "s"), (0.0, 1e-3, "ms"))
-
-
-def time_unit(duration_s: float) -> tuple[float, str]:
-    """The unit a person reads a run of this length in, and its size in seconds.
-
-    From 2 h: hours; from 5 min: minutes; from 1 s: seconds; shorter: milliseconds.
-    """
-    for threshold_s, size_s, name in _TIME_UNITS:
-        if duration_s >= threshold_s:
-            return size_s, name
-    return 1e-3, "ms"
 
 
 def time_axis(ax: Axes, t_s: np.ndarray) -> tuple[np.ndarray, float]:

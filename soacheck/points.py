@@ -79,6 +79,7 @@ class PointCheck:
                 "inside": self.inside,
                 "allowed_current": self.allowed_current_a,
                 "margin": self.margin,
+                "overload": overload(self.margin),
                 "limit": self.limit,
                 "curve": [format_duration(t) if np.isfinite(t) or np.isinf(t) else "" for t in self.curve_pulse_s],
                 "extrapolated": self.extrapolated,
@@ -97,6 +98,26 @@ def margin(current_a: np.ndarray, allowed_a: np.ndarray, evaluated: np.ndarray) 
     """
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(evaluated & (allowed_a > 0), 1.0 - current_a / allowed_a, np.nan)
+
+
+def overload(margin_: np.ndarray | float) -> np.ndarray:
+    """Overload I/I_allowed = 1 − margin where a point is outside; NaN where it is inside. [1]
+
+    Beside a negative margin it says how far outside a point is (14.1: fourteen times the
+    allowed current). NaN also where the margin is NaN or −inf (nothing allowed, or not
+    evaluated): the ``limit`` says why.
+    """
+    m = np.asarray(margin_, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(m) & (m < 0), 1.0 - m, np.nan)
+
+
+def overload_of(margin_: float | None) -> float | None:
+    """:func:`overload` of one result's least margin, None where the margin is None or not negative."""
+    if margin_ is None:
+        return None
+    value = float(overload(margin_))
+    return value if np.isfinite(value) else None
 
 
 def check_points(

@@ -766,7 +766,10 @@ class PlanResult(Result):
         from soacheck.report import REPORT_MARKER, report_files
 
         refuse_report_folder(out, force)
-        write_folder(out, report_files(self.plan, list(self.jobs)), force=True, marker=REPORT_MARKER)
+        plan_file = Path(self.plan.path)
+        plan_text = plan_file.read_text(encoding="utf-8") if plan_file.is_file() else None
+        files = report_files(self.plan, list(self.jobs), plan_text=plan_text)
+        write_folder(out, files, force=True, marker=REPORT_MARKER)
         return out
 
     def plot(self, ax: Axes | None = None) -> Axes:

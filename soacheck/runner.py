@@ -17,8 +17,8 @@ from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
-from soacheck.plots import plot_compare, plot_envelope_check, plot_soa, plot_stage_run, plot_trace
-from soacheck.points import check_points
+from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, plot_stage_run, plot_trace
+from soacheck.points import check_points, overload_of
 from soacheck.search import max_safe_setpoint
 from soacheck.stage_run import passes_at, run_stage
 from soacheck.trace import TraceChecker
@@ -88,15 +88,15 @@ def run_job(plan: Plan, job: Job) -> JobResult:
         k = int(np.argmin(margin))
         summary = {
             "part": part.id,
-            "points": int(result.voltage_v.size),
-            "outside": int((~result.inside).sum()),
+            "points_checked": int(result.voltage_v.size),
+            "points_outside": int((~result.inside).sum()),
             "margin": float(margin[k]) if np.isfinite(margin[k]) else None,
+            "overload": overload_of(float(margin[k])) if np.isfinite(margin[k]) else None,
             "limit": str(result.limit[k]),
             "worst_voltage": float(result.voltage_v[k]),
             "worst_current": float(result.current_a[k]),
         }
-        temps = sorted({25.0, float(np.max(result.tc_c))})
-        figure = plot_soa(part, case_temps_c=temps, points=result).figure
+        figure = plot_point_check(part, result).figure
         return JobResult(
             job.name,
             job.kind,
@@ -146,6 +146,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             "passing": sum(c.passes for c in ranked),
             "best": best.part,
             "margin": best.margin,
+            "overload": overload_of(best.margin),
             "limit": best.limit,
         }
         figures = {}

@@ -18,6 +18,7 @@ from soacheck.boundary import allowed_current
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
+from soacheck.points import overload_of
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
@@ -83,6 +84,7 @@ class StageRun:
             "first_violation_time": first,
             "limit": limit,
             "margin": float(worst) if np.isfinite(worst) else None,
+            "overload": overload_of(float(worst)) if np.isfinite(worst) else None,
             "margin_time": float(self.time_s[k]),
             "device": int(d) + 1,
             "tj_peak": float(self.junction_c.max()),
@@ -91,7 +93,7 @@ class StageRun:
             "loop_gain_peak": float(np.max(self.gain)),
             "device_power_peak": float(self.device_w.max()),
             "sense_resistor_power_peak": float((self.total_a**2).max() * self.stage.series_ohm),
-            "energy_wh": energy_wh,
+            "energy": energy_wh,
             "duration": float(self.time_s[-1] - self.time_s[0]),
         }
 

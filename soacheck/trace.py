@@ -27,6 +27,7 @@ from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
 from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
+from soacheck.points import overload_of
 from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
@@ -68,10 +69,11 @@ class TraceResult:
             "duration": self.duration_s,
             "tj_peak": self.tj_peak_c,
             "tj_peak_time": self.tj_peak_time_s,
-            "tc_peak": self.tc_peak_c,
+            "case_peak": self.tc_peak_c,
             "first_violation_time": self.first_violation_time_s,
             "limit": self.limit,
             "margin": self.margin,
+            "overload": overload_of(self.margin),
             "margin_time": self.margin_time_s,
             "time_outside": self.time_outside_s,
             "time_over_tj_max": self.time_over_tj_max_s,

@@ -253,7 +253,7 @@ def test_a_bad_sample_in_memory_names_its_row(files):
 def test_a_trace_on_a_stage_takes_the_stages_case_temperature(files):
     stage = soacheck.load_stage("stage.toml", library="parts")
     on_stage = soacheck.trace(stage, "trace.csv")
-    assert on_stage.to_dict()["tc_peak"] == 40.0  # the stage file's case_temp
+    assert on_stage.to_dict()["case_peak"] == 40.0  # the stage file's case_temp
 
 
 # --------------------------------------------------------------------------- one shape for every result

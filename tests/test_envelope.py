@@ -237,7 +237,7 @@ def test_compare_cli_json(tmp_path):
     )
     assert result.exit_code in (0, 1), result.output
     rows = json.loads(result.stdout)["candidates"]
-    assert {"part", "passes", "margin", "limit", "min_count", "max_heatsink_rth"} <= set(rows[0])
+    assert {"part", "verdict", "margin", "overload", "limit", "min_count", "max_heatsink_rth"} <= set(rows[0])
     assert (tmp_path / "c.svg").stat().st_size > 10000
 
 
@@ -295,7 +295,7 @@ def test_compare_on_a_discharge_and_on_a_trace(tmp_path):
     rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
     # 1.5 A per device at about 40 V: inside the TO-3 part's 250 W curve, far past the TO-247
     # part's second breakdown (4.167 (40/30)^-2.5 = 2.03 A at 25 °C, derated like thermal)
-    assert rows["demo-npn-to3-250w"]["passes"] and not rows["demo-npn-to247-125w"]["passes"]
+    assert rows["demo-npn-to3-250w"]["verdict"] == "pass" and rows["demo-npn-to247-125w"]["verdict"] == "fail"
     assert rows["demo-npn-to247-125w"]["limit"] == "second_breakdown"
     assert rows["demo-npn-to247-125w"]["min_count"] > 2
     trace = tmp_path / "trace.csv"
@@ -308,4 +308,4 @@ def test_compare_on_a_discharge_and_on_a_trace(tmp_path):
     rows = {r["part"]: r for r in json.loads(result.stdout)["candidates"]}
     # one device, 3 A at 40 V: the TO-247 part allows 2.03 A, so it needs 2 devices sharing evenly
     assert rows["demo-npn-to247-125w"]["min_count"] == 2
-    assert rows["demo-npn-to3-250w"]["passes"] and rows["demo-npn-to3-250w"]["max_case_temp"] > 25
+    assert rows["demo-npn-to3-250w"]["verdict"] == "pass" and rows["demo-npn-to3-250w"]["max_case_temp"] > 25

@@ -10,8 +10,9 @@ import pytest
 from matplotlib.figure import Figure
 
 from soacheck import glossary
+from soacheck.display import time_unit
 from soacheck.filemarks import first_line, save_figure, written_by_soacheck
-from soacheck.plotstyle import MECHANISM_STYLES, OKABE_ITO, series_style, time_unit
+from soacheck.plotstyle import MECHANISM_STYLES, OKABE_ITO, series_style
 
 # --------------------------------------------------------------------------- glossary
 

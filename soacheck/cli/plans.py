@@ -56,7 +56,7 @@ def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, li
             plot_files.setdefault(result.name, []).append(file)
     payload = report_json(plan, results, plot_files)
     files["report.json"] = json.dumps(jsonable(payload), indent=2, ensure_ascii=False) + "\n"
-    files["report.html"] = report_html(plan, results, svgs)
+    files["report.html"] = report_html(plan, results, svgs, plan_text=plan_path.read_text(encoding="utf-8"))
     write_folder(out, files, force=True, marker=REPORT_MARKER)
     if as_json:
         echo_json(payload)

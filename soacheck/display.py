@@ -1,0 +1,89 @@
+"""Numbers as a person reads them: the unit beside every value, margins in percent, times in s, min or h.
+
+Tables in the terminal and the report both format values here, by the name the JSON
+gives them, so that ``tj_peak`` reads ``178.7 °C`` and ``duration`` ``2.50 h`` wherever
+it appears. Units come from :mod:`soacheck.glossary`. Nothing here computes or reads files.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from soacheck.glossary import LIMITS, heading, unit
+
+PERCENT = frozenset({"margin", "equal_share", "worst_share", "mean_worst_share", "runaway_fraction"})
+"""Fractions shown as percentages in tables and plots (JSON keeps the fraction)."""
+
+_TIME_UNITS = ((7200.0, 3600.0, "h"), (300.0, 60.0, "min"), (1.0, 1.0, "s"), (0.0, 1e-3, "ms"))
+
+
+def time_unit(duration_s: float) -> tuple[float, str]:
+    """The unit a person reads a span of this length in, and its size in seconds.
+
+    From 2 h: hours; from 5 min: minutes; from 1 s: seconds; shorter: milliseconds
+    (common practice, no source: a 2.5 h discharge in seconds reads 9000).
+    """
+    for threshold_s, size_s, name in _TIME_UNITS:
+        if duration_s >= threshold_s:
+            return size_s, name
+    return 1e-3, "ms"
+
+
+def format_time(seconds: float, *, span_s: float | None = None) -> str:
+    """A time with the unit that fits ``span_s`` (or the time itself): ``9000`` → ``2.5 h``."""
+    size_s, name = time_unit(abs(seconds) if span_s is None else span_s)
+    return f"{seconds / size_s:.4g} {name}"
+
+
+def device_name(number: int) -> str:
+    """A device numbered from 1 as a person names it: ``Q1``."""
+    return f"Q{number}"
+
+
+def value_text(name: str, value: Any, *, with_unit: bool = True, span_s: float | None = None) -> str:
+    """``value`` of the JSON name ``name`` for a person: unit beside it (unless ``with_unit`` is False).
+
+    None, NaN and infinities read ``—``; a margin reads ``+34.9 %``; an overload ``14.1``;
+    a time in s, min or h as fits (``span_s``: the length of the test, so that all times of
+    one test share a unit; without ``with_unit`` a time stays in seconds); a device ``Q2``.
+    """
+    if value is None:
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, list | tuple):
+        return ", ".join(value_text(name, v, with_unit=with_unit) for v in value)
+    if isinstance(value, dict):
+        return "; ".join(f"{k} {value_text(k, v, with_unit=with_unit)}" for k, v in value.items())
+    if name == "device" and isinstance(value, int):
+        return device_name(value)
+    if not isinstance(value, int | float):
+        return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return "—"
+    if name in PERCENT:
+        return f"{value * 100:+.1f} %" if name == "margin" else f"{value * 100:.1f} %"
+    if name == "overload":
+        return f"{value:.3g}"
+    quantity_unit = unit(name)
+    if quantity_unit == "s" and with_unit:
+        return format_time(float(value), span_s=span_s)
+    number = f"{value:.4g}" if isinstance(value, float) else str(value)
+    if not with_unit or quantity_unit in ("", "1"):
+        return number
+    return f"{number} %" if quantity_unit == "%" else f"{number} {quantity_unit}"
+
+
+def column_heading(name: str) -> str:
+    """Heading of a table column of ``name``: the glossary's words and unit; percent for margins."""
+    if name in PERCENT:
+        return heading(name).replace(" (%)", "") + " (%)"
+    return heading(name)
+
+
+def limit_text(name: str | None) -> str:
+    """A limit name as tables show it (the name itself, a glossary word); ``—`` when there is none."""
+    if not name:
+        return "—"
+    return name if name in LIMITS else str(name)
