@@ -101,6 +101,7 @@ _TERMS = [
     _t("case_temp", "°C", "case temperature the point is checked at; in a stage file, a fixed case temperature"),
     _t("pulse", "", "dc, or the width of a pulse such as 1ms"),
     _t("duty", "1", "duty cycle tp/T of a pulse train in (0, 1]; null for DC and for a single pulse"),
+    _t("idle_current", "A", "current standing between the pulses of a point, at the same voltage; 0 for none"),
     _t("inside", "", "true when the point is inside the derated SOA", "inside"),
     _t("allowed_current", "A", "the most current the derated SOA allows at the point's voltage", "allowed"),
     _t("curve", "", "the digitized curve the point was checked against (dc or a pulse width)"),
