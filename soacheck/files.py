@@ -334,6 +334,12 @@ def read_toml(path: str | Path, what: str) -> dict[str, Any]:
             return tomllib.load(handle)
     except FileNotFoundError:
         raise SoacheckError(f"{path}: no such {what} file; check the path") from None
+    except IsADirectoryError:
+        raise SoacheckError(f"{path}: is a folder, not a {what} file; give the path of the .toml file") from None
+    except PermissionError:
+        raise SoacheckError(f"{path}: not readable (permission denied); check the file's permissions") from None
+    except UnicodeDecodeError:
+        raise SoacheckError(f"{path}: is not a UTF-8 text file; a {what} file is TOML text") from None
     except tomllib.TOMLDecodeError as err:
         raise SoacheckError(f"{path}: invalid TOML: {err}; fix the syntax") from None
 

@@ -11,8 +11,8 @@ import numpy as np
 from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, discharge
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
-from soacheck.files import Table, check_keys, read_table, read_toml, toml_number, toml_text
-from soacheck.quantities import IDLE_CURRENT
+from soacheck.files import Table, read_table, read_toml
+from soacheck.quantities import CURRENT, IDLE_CURRENT, SETPOINT, TEMPERATURE, VOLTAGE
 from soacheck.units import parse_duration
 
 
@@ -33,6 +33,10 @@ def read_points(path: str | Path) -> Table:
         positive=("voltage", "current"),
     )
     frame = table.frame
+    VOLTAGE.check_array(frame["voltage"].to_numpy(), lambda k: f"{table.where(k)}: voltage")
+    CURRENT.check_array(frame["current"].to_numpy(), lambda k: f"{table.where(k)}: current")
+    if "case_temp" in frame:
+        TEMPERATURE.check_array(frame["case_temp"].to_numpy(), lambda k: f"{table.where(k)}: case_temp")
     if "pulse" in frame:
         frame["pulse_s"] = [parse_duration(p, where=f"{table.where(i)}: pulse") for i, p in enumerate(frame["pulse"])]
     if "duty" in frame:
@@ -81,36 +85,24 @@ def read_ocv(path: str | Path) -> Chemistry:
     return Chemistry(Path(path).name, soc, volts, float(volts[0]), f"the user's OCV table {path}")
 
 
-_ENVELOPE_KEYS = ("voltage", "current", "power", "pulse", "duty", "ambient", "case_temp")
-
-
 def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
-    """Build an envelope from its TOML table (an envelope file, or one inline in a plan)."""
-    check_keys(where, data, _ENVELOPE_KEYS, ("voltage", "current", "power"))
-    span = data["voltage"]
-    if not isinstance(span, list) or len(span) != 2:
-        raise SoacheckError(f"{where}: voltage must be a range [low, high] in V, such as [5, 40]")
-    v_lo = toml_number(f"{where}: voltage[0]", span[0], positive=False)  # 0 V: Envelope says what to give
-    v_hi = toml_number(f"{where}: voltage[1]", span[1])
-    pulse_s = parse_duration(str(data.get("pulse", "dc")), where=f"{where}: pulse")
-    if "duty" in data:
-        duty = toml_number(f"{where}: duty", data["duty"], positive=False)
-        if not (0 < duty <= 1):
-            raise SoacheckError(
-                f"{where}: duty is {duty:g}; give tp/T in (0, 1], such as 0.1 (leave it out for a single pulse)"
-            )
+    """Build an envelope from its TOML table (an envelope file, or one inline in a plan), checked by its schema."""
+    from soacheck.schemas import EnvelopeTable, validate  # pydantic: only when an envelope is read
+
+    table = validate(EnvelopeTable, data, where)
+    v_lo, v_hi = table.voltage  # 0 V: Envelope says what to give
+    pulse_s = parse_duration(table.pulse, where=f"{where}: pulse")
+    if table.duty is not None:
+        duty = table.duty
         if math.isinf(pulse_s):
             raise SoacheckError(f'{where}: duty needs a pulse width, such as pulse = "10ms"')
     else:
         duty = 1.0 if math.isinf(pulse_s) else 0.0
-    if "ambient" in data and "case_temp" in data:
+    if table.ambient is not None and table.case_temp is not None:
         raise SoacheckError(f"{where}: give either ambient or case_temp, not both")
-    case_temp = toml_number(f"{where}: case_temp", data["case_temp"], positive=False) if "case_temp" in data else None
-    ambient = (
-        None if case_temp is not None else toml_number(f"{where}: ambient", data.get("ambient", 25.0), positive=False)
-    )
-    current = toml_number(f"{where}: current", data["current"])
-    power = toml_number(f"{where}: power", data["power"])
+    case_temp = table.case_temp
+    ambient = None if case_temp is not None else (25.0 if table.ambient is None else table.ambient)
+    current, power = table.current, table.power
     try:
         return Envelope(v_lo, v_hi, current, power, pulse_s, duty, ambient, case_temp)
     except SoacheckError as err:
@@ -122,9 +114,6 @@ def read_envelope(path: str | Path) -> Envelope:
     return envelope_from_table(read_toml(path, "envelope"), where=str(path))
 
 
-_DISCHARGE_KEYS = ("battery", "cells", "capacity", "mode", "setpoint", "cutoff", "internal_resistance", "samples")
-
-
 def battery_from(name: str, cells: int, capacity_ah: float, r_int_ohm: float, *, base: Path = Path()) -> Battery:
     """A pack from a chemistry preset name or the path of an OCV CSV (relative to ``base``)."""
     source = base / name
@@ -133,23 +122,13 @@ def battery_from(name: str, cells: int, capacity_ah: float, r_int_ohm: float, *,
 
 
 def discharge_from_table(data: dict[str, Any], *, where: str, base: Path) -> Trajectory:
-    """A discharge described in TOML (a discharge file, or a job in a plan) as a trajectory."""
-    check_keys(where, data, _DISCHARGE_KEYS, ("battery", "cells", "capacity", "mode", "setpoint"))
-    cells = data["cells"]
-    if isinstance(cells, bool) or not isinstance(cells, int) or cells < 1:
-        raise SoacheckError(f"{where}: cells is {cells!r}; write a whole number of cells in series")
-    pack = battery_from(
-        toml_text(f"{where}: battery", data["battery"]),
-        cells,
-        toml_number(f"{where}: capacity", data["capacity"]),
-        toml_number(f"{where}: internal_resistance", data.get("internal_resistance", 0.0), positive=False),
-        base=base,
-    )
-    mode = toml_text(f"{where}: mode", data["mode"]).lower()
+    """A discharge described in TOML (a discharge file, or a job in a plan) as a trajectory, checked by its schema."""
+    from soacheck.schemas import DischargeTable, validate  # pydantic: only when a discharge is read
+
+    table = validate(DischargeTable, data, where)
+    mode = table.mode.strip().lower()
     if mode not in MODES:
         raise SoacheckError(f"{where}: mode '{mode}' is not one of cc, cp, cr{did_you_mean(mode, MODES)}")
-    cutoff = toml_number(f"{where}: cutoff", data["cutoff"]) if "cutoff" in data else None
-    samples = data.get("samples", 2000)
-    if isinstance(samples, bool) or not isinstance(samples, int) or samples < 10:
-        raise SoacheckError(f"{where}: samples is {samples!r}; write a whole number of at least 10")
-    return discharge(pack, mode, toml_number(f"{where}: setpoint", data["setpoint"]), cutoff_v=cutoff, samples=samples)
+    SETPOINT[mode].check(table.setpoint, f"{where}: setpoint")
+    pack = battery_from(table.battery.strip(), table.cells, table.capacity, table.internal_resistance, base=base)
+    return discharge(pack, mode, table.setpoint, cutoff_v=table.cutoff, samples=table.samples)

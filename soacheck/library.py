@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from soacheck.errors import SoacheckError, nearest
-from soacheck.files import check_keys, read_toml, toml_number, toml_text
+from soacheck.files import read_toml
 from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
 from soacheck.stage import Cooling, Stage
@@ -136,51 +136,29 @@ def read_stage(path: str | Path, folders) -> Stage:
 
 
 def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
-    """Build a stage from its TOML table (a stage file, or a stage inline in a plan)."""
-    check_keys(where, data, _STAGE_KEYS, ("part", "count"))
-    ref = toml_text(f"{where}: part", data["part"])
+    """Build a stage from its TOML table (a stage file, or a stage inline in a plan), checked by its schema."""
+    from soacheck.schemas import StageTable, validate  # pydantic: only when a stage is read
+
+    table = validate(StageTable, data, where)
+    ref = table.part.strip()
     local = base / ref
     part = find_part(str(local) if (local / PART_FILE).is_file() else ref, folders)
-    count = data["count"]
-    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-        raise SoacheckError(f"{where}: count is {count!r}; write a whole number of devices, at least 1")
-    values = {}
-    for key in ("ballast", "series_resistance", "vbe_spread"):
-        value = data.get(key, 0.0)
-        values[key] = toml_number(f"{where}: {key}", value, positive=False)
-        if values[key] < 0:
-            raise SoacheckError(f"{where}: {key} is {value!r}; it must be zero or more")
-    tempco = toml_number(f"{where}: vbe_tempco", data.get("vbe_tempco", -0.002), positive=False)
     cooling = None
-    case_temp = None
-    if "cooling" in data:
-        if "case_temp" in data:
+    if table.cooling is not None:
+        if table.case_temp is not None:
             raise SoacheckError(f"{where}: give either [cooling] or case_temp, not both")
-        table = data["cooling"]
-        if not isinstance(table, dict):
-            raise SoacheckError(f"{where}: 'cooling' must be a table: write [cooling] on its own line")
-        check_keys(f"{where} [cooling]", table, _COOLING_KEYS, ("heatsink_rth", "heatsink_capacity"))
-        interface = toml_number(f"{where}: cooling.interface_rth", table.get("interface_rth", 0.0), positive=False)
-        if interface < 0:
-            raise SoacheckError(f"{where}: cooling.interface_rth is {interface:g}; it must be zero or more")
-        cooling = Cooling(
-            interface,
-            toml_number(f"{where}: cooling.heatsink_rth", table["heatsink_rth"]),
-            toml_number(f"{where}: cooling.heatsink_capacity", table["heatsink_capacity"]),
-            toml_number(f"{where}: cooling.ambient", table.get("ambient", 25.0), positive=False),
-        )
-    elif "case_temp" in data:
-        case_temp = toml_number(f"{where}: case_temp", data["case_temp"], positive=False)
-    else:
+        c = table.cooling
+        cooling = Cooling(c.interface_rth, c.heatsink_rth, c.heatsink_capacity, c.ambient)
+    elif table.case_temp is None:
         raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
     return Stage(
         part,
-        count,
-        values["ballast"],
-        values["series_resistance"],
-        values["vbe_spread"],
-        tempco,
+        table.count,
+        table.ballast,
+        table.series_resistance,
+        table.vbe_spread,
+        table.vbe_tempco,
         cooling,
-        case_temp,
+        table.case_temp,
         name=where,
     )

@@ -91,7 +91,7 @@ class Quantity:
     def accepted(self) -> str:
         """The accepted range in words: ``above -273.15 °C and at most 1000 °C``."""
         unit = f" {self.unit}" if self.unit else ""
-        kind = "a whole number " if self.integer else ""
+        kind = ""
         if math.isinf(self.high):
             low = "above" if self.low_open else "at least"
             return f"{kind}{low} {_fmt(self.low)}{unit}"
@@ -99,7 +99,8 @@ class Quantity:
             low = "above" if self.low_open else "at least"
             high = "below" if self.high_open else "at most"
             return f"{kind}{low} {_fmt(self.low)}{unit} and {high} {_fmt(self.high)}{unit}"
-        return f"{kind}from {_fmt(self.low)} to {_fmt(self.high)}{unit}"
+        whole = ", a whole number" if self.integer else ""
+        return f"{kind}from {_fmt(self.low)} to {_fmt(self.high)}{unit}{whole}"
 
     def _error(self, where: str, shown: str) -> SoacheckError:
         return SoacheckError(f"{where} is {shown}; give a {self.name} {self.accepted()}")
