@@ -87,7 +87,7 @@ def read_ocv(path: str | Path) -> Chemistry:
 
 def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
     """Build an envelope from its TOML table (an envelope file, or one inline in a plan), checked by its schema."""
-    from soacheck.schemas import EnvelopeTable, validate  # pydantic: only when an envelope is read
+    from soacheck.tomlschemas import EnvelopeTable, validate  # pydantic: only when an envelope is read
 
     table = validate(EnvelopeTable, data, where)
     v_lo, v_hi = table.voltage  # 0 V: Envelope says what to give
@@ -123,7 +123,7 @@ def battery_from(name: str, cells: int, capacity_ah: float, r_int_ohm: float, *,
 
 def discharge_from_table(data: dict[str, Any], *, where: str, base: Path) -> Trajectory:
     """A discharge described in TOML (a discharge file, or a job in a plan) as a trajectory, checked by its schema."""
-    from soacheck.schemas import DischargeTable, validate  # pydantic: only when a discharge is read
+    from soacheck.tomlschemas import DischargeTable, validate  # pydantic: only when a discharge is read
 
     table = validate(DischargeTable, data, where)
     mode = table.mode.strip().lower()

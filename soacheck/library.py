@@ -137,7 +137,7 @@ def read_stage(path: str | Path, folders) -> Stage:
 
 def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
     """Build a stage from its TOML table (a stage file, or a stage inline in a plan), checked by its schema."""
-    from soacheck.schemas import StageTable, validate  # pydantic: only when a stage is read
+    from soacheck.tomlschemas import StageTable, validate  # pydantic: only when a stage is read
 
     table = validate(StageTable, data, where)
     ref = table.part.strip()

@@ -20,7 +20,7 @@ from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_po
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
 from soacheck.quantities import CURRENT, POWER, VOLTAGE
-from soacheck.schemas import (
+from soacheck.tomlschemas import (
     CompareJob,
     DischargeFileJob,
     DischargeJob,
@@ -59,7 +59,7 @@ class Plan:
 def read_plan(path: str | Path, folders: Sequence[Path]) -> Plan:
     """Read a plan and everything it refers to; raise one clear error naming the plan and the job.
 
-    Every job's keys are checked against its schema (:mod:`soacheck.schemas`): types,
+    Every job's keys are checked against its schema (:mod:`soacheck.tomlschemas`): types,
     physical ranges, unknown keys. Job names must be unique: each names a section, an
     anchor and plot files of the report.
     """
