@@ -20,6 +20,7 @@ from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_po
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
 from soacheck.quantities import CURRENT, POWER, VOLTAGE
+from soacheck.stage import Stage
 from soacheck.tomlschemas import (
     CompareJob,
     DischargeFileJob,
@@ -31,7 +32,6 @@ from soacheck.tomlschemas import (
     TraceJob,
     validate,
 )
-from soacheck.stage import Stage
 from soacheck.units import parse_duration
 
 JobKind = Literal["points", "envelope", "discharge", "sweep", "trace", "compare"]
