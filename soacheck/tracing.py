@@ -67,6 +67,31 @@ def column_runs(mask: np.ndarray, grey: np.ndarray) -> ColumnRuns:
     return ColumnRuns(first, last, centre, offsets)
 
 
+def _dark_ahead(runs: ColumnRuns, c: int, slope: float, row: float, step: int, stop: int, ahead: int) -> bool:
+    """Whether the straight line from ``row`` at column ``c`` runs on through dark pixels for ``ahead`` columns."""
+    hits = 0
+    for n in range(1, ahead + 1):
+        k = c + n * step
+        if (stop - k) * step < 0:
+            return hits >= 0.8 * (n - 1) and n > 2
+        span = runs.column(k)
+        expect = row + slope * n * step
+        hits += bool(np.any((runs.first[span] - 1 <= expect) & (expect <= runs.last[span] + 1)))
+    return hits >= 0.8 * ahead
+
+
+def _steep_on(runs: ColumnRuns, c: int, step: int, stop: int, first: int, last: int, entry: float) -> bool:
+    """Whether a long run at column ``c`` goes on as a steep line: a run in the next column meets its far end
+    and not its near one (a vertical line two pixels wide fills the next column end to end)."""
+    if (stop - c) * step <= 0:
+        return False
+    far, near = (last, first) if abs(last - entry) > abs(first - entry) else (first, last)
+    span = runs.column(c + step)
+    meets_far = (runs.first[span] - 2 <= far) & (far <= runs.last[span] + 2)
+    meets_near = (runs.first[span] <= near) & (near <= runs.last[span])
+    return bool(np.any(meets_far & ~meets_near))
+
+
 def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step: int, stop: int) -> list:
     """Columns, rows and ambiguity of the curve from run ``seed`` on, one column at a time."""
     columns, centres, clear = [seed_column], [float(runs.centre[seed])], [True]
@@ -78,9 +103,11 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
     c = seed_column
     while (stop - c) * step > 0:
         c += step
+        # the last `window` clear columns: through a crossing (merged, not clear) the
+        # direction from before it carries on
         recent = []
         for k in range(len(columns) - 1, -1, -1):
-            if abs(columns[k] - c) > window + gap:
+            if len(recent) == window or abs(columns[k] - c) > 4 * window + gap:
                 break
             if clear[k]:
                 recent.append(k)
@@ -110,12 +137,24 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
         expected = width_px * np.hypot(1.0, slope) + abs(slope)
         length = last[chosen] - first[chosen] + 1
         usual = np.median(np.take(lengths, recent)) if len(recent) >= 3 else expected
-        merged = length > max(usual, expected) + 1.5
-        if merged:
-            half = expected / 2
-            row = float(np.clip(predicted, first[chosen] + half - 0.5, last[chosen] - half + 0.5))
-        else:
-            row = float(centre[chosen])
+        inside = first[chosen] - 0.5 <= predicted <= last[chosen] + 0.5
+        skewed = abs(centre[chosen] - predicted) > 0.35 + 0.25 * abs(slope)
+        merged = inside and (length > max(usual, expected) + 0.75 or skewed) and len(recent) >= 3
+        if merged and not _dark_ahead(runs, c, slope, predicted, step, stop, max(4, int(3 * width_px) + 2)):
+            merged = False  # nothing straight ahead: a bend, not a crossing
+        half = expected / 2
+        clipped = float(np.clip(predicted, first[chosen] + half - 0.5, last[chosen] - half + 0.5))
+        row = clipped if merged else float(centre[chosen])
+        if (
+            not merged
+            and length > 2 * max(usual, expected) + 3
+            and not _steep_on(runs, c, step, stop, first[chosen], last[chosen], centres[-1])
+        ):
+            # a vertical line (a voltage limit drawn down to the frame): the curve ends here
+            columns.append(c)
+            centres.append(clipped)
+            clear.append(False)
+            break
         columns.append(c)
         centres.append(row)
         clear.append(not merged)

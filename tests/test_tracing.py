@@ -348,3 +348,39 @@ def test_a_rerun_replaces_its_own_overlay_without_force(tmp_path, small_sheet):
     assert first.exit_code == 0, first.output
     again = runner.invoke(app, overlay_args(small_sheet, tmp_path / "b" / "soa.csv", overlay))
     assert again.exit_code == 0, again.output  # soacheck marked the PNG it wrote (issue 14)
+
+
+# --------------------------------------------------------------------------- crossings and a vertical end
+
+FALLING = KnownCurve("dc", (1.0, 100.0), (30.0, 0.3))  # slope -1 across the whole frame
+RISING = KnownCurve("1ms", (1.0, 100.0), (0.5, 50.0))  # slope +1: crosses FALLING near 7.7 V
+# a curve that ends in a vertical line down to the frame at 60 V (the voltage rating drawn out)
+VERTICAL_END = KnownCurve("10ms", (1.0, 10.0, 60.0, 60.0), (20.0, 20.0, 10 * 20 / 60, 0.1))
+
+
+@pytest.fixture(scope="module", params=["png", "jpg"])
+def crossings(request, tmp_path_factory):
+    """Three curves crossing one another: FALLING crosses RISING, VERTICAL_END's current limit and its vertical."""
+    return draw_sheet(tmp_path_factory.mktemp("cross") / f"cross.{request.param}", (FALLING, RISING, VERTICAL_END))
+
+
+@pytest.mark.parametrize(
+    ("known", "seed", "vertices"),
+    [
+        (FALLING, "3:10=dc", FALLING),
+        (RISING, "3:1.5=1ms", RISING),
+        # the vertical line is not part of the curve: it ends where the line turns down
+        (VERTICAL_END, "30:6.67=10ms", KnownCurve("10ms", (1.0, 10.0, 60.0), (20.0, 20.0, 10 * 20 / 60))),
+    ],
+    ids=["falling", "rising", "vertical-end"],
+)
+def test_a_trace_goes_straight_through_crossings(tmp_path, crossings, known, seed, vertices):
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(
+        app, ["digitize", "--image", str(crossings.path), *RANGES, "--trace", seed, "--into", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out)
+    tolerance = 10 ** (1.5 / pixels_per_decade(crossings)) - 1 + 1e-3  # 1.5 px, as above
+    assert rows["voltage"].to_numpy() == pytest.approx(vertices.voltage_v, rel=tolerance)
+    assert rows["current"].to_numpy() == pytest.approx(vertices.current_a, rel=tolerance)
