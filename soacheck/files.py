@@ -127,12 +127,15 @@ def read_table(
             needed = ", ".join(n for n in known if n not in optional)
             raise SoacheckError(f"{path}: missing column '{name}'; the header must name {needed}")
     try:
+        # numbers parsed by pandas' C reader; a column it cannot parse as plain numbers is
+        # read again as text below, to name the first bad cell
         raw = pd.read_csv(
             path,
             sep=sep,
-            dtype=str,
+            dtype={name: str for name in names if name not in numeric},
             keep_default_na=False,
             skipinitialspace=True,
+            decimal="," if sep == ";" else ".",
             encoding="utf-8-sig",
         )
     except pd.errors.ParserError as err:
@@ -153,7 +156,14 @@ def read_table(
     for name in known:
         if name not in raw.columns:
             continue
-        cells = raw[name].astype(str).str.strip()
+        if name in numeric and pd.api.types.is_numeric_dtype(raw[name]) and not pd.api.types.is_bool_dtype(raw[name]):
+            values = raw[name].to_numpy(float)
+            if np.all(np.isfinite(values)) and (name not in positive or np.all(values > 0)):
+                frame[name] = values
+                continue
+            raw[name] = _column_text(path, sep, name)  # name the bad cell as written
+        codes, distinct = pd.factorize(raw[name].astype(str))  # each distinct cell stripped once
+        cells = pd.Series(distinct.str.strip().to_numpy(object)[codes], index=raw.index)
         if name in text:
             empty = np.flatnonzero((cells == "").to_numpy())
             if empty.size:
@@ -176,6 +186,15 @@ def read_table(
                 )
         frame[name] = values
     return table
+
+
+def _column_text(path: Path, sep: str, name: str):
+    """One column of a CSV file as the text written in it (for messages about bad cells)."""
+    import pandas as pd
+
+    raw = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=False, skipinitialspace=True, encoding="utf-8-sig")
+    raw.columns = [c.strip().lower() for c in raw.columns]
+    return raw[name]
 
 
 def check_keys(where: str, table: dict[str, Any], allowed: Sequence[str], required: Sequence[str]) -> None:

@@ -37,8 +37,16 @@ def read_points(path: str | Path) -> Table:
     CURRENT.check_array(frame["current"].to_numpy(), lambda k: f"{table.where(k)}: current")
     if "case_temp" in frame:
         TEMPERATURE.check_array(frame["case_temp"].to_numpy(), lambda k: f"{table.where(k)}: case_temp")
-    if "pulse" in frame:
-        frame["pulse_s"] = [parse_duration(p, where=f"{table.where(i)}: pulse") for i, p in enumerate(frame["pulse"])]
+    if "pulse" in frame:  # each distinct width parsed once, named at its first row
+        written, first, which = np.unique(frame["pulse"].to_numpy(str), return_index=True, return_inverse=True)
+        widths = np.empty(written.size)
+        for u in np.argsort(first):  # in file order, so that the first bad row is the one named
+            try:
+                widths[u] = parse_duration(str(written[u]), where="pulse")
+            except SoacheckError:  # again, with the file's line (counting lines reads the file once more)
+                parse_duration(str(written[u]), where=f"{table.where(int(first[u]))}: pulse")
+                raise
+        frame["pulse_s"] = widths[np.ravel(which)]
     if "duty" in frame:
         bad = np.flatnonzero((frame["duty"] < 0) | (frame["duty"] > 1))
         if bad.size:

@@ -8,12 +8,12 @@ assumptions made, in words.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
-from soacheck.boundary import Allowed, allowed_current, model_consistency
+from soacheck.boundary import Allowed, allowed_current, distinct_rows, model_consistency
 from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
 from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part
@@ -63,16 +63,26 @@ class PointCheck:
     def verdict(self) -> Literal["pass", "fail"]:
         return "pass" if self.passed else "fail"
 
-    def to_frame(self) -> pd.DataFrame:
-        """One row per point, columns named as in the JSON output; ``duty`` None for DC and single pulses."""
+    def to_frame(self, rows: np.ndarray | None = None) -> pd.DataFrame:
+        """One row per point, columns named as in the JSON output; ``duty`` None for DC and single pulses.
+
+        ``rows``: indices of the points to include, in that order (all when None).
+        """
         import pandas as pd  # deferred: a command that prints no table starts without it
 
+        if rows is not None:
+            arrays = {
+                f.name: getattr(self, f.name)[rows]
+                for f in fields(self)
+                if isinstance(getattr(self, f.name), np.ndarray)
+            }
+            return replace(self, **arrays).to_frame()
         frame = pd.DataFrame(
             {
                 "voltage": self.voltage_v,
                 "current": self.current_a,
                 "case_temp": self.tc_c,
-                "pulse": [format_duration(t) for t in self.pulse_s],
+                "pulse": _durations(self.pulse_s),
                 # null for DC and single pulses: a duty only means something for a pulse train
                 "duty": pd.Series(np.where((self.duty > 0) & np.isfinite(self.pulse_s), self.duty, None), dtype=object),
                 "idle_current": self.idle_current_a,
@@ -81,13 +91,20 @@ class PointCheck:
                 "margin": self.margin,
                 "overload": overload(self.margin),
                 "limit": self.limit,
-                "curve": [format_duration(t) if np.isfinite(t) or np.isinf(t) else "" for t in self.curve_pulse_s],
+                "curve": _durations(self.curve_pulse_s),
                 "extrapolated": self.extrapolated,
             }
         )
         if self.margin_to_rating is not None:
             frame.insert(frame.columns.get_loc("margin") + 1, "margin_to_rating", self.margin_to_rating)
         return frame
+
+
+def _durations(seconds: np.ndarray) -> np.ndarray:
+    """Each duration as written (``dc``, ``1ms``), "" for NaN; each distinct value formatted once. [s]"""
+    distinct, which = np.unique(seconds, return_inverse=True)
+    text = np.array([format_duration(t) if not math.isnan(t) else "" for t in distinct.tolist()], dtype=object)
+    return text[np.ravel(which)]
 
 
 def margin(current_a: np.ndarray, allowed_a: np.ndarray, evaluated: np.ndarray) -> np.ndarray:
@@ -211,11 +228,10 @@ def _assumptions(
     ]
     shortest = part.pulse_widths_s[0]
     standing = (idle > 0) & np.isfinite(tp) & (d < 1)
-    conditions = zip(
-        tp.tolist(), d.tolist(), standing.tolist(), result.curve_pulse_s.tolist(), result.modelled.tolist(), strict=True
-    )
-    for asked, duty, on_idle, used, modelled in sorted(set(conditions)):
-        if math.isnan(used) or (math.isinf(asked) and duty == 0):
+    used_any = ~np.isnan(result.curve_pulse_s)  # the points not evaluated get no note here
+    keys = np.column_stack([tp, d, standing, result.curve_pulse_s, result.modelled])[used_any].astype(float)
+    for asked, duty, on_idle, used, modelled in distinct_rows(keys)[0].tolist():
+        if math.isinf(asked) and duty == 0:
             continue
         label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")
         label += " on a standing current" if on_idle else ""

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 from abc import ABC, abstractmethod
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import ModuleType
@@ -30,7 +31,7 @@ from soacheck.compare import Candidate
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, EnvelopeCheck, SafeEnvelope
 from soacheck.errors import SoacheckError
-from soacheck.jsonvalues import json_text, jsonable
+from soacheck.jsonvalues import json_chunks, json_text, jsonable
 from soacheck.limit_table import LimitTable, export_writer
 from soacheck.parts import Part
 from soacheck.plan import Plan
@@ -117,7 +118,11 @@ class Result(ABC):
 
     def to_json(self) -> str:
         """``to_dict()`` as the JSON text the command prints."""
-        return json_text(self.to_dict())
+        return "".join(self.json_chunks())
+
+    def json_chunks(self) -> Iterator[str]:
+        """``to_json()`` in pieces, as the command prints it; results with many rows stream them."""
+        yield json_text(self.to_dict())
 
     def __repr__(self) -> str:
         margin = "—" if not math.isfinite(self.margin) else f"{self.margin:+.1%}"
@@ -166,15 +171,20 @@ class CheckResult(Result):
         allowed_current [A], margin (fraction, NaN where nothing is allowed), limit, curve, extrapolated."""
         return self.points.to_frame()
 
+    def _payload(self, points: Any) -> dict[str, Any]:
+        return {
+            "part": self.points.part_id,
+            "verdict": self.verdict,
+            "points": points,
+            "assumptions": list(self.assumptions),
+        }
+
     def to_dict(self) -> dict[str, Any]:
-        return jsonable(
-            {
-                "part": self.points.part_id,
-                "verdict": self.verdict,
-                "points": self.to_frame().to_dict(orient="records"),
-                "assumptions": list(self.assumptions),
-            }
-        )
+        return jsonable(self._payload(self.to_frame().to_dict(orient="records")))
+
+    def json_chunks(self) -> Iterator[str]:
+        """The JSON text with the points streamed one compact row a line (a million in seconds)."""
+        return json_chunks(self._payload(self.to_frame()))
 
     def plot(self, ax: Axes | None = None) -> Axes:
         """The points over the boundary at the case temperatures and the pulse width they were checked at."""

@@ -7,6 +7,8 @@ must fall with voltage (common practice, no source).
 
 from __future__ import annotations
 
+import json
+
 import pytest
 from typer.testing import CliRunner
 
@@ -155,7 +157,8 @@ def test_spreadsheet_export_with_semicolons_and_decimal_commas_is_read(tmp_path)
     points.write_text("voltage;current;case_temp\n20,0;3,5;75\n", encoding="utf-8")
     result = runner.invoke(app, ["check", str(folder), "--points", str(points), "--json"])
     assert result.exit_code == 0, result.output
-    assert '"allowed_current": 3.7499' in result.stdout  # 75 W / 20 V: 125 W x (150 - 75)/(150 - 25), by hand
+    allowed = json.loads(result.stdout)["points"][0]["allowed_current"]
+    assert allowed == pytest.approx(3.75, abs=1e-4)  # 75 W / 20 V: 125 W x (150 - 75)/(150 - 25), by hand
 
 
 def test_unknown_part_names_the_nearest_ids():

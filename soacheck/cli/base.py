@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import contextlib
 import functools
-import json
 import math
 import os
 import sys
@@ -26,6 +25,7 @@ from soacheck import __version__
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, choose
 from soacheck.files import check_output
+from soacheck.jsonvalues import json_chunks
 from soacheck.library import find_part, library_folders, read_stage
 from soacheck.parts import Part
 from soacheck.quantities import DUTY, SAMPLES, Quantity
@@ -226,8 +226,18 @@ def jsonable(value: Any) -> Any:
     return value
 
 
+def echo_result_json(result: Any) -> None:
+    """Print a result's ``--json`` text as it is produced (a large result streams its rows)."""
+    for chunk in result.json_chunks():
+        typer.echo(chunk, nl=False)
+    typer.echo("")
+
+
 def echo_json(payload: dict[str, Any]) -> None:
-    typer.echo(json.dumps(jsonable(payload), indent=2, ensure_ascii=False))
+    """Print ``payload`` as indented JSON; a table in it is streamed, one compact row a line."""
+    for chunk in json_chunks(payload):
+        typer.echo(chunk, nl=False)
+    typer.echo("")
 
 
 PLOT_SUFFIXES = (".png", ".svg", ".pdf")

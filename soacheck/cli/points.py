@@ -6,6 +6,7 @@ import math
 from pathlib import Path
 from typing import Annotated
 
+import numpy as np
 import typer
 from rich.console import Console
 from rich.markup import escape
@@ -22,6 +23,7 @@ from soacheck.cli.base import (
     breakdown_option,
     console_for_output,
     echo_json,
+    echo_result_json,
     number_list,
     output_path,
     part_option,
@@ -32,19 +34,45 @@ from soacheck.points import PointCheck
 from soacheck.quantities import TEMPERATURE
 from soacheck.units import parse_duration
 
+TABLE_ROWS = 20
+"""Rows a point table shows without ``--all-rows``: the worst ones."""
 
-def _print_check(console: Console, result: PointCheck) -> None:
-    table = RichTable(title=escape(f"{result.part_id}: operating points"), title_justify="left")
+
+def worst_rows(result: PointCheck, count: int) -> np.ndarray:
+    """Indices of the ``count`` worst points, worst first: outside before inside, then by margin.
+
+    A point not evaluated (margin NaN) comes first among its kind; equal points keep the
+    file's order. A partial sort: linear in the number of points.
+    """
+    # outside: margin < 0, or -inf when nothing is allowed; inside: 10 + margin in [9, 11]
+    key = np.where(
+        result.inside, 10.0 + np.nan_to_num(result.margin, nan=-1.0), np.nan_to_num(result.margin, nan=-np.inf)
+    )
+    if key.size <= count:
+        return np.lexsort((np.arange(key.size), key))
+    kth = np.partition(key, count - 1)[count - 1]
+    below = np.flatnonzero(key < kth)
+    chosen = np.r_[below, np.flatnonzero(key == kth)[: count - below.size]]  # ties at the cut in file order
+    return chosen[np.lexsort((chosen, key[chosen]))]
+
+
+def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False) -> None:
+    total = result.inside.size
+    subset = not all_rows and total > TABLE_ROWS
+    title = f"{result.part_id}: operating points" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
+    table = RichTable(title=escape(title), title_justify="left")
     names = ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "idle [A]", "curve", "allowed [A]", "margin", "limit", "")
-    for name in names:
-        table.add_column(name, justify="right" if "[" in name or name == "margin" else "left")
-    frame = result.to_frame()
-    for row in frame.itertuples(index=False):
+    for name in ("#", *names) if subset else names:
+        table.add_column(name, justify="right" if "[" in name or name in ("margin", "#") else "left")
+    rows = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
+    frame = result.to_frame(rows)
+    for number, row in zip(rows, frame.itertuples(index=False), strict=True):
         margin = "—" if not math.isfinite(row.margin) else f"{row.margin:+.1%}"
         allowed = "—" if not math.isfinite(row.allowed_current) else f"{row.allowed_current:.4g}"
         mark = "[green]inside[/]" if row.inside else "[bold red]OUTSIDE[/]"
         limit = row.limit + (" (extrapolated)" if row.extrapolated else "")
         table.add_row(
+            *([str(number + 1)] if subset else []),
             f"{row.voltage:g}",
             f"{row.current:g}",
             f"{row.case_temp:g}",
@@ -58,6 +86,8 @@ def _print_check(console: Console, result: PointCheck) -> None:
             mark,
         )
     console.print(table)
+    if subset:
+        _print_summary(console, result)
     for note in result.assumptions:
         console.print(f"  assumed: {note}", highlight=False, markup=False)
     verdict = (
@@ -66,6 +96,21 @@ def _print_check(console: Console, result: PointCheck) -> None:
         else (f"[bold red]FAIL[/]: {int((~result.inside).sum())} of {result.inside.size} points outside")
     )
     console.print(verdict)
+
+
+def _print_summary(console: Console, result: PointCheck) -> None:
+    """All points in a few lines: how many are outside, by limit, and the least margin."""
+    outside = ~result.inside
+    limits, counts = np.unique(result.limit[outside], return_counts=True)
+    ranked = np.argsort(-counts, kind="stable")
+    by_limit = ", ".join(f"{counts[k]} {limits[k]}" for k in ranked)
+    finite = np.isfinite(result.margin)
+    least = f"{np.min(result.margin[finite]):+.1%}" if finite.any() else "—"
+    console.print(
+        f"{result.inside.size} points: {int(outside.sum())} outside{f' ({by_limit})' if by_limit else ''}; "
+        f"least margin {least}; # is the point's row among the data rows; --all-rows shows them all",
+        highlight=False,
+    )
 
 
 @app.command()
@@ -98,6 +143,10 @@ def check(
     breakdown_derating: BreakdownOpt = "auto",
     library: LibraryOpt = None,
     force: ForceOpt = False,
+    all_rows: Annotated[
+        bool,
+        typer.Option("--all-rows", help=f"Show every point in the table, not the {TABLE_ROWS} worst and a summary."),
+    ] = False,
     as_json: JsonOpt = False,
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
@@ -119,9 +168,9 @@ def check(
     if plot is not None:
         save_figure(result.plot().figure, plot)
     if as_json:
-        echo_json(result.to_dict())
+        echo_result_json(result)
     else:
-        _print_check(console_for_output(), result.points)
+        _print_check(console_for_output(), result.points, all_rows=all_rows)
     raise typer.Exit(0 if result.passed else 1)
 
 
