@@ -32,7 +32,7 @@ from soacheck.compare import compare as compare_parts
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, largest_safe_envelope
 from soacheck.errors import SoacheckError, choose
-from soacheck.files import iter_trace, iter_trace_frame, read_toml, read_trace
+from soacheck.files import check_output, iter_trace, iter_trace_frame, read_toml, read_trace
 from soacheck.jobfiles import battery_from, discharge_from_table, read_envelope, read_points
 from soacheck.library import find_part, library_folders, list_parts, read_stage
 from soacheck.limit_table import limit_table
@@ -798,7 +798,7 @@ def envelope(
     chosen = _breakdown(breakdown)
     loaded = load_stage(stage, library=library)
     if case_temp is not None:
-        loaded = replace(loaded, cooling=None, case_temp_c=case_temp)
+        loaded = replace(loaded, cooling=None, case_temp_c=TEMPERATURE.check(case_temp, "--case-temp"))
     if check is not None:
         env = check if isinstance(check, Envelope) else read_envelope(check)
         return EnvelopeResult(check_envelope(loaded, env, breakdown=chosen), chosen)
@@ -860,6 +860,7 @@ def compare(
         raise SoacheckError("give the job as one of --envelope FILE, --discharge FILE or --trace FILE")
     if discharge is not None and stage is None:
         raise SoacheckError("--discharge needs --stage: a battery discharges through a stage")
+    TEMPERATURE.check(case_temp, "--case-temp")
     loaded_stage = load_stage(stage, library=library) if stage is not None else None
     env: Envelope | None = None
     if envelope is not None:
@@ -926,6 +927,10 @@ def run_plan(
     plan = read_plan(Path(path), _folders(library))
     if out is not None:
         refuse_report_folder(Path(out), force)
+        try:
+            check_output(out, force=True, folder=True)
+        except SoacheckError as err:
+            raise SoacheckError(f"--out: {err}") from None
     from soacheck.runner import run_plan as run_plan_jobs  # matplotlib: only when a plan runs
 
     result = PlanResult(plan, tuple(run_plan_jobs(plan, progress=progress)))

@@ -577,12 +577,14 @@ class SafeEnvelopeResult(Result):
         Raises
         ------
         SoacheckError
-            For another suffix, or when the file exists and ``force`` is False.
+            For another suffix, or when the file exists, is not one soacheck wrote, and
+            ``force`` is False.
         """
+        from soacheck.files import check_output
+
         path = Path(path)
         text = self.export_text(path.suffix)
-        if path.exists() and not force:
-            raise SoacheckError(f"{path}: exists; choose another name with -o or add --force to overwrite it")
+        check_output(path, force=force)
         path.write_text(text, encoding="utf-8")
         return path
 

@@ -299,7 +299,7 @@ def test_run_plan_writes_the_report_only_when_asked(files):
         soacheck.run_plan("plan.toml", "mine", library="parts")
 
 
-def test_the_limit_table_is_exported_only_when_asked_and_never_over_a_file(files):
+def test_the_limit_table_is_exported_only_when_asked_and_never_over_a_users_file(files):
     table = soacheck.envelope("stage.toml", voltages=[10, 20, 40], library="parts")
     table.export("limits.csv")
     lines = [line for line in (files / "limits.csv").read_text().splitlines() if not line.startswith("#")]
@@ -307,8 +307,11 @@ def test_the_limit_table_is_exported_only_when_asked_and_never_over_a_file(files
     rows = [line.split(",") for line in lines[1:]]
     assert [float(r[0]) for r in rows] == [10.0, 20.0, 40.0]
     assert [float(r[1]) for r in rows] == list(table.to_frame()["max_current"])
+    table.export("limits.csv")  # soacheck's own file: replaced without force
+    (files / "mine.csv").write_text("my notes\n")
     with pytest.raises(soacheck.SoacheckError, match="exists"):
-        table.export("limits.csv")
+        table.export("mine.csv")
+    assert (files / "mine.csv").read_text() == "my notes\n"
 
 
 # --------------------------------------------------------------------------- errors: the command's line

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 from pathlib import Path
 from typing import Annotated
 
@@ -22,26 +21,16 @@ from soacheck.cli.base import (
     app,
     breakdown_option,
     console_for_output,
-    duty_option,
     echo_json,
     number_list,
     output_path,
     progress_bar,
-    stage_option,
     user_errors,
 )
-from soacheck.compare import TrajectoryJob
-from soacheck.compare import compare as compare_parts
-from soacheck.envelope import check_envelope, largest_safe_envelope
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.files import read_toml, read_trace
-from soacheck.jobfiles import discharge_from_table, read_envelope
-from soacheck.library import find_part, library_folders, list_parts, read_stage
-from soacheck.limit_table import export_writer, limit_table
-from soacheck.partfiles import read_part
-from soacheck.quantities import TEMPERATURE, VOLTAGE
-from soacheck.units import parse_duration
+from soacheck.limit_table import export_writer
+from soacheck.quantities import VOLTAGE
 
 
 def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
@@ -69,23 +58,20 @@ def envelope(
     as_json: JsonOpt = False,
 ) -> None:
     """What a stage can safely promise: check an envelope, or find the largest safe one and export it."""
-    breakdown = breakdown_option(breakdown_derating)
-    loaded = stage_option(stage, library)
-    if case_temp is not None:
-        loaded = replace(loaded, cooling=None, case_temp_c=TEMPERATURE.check(case_temp, "--case-temp"))
+    from soacheck import api
+
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     console = console_for_output()
+    options = {"case_temp": case_temp, "breakdown": breakdown_option(breakdown_derating), "library": library}
     if check_file is not None:
-        env = read_envelope(check_file)
-        result = check_envelope(loaded, env, breakdown=breakdown)
+        result = api.envelope(stage, check_file, **options)
         if plot is not None:
-            from soacheck.plots import plot_envelope_check  # matplotlib: only when plotting
-
-            save_figure(plot_envelope_check(result, breakdown=breakdown), plot)
-        payload = result.summary()
+            save_figure(result.plot().figure, plot)
+        payload = result.to_dict()
         if as_json:
             echo_json(payload)
         else:
+            loaded, env = result.check.stage, result.envelope
             console.print(f"{loaded.part.id} × {loaded.count} against {env.label}", highlight=False)
             console.print(
                 f"least margin {payload['margin']:+.1%} ({payload['limit']}) at "
@@ -94,7 +80,7 @@ def envelope(
                 else "nothing allowed somewhere on the edge",
                 highlight=False,
             )
-            for part_out in result.outside:
+            for part_out in payload["outside"]:
                 console.print(
                     f"  outside from {part_out['from_voltage']:.4g} V to {part_out['to_voltage']:.4g} V: "
                     f"{part_out['limit']}",
@@ -109,37 +95,20 @@ def envelope(
             )
         raise typer.Exit(0 if result.passed else 1)
     if export is not None:
-        write_table = export_writer(export.suffix)
+        export_writer(export.suffix)
         output_path(export, "--export", force=force)
-    pulse_s = parse_duration(pulse, where="--pulse")
-    duty_value = 1.0 if math.isinf(pulse_s) else duty_option(duty, pulse_s) if duty is not None else 0.0
+    grid = None if voltages is None else number_list(voltages, "--voltages", "10,20,40", VOLTAGE)
     with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
-        safe = largest_safe_envelope(
-            loaded,
-            _voltages(voltages, loaded.part.ratings.v_max_v),
-            pulse_s=pulse_s,
-            duty=duty_value,
-            breakdown=breakdown,
-            progress=progress,
-        )
-    table = limit_table(safe)
+        found = api.envelope(stage, voltages=grid, pulse=pulse, duty=duty, progress=progress, **options)
+    table = found.table
     if export is not None:
-        export.write_text(write_table(table), encoding="utf-8")
+        export.write_text(found.export_text(export.suffix), encoding="utf-8")
     if plot is not None:
-        from soacheck.plots import new_axes  # matplotlib: only when plotting
-
-        ax = new_axes()
-        ax.plot(table.voltage_v, table.max_current_a, marker="o", color="#1f5fa8")
-        ax.set_xscale("log")
-        ax.set_yscale("log")
-        ax.set_xlabel("source voltage [V]")
-        ax.set_ylabel("largest safe total current [A]")
-        ax.set_title(f"{loaded.part.id} × {loaded.count}: largest safe envelope", fontsize=10)
-        ax.grid(True, which="both", lw=0.3, alpha=0.6)
-        save_figure(ax.figure, plot)
+        save_figure(found.plot().figure, plot)
     if as_json:
-        echo_json(table.to_dict())
+        echo_json(found.to_dict())
         return
+    loaded = found.safe.stage
     out = RichTable(title=escape(f"{loaded.part.id} × {loaded.count}: largest safe envelope"), title_justify="left")
     for name in ("source V", "max total current", "max power", "limit"):
         out.add_column(name, justify="right" if name != "limit" else "left")
@@ -173,58 +142,28 @@ def compare(
     as_json: JsonOpt = False,
 ) -> None:
     """Rank candidate parts for a job: margin, limit, fewest devices, cooling headroom."""
-    breakdown = breakdown_option(breakdown_derating)
-    folders = library_folders(library or [])
-    if all_parts == bool(parts):
-        raise SoacheckError("name the candidate parts, or give --all (not both)")
-    jobs = [f for f in (envelope_file, discharge_file, trace_file) if f is not None]
-    if len(jobs) != 1:
-        raise SoacheckError("give the job as one of --envelope FILE, --discharge FILE or --trace FILE")
-    if discharge_file is not None and stage is None:
-        raise SoacheckError("--discharge needs --stage: a battery discharges through a stage")
-    TEMPERATURE.check(case_temp, "--case-temp")
-    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    candidates = (
-        [read_part(e.folder) for e in list_parts(folders)] if all_parts else [find_part(p, folders) for p in parts]
-    )
-    loaded_stage = read_stage(stage, folders) if stage is not None else None
-    if envelope_file is not None:
-        job = env = read_envelope(envelope_file)
-    elif discharge_file is not None:
-        path = discharge_from_table(
-            read_toml(discharge_file, "discharge"), where=str(discharge_file), base=discharge_file.parent
-        )
-        job = TrajectoryJob(path)
-    else:
-        job = TrajectoryJob(read_trace(trace_file), case_temp_c=case_temp)
-    with progress_bar("comparing candidates", total=len(candidates), quiet=as_json) as progress:
-        ranked = compare_parts(candidates, job, stage=loaded_stage, breakdown=breakdown, progress=progress)
-    label = env.label if envelope_file is not None else job.trajectory.label
-    if plot is not None and envelope_file is None:
-        raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
-    if plot is not None:
-        if env.case_temp_c is not None:
-            tc = env.case_temp_c
-        elif loaded_stage is not None and loaded_stage.case_temp_c is not None:
-            tc = loaded_stage.case_temp_c
-        else:
-            tc = env.ambient_c
-        from soacheck.plots import plot_compare  # matplotlib: only when plotting
+    from soacheck import api
 
-        by_id = {p.id: p for p in candidates}
-        drawn = plot_compare(
-            [by_id[c.part] for c in ranked],
-            env,
-            case_temp_c=tc,
-            count=loaded_stage.count if loaded_stage else 1,
-            breakdown=breakdown,
-        ).figure
-        save_figure(drawn, plot)
-    payload = {
-        "job": label,
-        "stage": str(stage) if stage else None,
-        "candidates": [c.as_dict() for c in ranked],
-    }
+    if all_parts and parts:
+        raise SoacheckError("name the candidate parts, or give --all (not both)")
+    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
+    if plot is not None and envelope_file is None and (discharge_file or trace_file):
+        raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
+    with progress_bar("comparing candidates", quiet=as_json) as progress:
+        result = api.compare(
+            "all" if all_parts else (parts or []),
+            envelope=envelope_file,
+            discharge=discharge_file,
+            trace=trace_file,
+            case_temp=case_temp,
+            stage=stage,
+            breakdown=breakdown_option(breakdown_derating),
+            library=library,
+            progress=progress,
+        )
+    if plot is not None:
+        save_figure(result.plot().figure, plot)
+    label, loaded_stage, ranked, payload = result.job, result.stage, result.candidates, result.to_dict()
     if as_json:
         echo_json(payload)
     else:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 from typing import Annotated
 
@@ -18,60 +17,33 @@ from soacheck.cli.base import (
     app,
     console_for_output,
     echo_json,
-    jsonable,
-    output_path,
     progress_bar,
     user_errors,
 )
 from soacheck.demo import DEMO_FOLDER, demo_plan_path
-from soacheck.errors import SoacheckError
-from soacheck.files import write_folder
-from soacheck.library import library_folders
-from soacheck.plan import read_plan
-
-REPORT_MARKER = ".soacheck-report"
 
 
 def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
     """Read, run and report a plan into ``out``; the report appears whole or not at all."""
-    from soacheck.report import report_html, report_json, slug, svg_text  # matplotlib: only when a plan runs
-    from soacheck.runner import failures_first, run_plan
+    from soacheck import api
+    from soacheck.runner import failures_first
 
-    folders = library_folders(library or [])
-    plan = read_plan(plan_path, folders)
-    if out.is_dir() and not (out / REPORT_MARKER).is_file() and not force:
-        raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
-    output_path(out, "--out", force=True, folder=True)
-    with progress_bar("jobs", total=len(plan.jobs), quiet=as_json) as progress:
-        results = run_plan(plan, progress=progress)
-    files: dict[str, str | bytes] = {}
-    svgs: dict[str, list[str]] = {}
-    plot_files: dict[str, list[str]] = {}
-    for result in results:
-        for name, figure in result.figures.items():
-            svg = svg_text(figure)
-            file = f"plots/{slug(result.name)}-{name}.svg"
-            files[file] = svg
-            svgs.setdefault(result.name, []).append(svg)
-            plot_files.setdefault(result.name, []).append(file)
-    payload = report_json(plan, results, plot_files)
-    files["report.json"] = json.dumps(jsonable(payload), indent=2, ensure_ascii=False) + "\n"
-    files["report.html"] = report_html(plan, results, svgs, plan_text=plan_path.read_text(encoding="utf-8"))
-    write_folder(out, files, force=True, marker=REPORT_MARKER)
+    with progress_bar("jobs", quiet=as_json) as progress:
+        result = api.run_plan(plan_path, out, force=force, library=library, progress=progress)
     if as_json:
-        echo_json(payload)
-        return payload["verdict"] == "pass"
+        echo_json(result.to_dict())
+        return result.passed
     console = console_for_output()
-    table = RichTable(title=escape(plan.title), title_justify="left")
+    table = RichTable(title=escape(result.plan.title), title_justify="left")
     for name in ("job", "kind", "verdict", "what decides it"):
         table.add_column(name)
-    for result in failures_first(results):
-        verdict = "[green]pass[/]" if result.passed else "[bold red]FAIL[/]"
-        table.add_row(escape(result.name), result.kind, verdict, escape(result.headline()))
+    for job in failures_first(list(result.jobs)):
+        verdict = "[green]pass[/]" if job.passed else "[bold red]FAIL[/]"
+        table.add_row(escape(job.name), job.kind, verdict, escape(job.headline()))
     console.print(table)
     console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
     console.print(f"Report written to {(out / 'report.html').resolve()}", highlight=False)
-    return payload["verdict"] == "pass"
+    return result.passed
 
 
 @app.command()
