@@ -103,19 +103,24 @@ class Frame:
     line_px: int  # the widest edge line's width [px]
 
 
-def find_frame(grey: np.ndarray) -> Frame:
+def find_frame(grey: np.ndarray, *, required: bool = True) -> Frame:
     """The frame: the outermost long dark lines, horizontal and vertical, that span half the picture.
+
+    With ``required`` False, a picture with no frame drawn gets the picture's own edges
+    as its frame (tracing then stays inside the picture; the axes come from pixel ticks).
 
     Raises
     ------
     SoacheckError
-        When no rectangle of long dark lines is found (a plot with no frame drawn).
+        When no rectangle of long dark lines is found and ``required`` is True.
     """
     dark = grey < DARK_BELOW
     rows, columns = grey.shape
     horizontal = long_lines(dark, horizontal=True, min_length_px=0.5 * columns)
     vertical = long_lines(dark, horizontal=False, min_length_px=0.5 * rows)
     if len(horizontal) < 2 or len(vertical) < 2:
+        if not required:
+            return Frame(0.0, float(columns - 1), 0.0, float(rows - 1), 1)
         raise SoacheckError(
             "no plot frame found (two long dark lines across and two down the picture); give the axis "
             "calibration as pixel ticks with --x PX1=V1,PX2=V2 --y PY1=I1,PY2=I2 instead"

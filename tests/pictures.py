@@ -72,8 +72,9 @@ def draw_sheet(
     x_range: tuple[float, float] = X_RANGE,
     y_range: tuple[float, float] = Y_RANGE,
     jpeg_quality: int = 75,
+    frame: bool = True,
 ) -> Sheet:
-    """Draw ``curves`` as a datasheet SOA picture at ``path`` (``.png`` or ``.jpg``)."""
+    """Draw ``curves`` as a datasheet SOA picture at ``path`` (``.png`` or ``.jpg``); ``frame=False`` leaves the frame out."""
     fig = Figure(figsize=size_in, dpi=dpi)
     ax = fig.add_axes((0.13, 0.12, 0.82, 0.83))
     ax.set_xscale("log")
@@ -88,6 +89,7 @@ def draw_sheet(
     for spine in ax.spines.values():
         spine.set_color("black")
         spine.set_snap(False)
+        spine.set_visible(frame)
     for curve in curves:
         ax.plot(curve.voltage_v, curve.current_a, color="black", linewidth=line_width_pt, solid_joinstyle="miter")
         # a label beside the curve, above its middle vertex, as datasheets print them

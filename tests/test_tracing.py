@@ -384,3 +384,88 @@ def test_a_trace_goes_straight_through_crossings(tmp_path, crossings, known, see
     tolerance = 10 ** (1.5 / pixels_per_decade(crossings)) - 1 + 1e-3  # 1.5 px, as above
     assert rows["voltage"].to_numpy() == pytest.approx(vertices.voltage_v, rel=tolerance)
     assert rows["current"].to_numpy() == pytest.approx(vertices.current_a, rel=tolerance)
+
+
+def test_pixel_ticks_trace_a_picture_without_a_frame(tmp_path):
+    """No frame drawn: --x/--y pixel ticks (from matplotlib's transform) calibrate, the curve ends where its line does."""
+    sheet = draw_sheet(tmp_path / "bare.png", (DC,), frame=False)
+    (x1, x2), (y1, y2) = sheet.pixel([1.0, 100.0], [0.1, 100.0])
+    out = tmp_path / "soa.csv"
+    result = runner.invoke(
+        app,
+        [
+            "digitize",
+            "--image",
+            str(sheet.path),
+            "--x",
+            f"{x1:.2f}=1,{x2:.2f}=100",
+            "--y",
+            f"{y1:.2f}=0.1,{y2:.2f}=100",
+            "--trace",
+            "20:6.2=dc",
+            "--into",
+            str(out),
+        ],
+    )
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out)
+    tolerance = 10 ** (1.5 / pixels_per_decade(sheet)) - 1 + 1e-3  # 1.5 px, as above
+    assert rows["voltage"].to_numpy() == pytest.approx(DC.voltage_v, rel=tolerance)
+    assert rows["current"].to_numpy() == pytest.approx(DC.current_a, rel=tolerance)
+    refused = runner.invoke(
+        app,
+        ["digitize", "--image", str(sheet.path), *RANGES, "--trace", "20:6.2=dc", "--into", str(tmp_path / "b.csv")],
+    )
+    assert refused.exit_code == 2 and "no plot frame found" in refused.stderr  # ranges need the frame's edges
+
+
+@pytest.mark.parametrize(
+    ("args", "fragment"),
+    [
+        (["--trace", "20=dc"], "'20=dc' is not a seed"),
+        (["--trace", "a:b=dc"], "'a:b=dc' is not a seed"),
+        (["--trace", "20:5"], "names no pulse width"),
+        (["--trace", "20:5=1xs"], "1xs"),
+        (["--trace", "-1:5=dc"], "above zero"),
+        (["--trace", "nan:5=dc"], "finite"),
+        (["--trace", "20:6.2=dc", "--trace", "30:4=DC"], "given twice"),
+        (["--trace", "20:6.2=dc", "--zth"], "no pulse width"),
+        (["--trace", "500:6.2=dc"], "outside the plot's frame"),
+        (["--trace", "20:6.2=dc", "--x", "1=1,2=10"], "not both"),
+        (["--trace", "20:6.2=dc", "--linear-y"], "log-log"),
+        (["--trace", "20:6.2=dc", "--colour", "#000000"], "leave out"),
+        (["--overlay", "check.png", "--x", "1=1,2=10", "--y", "1=1,2=10", "--colour", "#000000"], "--overlay"),
+    ],
+    ids=lambda v: v if isinstance(v, str) else " ".join(v),
+)
+def test_bad_tracing_input_is_one_line_and_exit_2(tmp_path, small_sheet, args, fragment):
+    base = ["digitize", "--image", str(small_sheet.path), "--into", str(tmp_path / "soa.csv")]
+    ranges = [] if "--overlay" in args else RANGES
+    result = runner.invoke(app, [*base, *ranges, *args])
+    assert result.exit_code == 2, result.output
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and fragment in lines[0], result.stderr
+    assert not (tmp_path / "soa.csv").exists()
+
+
+@pytest.mark.parametrize(
+    ("x_range", "fragment"), [("100:1", "the lower first"), ("0:100", "above zero"), ("1-100", "LOW:HIGH")]
+)
+def test_bad_ranges_are_one_line_and_exit_2(tmp_path, small_sheet, x_range, fragment):
+    result = runner.invoke(
+        app,
+        [
+            "digitize",
+            "--image",
+            str(small_sheet.path),
+            "--x-range",
+            x_range,
+            "--y-range",
+            "0.1:100",
+            "--trace",
+            "20:6.2=dc",
+            "--into",
+            str(tmp_path / "soa.csv"),
+        ],
+    )
+    assert result.exit_code == 2 and fragment in result.stderr and "--x-range" in result.stderr, result.output

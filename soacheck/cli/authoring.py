@@ -149,7 +149,7 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
     overlay = output_path(overlay, "--overlay", force=force, suffixes=(".png",))
     picture = read_image(image)
     grey = grey_levels(picture)
-    frame = find_frame(grey)
+    frame = find_frame(grey, required=bool(x_range or y_range))  # pixel ticks need no frame
     x_axis = _axis(x, x_range, "--x", (frame.left, frame.right), grey, frame, horizontal=False)
     y_axis = _axis(y, y_range, "--y", (frame.bottom, frame.top), grey, frame, horizontal=True)
     curves = trace_curves(grey, frame, seeds, x_axis, y_axis)
