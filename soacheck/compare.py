@@ -41,7 +41,7 @@ class Candidate:
     part: str
     passes: bool
     margin: float | None
-    limit: str
+    limit: str | None  # None: a trajectory that stays inside everywhere names no limit
     min_count: int | None
     max_heatsink_rth: float | None
     max_case_temp: float | None
@@ -145,7 +145,7 @@ def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -
         part.id,
         result.passed,
         result.margin,
-        result.limit or "—",
+        result.limit,
         min_count,
         None,
         hottest,

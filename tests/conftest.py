@@ -8,10 +8,29 @@ import tempfile
 from pathlib import Path
 
 import pytest
+from typer.testing import CliRunner
 
 from soacheck.library import bundled_library, list_parts
 from soacheck.partfiles import read_part
 from soacheck.thermal import Foster
+
+from .helpers import check_json_output
+
+
+@pytest.fixture(autouse=True, scope="session")
+def _json_outputs_follow_their_schemas():
+    """Every ``--json`` output any test produces through a CliRunner is validated against its schema."""
+    original = CliRunner.invoke
+
+    def invoke(self, cli, args=None, *more, **kwargs):
+        result = original(self, cli, args, *more, **kwargs)
+        check_json_output(args, result)
+        return result
+
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(CliRunner, "invoke", invoke)
+        yield
+
 
 # A constructed DC curve (invented numbers): current limit 15 A to 8.3333 V,
 # constant power 125 W to 40 V, a second-breakdown line of slope -2 to 100 V.

@@ -24,7 +24,7 @@ from hypothesis import strategies as st
 from soacheck.limit_table import floor_to
 
 from .conftest import write_part
-from .helpers import invoke
+from .helpers import invoke, validate_output
 
 # By hand from the reference DC curve, one device at 25 °C, no resistors:
 HAND_A = {
@@ -87,7 +87,7 @@ def test_the_three_exports_and_json_output_carry_the_same_rounded_hand_values(tm
     assert printed.exit_code == 0, printed.output
 
     csv = pd.read_csv(files["csv"], comment="#")
-    exported = json.loads(files["json"].read_text(encoding="utf-8"))
+    exported = validate_output("envelope", files["json"].read_text(encoding="utf-8"))  # the --json schema
     volts_h, amps_h = header_arrays(files["h"].read_text(encoding="utf-8"))
     assert json.loads(printed.stdout) == exported  # --json prints what --export writes
     rows = exported["points"]

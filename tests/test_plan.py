@@ -24,6 +24,7 @@ from soacheck.demo import demo_plan_path
 from soacheck.report import slug
 
 from .conftest import write_part
+from .helpers import validate_output
 
 runner = CliRunner(env={"COLUMNS": "200"})
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
@@ -38,7 +39,7 @@ def demo_report(tmp_path_factory):
 
 
 def test_demo_plan_runs_end_to_end_with_every_job_kind(demo_report):
-    report = json.loads((demo_report / "report.json").read_text())
+    report = validate_output("run", (demo_report / "report.json").read_text())  # report.json is run --json
     kinds = {job["kind"] for job in report["jobs"]}
     assert kinds == {"points", "envelope", "discharge", "sweep", "trace", "compare"}
     for job in report["jobs"]:

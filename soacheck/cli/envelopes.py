@@ -184,7 +184,7 @@ def compare(
                 escape(c.part),
                 "[green]pass[/]" if c.passes else "[bold red]fail[/]",
                 "—" if c.margin is None else f"{c.margin:+.1%}",
-                c.limit,
+                c.limit or "—",
                 "—" if c.min_count is None else str(c.min_count),
                 "—" if headroom is None else f"{headroom:.3g}{unit}",
             )
