@@ -7,7 +7,6 @@ by :mod:`soacheck.tracing`.
 
 from __future__ import annotations
 
-import json
 import math
 import re
 from dataclasses import dataclass
@@ -16,7 +15,9 @@ import numpy as np
 
 from soacheck.calibration import AxisCalibration, Seed
 from soacheck.errors import SoacheckError
+from soacheck.files import toml_string
 from soacheck.parts import KINDS
+from soacheck.quantities import TJ_MAX
 from soacheck.units import parse_duration
 
 PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")
@@ -129,10 +130,10 @@ def part_toml(
 ) -> str:
     """The text of a ``part.toml`` (format in ``docs/part-format.md``)."""
     return (
-        f"id = {json.dumps(part_id)}\n"
-        f"kind = {json.dumps(kind)}\n"
-        f"description = {json.dumps(description)}\n"
-        f"source = {json.dumps(source)}\n\n"
+        f"id = {toml_string(part_id)}\n"
+        f"kind = {toml_string(kind)}\n"
+        f"description = {toml_string(description)}\n"
+        f"source = {toml_string(source)}\n\n"
         "[ratings]\n"
         f"v_max = {v_max_v!r}\ni_max = {i_max_a!r}\np_max = {p_max_w!r}\ntj_max = {tj_max_c!r}\n"
         f"rth_jc = {rth_jc_k_per_w!r}\n"
@@ -180,8 +181,10 @@ def soa_from_ratings(
     for name, value in (("--v-max", v_max_v), ("--i-max", i_max_a), ("--p-max", p_max_w), ("--rth-jc", rth_jc_k_per_w)):
         if not (math.isfinite(value) and value > 0):
             raise SoacheckError(f"{name} is {value:g}; it must be above zero")
-    if not tj_max_c > 25:
-        raise SoacheckError(f"--tj-max is {tj_max_c:g} °C; it must be above 25 °C")
+    TJ_MAX.check(tj_max_c, "--tj-max")
+    for name, value in (("--sb-knee", sb_knee_v), ("--sb-exponent", sb_exponent)):
+        if value is not None and not math.isfinite(value):
+            raise SoacheckError(f"{name} is {value:g}; give a finite number")
     warnings = []
     p_rth = (tj_max_c - 25.0) / rth_jc_k_per_w
     power = min(p_max_w, p_rth)

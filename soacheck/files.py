@@ -10,6 +10,7 @@ are :mod:`soacheck.jobfiles`.
 from __future__ import annotations
 
 import contextlib
+import csv
 import functools
 import math
 import os
@@ -27,6 +28,7 @@ import numpy as np
 from soacheck.battery import Trajectory
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.filemarks import written_by_soacheck
+from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -77,7 +79,8 @@ def _sniff(path: Path) -> tuple[str, list[str]]:
         raise SoacheckError(f"{path}: the file is empty; it needs a header line naming the columns")
     # Spreadsheets in locales with decimal commas export with ';' between columns.
     sep = ";" if ";" in header else ("\t" if "\t" in header else ",")
-    names = [name.strip().lower() for name in header.strip().split(sep)]
+    # a quoted header ("time","voltage") is valid CSV (RFC 4180, section 2): read it as CSV, not by splitting
+    names = [name.strip().lower() for name in next(csv.reader([header.strip()], delimiter=sep))]
     return sep, names
 
 
@@ -259,6 +262,8 @@ def _checked_chunks(path: Path | str, chunks):
     first_row = 0
     for frame in chunks:
         t, v, i = (frame[name].to_numpy(dtype=float) for name in TRACE_COLUMNS)
+        if t.size == 0:
+            continue
         for name, values in (("time", t), ("voltage", v), ("current", i)):
             bad = np.flatnonzero(~np.isfinite(values))
             if bad.size:
@@ -273,6 +278,12 @@ def _checked_chunks(path: Path | str, chunks):
                     f"{path} data row {first_row + int(bad[0]) + 1}: {name} {values[bad[0]]:g} is negative; "
                     "soacheck checks forward operation (record the magnitude, or leave out reverse conduction)"
                 )
+        for quantity, name, values in (
+            (TIME, "time", t),
+            (SAMPLE_VOLTAGE, "voltage", v),
+            (SAMPLE_CURRENT, "current", i),
+        ):
+            quantity.check_array(values, lambda k, n=name, r=first_row: f"{path} data row {r + k + 1}: {n}")
         previous = np.r_[last_t if last_t is not None else -np.inf, t[:-1]]
         bad = np.flatnonzero(t <= previous)
         if bad.size:
@@ -343,6 +354,31 @@ def _parquet_chunks(path: Path, chunk_rows: int):
         frame = batch.to_pandas()
         frame.columns = list(TRACE_COLUMNS)
         yield frame
+
+
+_TOML_ESCAPES = {"\\": "\\\\", '"': '\\"', "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f", "\r": "\\r"}
+
+
+def toml_string(text: str) -> str:
+    """``text`` as a TOML basic string, quotes included, valid for any Unicode text.
+
+    Backslash, quote and control characters are escaped as TOML 1.0 (section "String")
+    asks; every other character is written as itself in UTF-8, emoji included (a JSON
+    escape of an emoji is a surrogate pair, which TOML refuses). Lone surrogates, which
+    no UTF-8 file can hold, become U+FFFD.
+    """
+    out = []
+    for ch in text:
+        code = ord(ch)
+        if ch in _TOML_ESCAPES:
+            out.append(_TOML_ESCAPES[ch])
+        elif code < 0x20 or code == 0x7F:
+            out.append(f"\\u{code:04X}")
+        elif 0xD800 <= code <= 0xDFFF:
+            out.append("\ufffd")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
 
 
 def read_toml(path: str | Path, what: str) -> dict[str, Any]:

@@ -23,6 +23,7 @@ from soacheck.files import (
 )
 from soacheck.mosfet import TransferCurves
 from soacheck.parts import BIPOLAR_KINDS, KINDS, Part, Ratings, SoaCurve
+from soacheck.quantities import CURRENT, DURATION, THERMAL_RESISTANCE, VOLTAGE, Quantity
 from soacheck.units import format_duration, parse_duration
 
 PART_FILE = "part.toml"
@@ -381,6 +382,9 @@ def add_curves(path: Path, curves: dict[str, tuple[np.ndarray, np.ndarray]], *, 
     The folder is made when it does not exist.
     """
     path = Path(path)
+    for pulse, (voltage_v, current_a) in curves.items():
+        _digitized_values(voltage_v, f"curve '{pulse}': voltage", VOLTAGE)
+        _digitized_values(current_a, f"curve '{pulse}': current", CURRENT)
     labels = [format_duration(parse_duration(pulse, where="pulse")) for pulse in curves]
     if len(set(labels)) < len(labels):
         raise SoacheckError(f"pulse widths {', '.join(curves)}: a pulse width is given twice; one curve per width")
@@ -415,10 +419,20 @@ def add_curve(path: Path, pulse: str, voltage_v: np.ndarray, current_a: np.ndarr
     return add_curves(path, {pulse: (voltage_v, current_a)}, force=force)
 
 
+def _digitized_values(values: np.ndarray, what: str, quantity: Quantity) -> None:
+    """Refuse to write a digitized value that no curve can hold (NaN, zero or negative from a bad calibration)."""
+    quantity.check_array(
+        np.asarray(values, dtype=float),
+        lambda k: f"{what} of point {k + 1} (check the axis calibration, --x and --y)",
+    )
+
+
 def write_zth(path: Path, time_s: np.ndarray, zth_k_per_w: np.ndarray, *, force: bool = False) -> None:
     """Write ``zth.csv`` (one curve per part); an existing file is replaced only with ``force``."""
     path = Path(path)
     if path.is_file() and not force:
         raise SoacheckError(f"{path}: exists; add --force to replace it")
+    _digitized_values(time_s, "Zth curve: time", DURATION)
+    _digitized_values(zth_k_per_w, "Zth curve: zth", THERMAL_RESISTANCE)
     rows = [f"{significant(t)},{significant(z)}" for t, z in zip(time_s, zth_k_per_w, strict=True)]
     write_output(path, "\n".join(["time,zth", *rows]) + "\n")

@@ -147,6 +147,8 @@ TJ_MAX = _q("rated junction temperature", "°C", 25.0, TEMPERATURE_CEILING_C, lo
 VOLTAGE = _q("voltage", "V", 0.0, 1e6, low_open=True)
 CURRENT = _q("current", "A", 0.0, 1e6, low_open=True)
 IDLE_CURRENT = _q("current standing between pulses", "A", 0.0, 1e6)
+SAMPLE_VOLTAGE = _q("voltage", "V", 0.0, 1e6)
+SAMPLE_CURRENT = _q("current", "A", 0.0, 1e6)
 POWER = _q("power", "W", 0.0, 1e9, low_open=True)
 RESISTANCE = _q("resistance", "Ω", 0.0, 1e9)
 LOAD_RESISTANCE = _q("resistance", "Ω", 0.0, 1e9, low_open=True)

@@ -255,6 +255,286 @@ CASES: dict[str, Case] = {
 }
 
 
+def trace_case(text: str | bytes, fragment: str, *extra: str) -> Case:
+    return Case(("trace", PART, "t.csv", *extra), fragment, {"t.csv": text})
+
+
+def check_case(fragment: str, *args: str, files: dict[str, str | bytes] | None = None) -> Case:
+    return Case(("check", PART, *args), fragment, files or {})
+
+
+MORE: dict[str, Case] = {
+    # ------------------------------------------------------------------ traces
+    "trace header only": trace_case("time,voltage,current\n", "the trace has a header but no samples"),
+    "trace empty": trace_case("", "the file is empty"),
+    "trace binary": trace_case(b"\xff\xfe\x00\x01", "is not a UTF-8 text file"),
+    "trace time 1e308": trace_case("time,voltage,current\n-1e308,1,1\n1e308,1,1\n", "time is -1e+308; give a time"),
+    "trace time nan": trace_case("time,voltage,current\n0,1,1\nnan,1,1\n", "time is not a finite number"),
+    "trace voltage inf": trace_case("time,voltage,current\n0,inf,1\n1,1,1\n", "voltage is not a finite number"),
+    "trace current negative": trace_case("time,voltage,current\n0,1,-1\n1,1,1\n", "current -1 is negative"),
+    "trace current 1e9": trace_case("time,voltage,current\n0,1,1e9\n1,1,1\n", "current is 1 000 000 000; give a current"),
+    "trace time repeats": trace_case("time,voltage,current\n0,1,1\n0,1,1\n", "time 0 s repeats"),
+    "trace time backwards": trace_case("time,voltage,current\n1,1,1\n0,1,1\n", "goes backwards"),
+    "trace text cell": trace_case("time,voltage,current\n0,1,1\n1,one,1\n", "voltage 'one' is not a number"),
+    "trace misspelt column": trace_case("time,voltge,current\n0,1,1\n", "did you mean 'voltage'"),
+    "trace missing column": trace_case("time,voltage\n0,1\n", "missing column 'current'"),
+    "trace is a folder": Case(("trace", PART, "."), "is a folder"),
+    "trace case nan": trace_case(TRACE, "--case-temp is nan", "--case-temp", "nan"),
+    "trace case -inf": trace_case(TRACE, "--case-temp is -inf", "--case-temp=-inf"),
+    "trace case below absolute zero": trace_case(TRACE, "--case-temp is -300", "--case-temp=-300"),
+    "trace ambient nan with heatsink": trace_case(
+        TRACE, "--ambient is nan", "--heatsink-rth", "1", "--heatsink-capacity", "100", "--ambient", "nan"
+    ),
+    "trace ambient -inf with heatsink": trace_case(
+        TRACE, "--ambient is -inf", "--heatsink-rth", "1", "--heatsink-capacity", "100", "--ambient=-inf"
+    ),
+    "trace heatsink capacity inf": trace_case(
+        TRACE, "--heatsink-capacity is inf", "--heatsink-rth", "1", "--heatsink-capacity", "inf"
+    ),
+    "trace heatsink rth zero": trace_case(
+        TRACE, "--heatsink-rth is 0", "--heatsink-rth", "0", "--heatsink-capacity", "100"
+    ),
+    "trace interface negative": trace_case(
+        TRACE, "--interface-rth is -1", "--heatsink-rth", "1", "--heatsink-capacity", "100", "--interface-rth=-1"
+    ),
+    "trace heatsink half given": trace_case(TRACE, "needs both --heatsink-rth", "--heatsink-rth", "1"),
+    "trace chunk rows one": trace_case(TRACE, "--chunk-rows is 1", "--chunk-rows", "1"),
+    "trace plot under a file": Case(
+        ("trace", PART, "t.csv", "--plot", "f/p.png"),
+        "is a file, so no folder can be made there",
+        {"t.csv": TRACE, "f": "x"},
+    ),
+    "trace plot wrong suffix": trace_case(TRACE, "must end in .png", "--plot", "p.txt"),
+    "trace plot is a folder": Case(
+        ("trace", PART, "t.csv", "--plot", "d"), "is a folder", {"t.csv": TRACE, "d/x": "x"}
+    ),
+    "trace plot exists": Case(("trace", PART, "t.csv", "--plot", "p.png"), "exists", {"t.csv": TRACE, "p.png": "mine"}),
+    # ------------------------------------------------------------------ check and points files
+    "check case nan": check_case("--case-temp is nan", "-v", "10", "-i", "1", "--case-temp", "nan"),
+    "check case inf": check_case("--case-temp is inf", "-v", "10", "-i", "1", "--case-temp", "inf"),
+    "check case 2000": check_case("--case-temp is 2000", "-v", "10", "-i", "1", "--case-temp", "2000"),
+    "check voltage nan": check_case("--voltage is nan", "-v", "nan", "-i", "1"),
+    "check current inf": check_case("--current is inf", "-v", "10", "-i", "inf"),
+    "check current zero": check_case("--current is 0", "-v", "10", "-i", "0"),
+    "check duty zero": check_case("--duty is 0", "-v", "10", "-i", "1", "--pulse", "1ms", "--duty", "0"),
+    "check duty nan": check_case("--duty is nan", "-v", "10", "-i", "1", "--pulse", "1ms", "--duty", "nan"),
+    "check duty on dc": check_case("--duty needs a pulse width", "-v", "10", "-i", "1", "--duty", "0.5"),
+    "check pulse zero": check_case("must be longer than zero", "-v", "10", "-i", "1", "--pulse", "0ms"),
+    "check points and values": check_case("not both", "-v", "10", "-i", "1", "-p", "p.csv", files={"p.csv": POINTS}),
+    "points case -300": check_case(
+        "p.csv line 2: case_temp is -300; give a temperature above -273.15",
+        "-p",
+        "p.csv",
+        files={"p.csv": "voltage,current,case_temp\n10,1,-300\n"},
+    ),
+    "points case nan": check_case("case_temp", "-p", "p.csv", files={"p.csv": "voltage,current,case_temp\n10,1,nan\n"}),
+    "points voltage huge": check_case(
+        "p.csv line 2: voltage is 10 000 000", "-p", "p.csv", files={"p.csv": "voltage,current\n1e7,1\n"}
+    ),
+    "points duty above one": check_case("duty", "-p", "p.csv", files={"p.csv": "voltage,current,duty\n10,1,1.5\n"}),
+    "points quoted header misspelt": check_case(
+        "did you mean 'current'", "-p", "p.csv", files={"p.csv": '"voltage","curent"\n10,1\n'}
+    ),
+    "points header only": check_case("no rows", "-p", "p.csv", files={"p.csv": "voltage,current\n"}),
+    "show case list with nan": Case(
+        ("show", PART, "--case-temp", "25,nan", "--plot", "s.png"), "--case-temp: value 2 is nan"
+    ),
+    "show case list text": Case(("show", PART, "--case-temp", "25,hot", "--plot", "s.png"), "is not a list of numbers"),
+    # ------------------------------------------------------------------ stages on the command line
+    "sharing draws a trillion": Case(
+        ("sharing", "s.toml", "-i", "2", "-v", "20", "--draws", "1000000000000"), "--draws is 1e+12", {"s.toml": STAGE}
+    ),
+    "sharing draws zero": Case(
+        ("sharing", "s.toml", "-i", "2", "-v", "20", "--draws", "0"), "--draws is 0", {"s.toml": STAGE}
+    ),
+    "sharing percentile 101": Case(
+        ("sharing", "s.toml", "-i", "2", "-v", "20", "--percentile", "101"), "--percentile is 101", {"s.toml": STAGE}
+    ),
+    "sharing current nan": Case(("sharing", "s.toml", "-i", "nan", "-v", "20"), "--current is nan", {"s.toml": STAGE}),
+    "sharing voltage -inf": Case(("sharing", "s.toml", "-i", "2", "--voltage=-inf"), "--voltage is -inf", {"s.toml": STAGE}),
+    "sweep samples one": Case(
+        ("sweep", "s.toml", "--ramp", "current", "--from", "0", "--to", "6", "--at", "10", "--samples", "1"),
+        "--samples is 1",
+        {"s.toml": STAGE},
+    ),
+    "sweep samples 1e9": Case(
+        ("sweep", "s.toml", "--ramp", "current", "--from", "0", "--to", "6", "--at", "10", "--samples", "1000000000"),
+        "--samples is 1 000 000 000",
+        {"s.toml": STAGE},
+    ),
+    "sweep to nan": Case(
+        ("sweep", "s.toml", "--ramp", "current", "--from", "0", "--to", "nan", "--at", "10"),
+        "--to is nan",
+        {"s.toml": STAGE},
+    ),
+    "discharge cells zero": Case(
+        ("discharge", "s.toml", "-b", "nmc", "--cells", "0", "--capacity", "2", "--mode", "cc", "--setpoint", "1"),
+        "--cells is 0",
+        {"s.toml": STAGE},
+    ),
+    "discharge capacity inf": Case(
+        ("discharge", "s.toml", "-b", "nmc", "--cells", "4", "--capacity", "inf", "--mode", "cc", "--setpoint", "1"),
+        "--capacity is inf",
+        {"s.toml": STAGE},
+    ),
+    "discharge setpoint nan": Case(
+        ("discharge", "s.toml", "-b", "nmc", "--cells", "4", "--capacity", "2", "--mode", "cc", "--setpoint", "nan"),
+        "--setpoint is nan",
+        {"s.toml": STAGE},
+    ),
+    "envelope case nan": Case(("envelope", "s.toml", "--case-temp", "nan"), "--case-temp is nan", {"s.toml": STAGE}),
+    "envelope case inf": Case(("envelope", "s.toml", "--case-temp", "inf"), "--case-temp is inf", {"s.toml": STAGE}),
+    "envelope voltages with zero": Case(
+        ("envelope", "s.toml", "--voltages", "0,10"), "--voltages: value 1 is 0", {"s.toml": STAGE}
+    ),
+    "envelope export suffix": Case(("envelope", "s.toml", "--export", "t.txt"), "--export", {"s.toml": STAGE}),
+    "compare trace case nan": Case(
+        ("compare", PART, "--trace", "t.csv", "--case-temp", "nan"), "--case-temp is nan", {"t.csv": TRACE}
+    ),
+    "compare trace case -inf": Case(
+        ("compare", PART, "--trace", "t.csv", "--case-temp=-inf"), "--case-temp is -inf", {"t.csv": TRACE}
+    ),
+    # ------------------------------------------------------------------ adding parts
+    "new-part tj_max inf": Case(
+        (
+            "new-part",
+            "p1",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "inf",
+            "--rth-jc",
+            "1",
+        ),
+        "--tj-max is inf; give a rated junction temperature",
+    ),
+    "new-part tj_max nan": Case(
+        (
+            "new-part",
+            "p1",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "nan",
+            "--rth-jc",
+            "1",
+        ),
+        "--tj-max is nan",
+    ),
+    "new-part v_max inf": Case(
+        (
+            "new-part",
+            "p1",
+            "--kind",
+            "npn",
+            "--v-max",
+            "inf",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1",
+        ),
+        "--v-max is inf",
+    ),
+    "new-part bad id": Case(
+        (
+            "new-part",
+            "../up",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1",
+        ),
+        "not usable as a folder name",
+    ),
+    "new-part into a file": Case(
+        (
+            "new-part",
+            "p1",
+            "--kind",
+            "npn",
+            "--v-max",
+            "100",
+            "--i-max",
+            "10",
+            "--p-max",
+            "100",
+            "--tj-max",
+            "150",
+            "--rth-jc",
+            "1",
+            "--into",
+            "f",
+        ),
+        "is a file",
+        {"f": "x"},
+    ),
+    "digitize negative linear axis": Case(
+        ("digitize", "px.csv", "--x", "0=-10,300=100", "--y", "0=100,300=1", "--linear-x", "--into", "soa.csv"),
+        "voltage of point 1 (check the axis calibration, --x and --y) is -6.33333",
+        {"px.csv": "x,y\n10,100\n200,150\n"},
+    ),
+    "digitize nan axis": Case(
+        ("digitize", "px.csv", "--x", "0=nan,300=100", "--y", "0=100,300=1", "--into", "soa.csv"),
+        "must be finite",
+        {"px.csv": "x,y\n10,100\n200,150\n"},
+    ),
+    "digitize zero on log axis": Case(
+        ("digitize", "px.csv", "--x", "0=0,300=100", "--y", "0=100,300=1", "--into", "soa.csv"),
+        "above zero",
+        {"px.csv": "x,y\n10,100\n200,150\n"},
+    ),
+    "digitize into a folder": Case(
+        ("digitize", "px.csv", "--x", "0=1,300=100", "--y", "0=100,300=1", "--into", "d"),
+        "is a folder",
+        {"px.csv": "x,y\n10,100\n200,150\n", "d/x": "x"},
+    ),
+    "digitize pixels nan": Case(
+        ("digitize", "px.csv", "--x", "0=1,300=100", "--y", "0=100,300=1", "--into", "soa.csv"),
+        "not a finite number",
+        {"px.csv": "x,y\nnan,100\n200,150\n"},
+    ),
+    # ------------------------------------------------------------------ run
+    "run out is a file": Case(
+        ("run", "plan.toml", "-o", "o"),
+        "is a file, not a folder",
+        {**plan('[[points]]\nfile = "points.csv"\n'), "o": "x"},
+    ),
+    "run out under a file": Case(
+        ("run", "plan.toml", "-o", "f/out"),
+        "is a file, so no folder",
+        {**plan('[[points]]\nfile = "points.csv"\n'), "f": "x"},
+    ),
+    "run plan missing": Case(("run", "nope.toml", "-o", "out"), "no such plan file"),
+    "run plan is a folder": Case(("run", ".", "-o", "out"), "is a folder, not a plan file"),
+}
+CASES.update(MORE)
+
+
 @pytest.mark.parametrize("name", list(CASES), ids=list(CASES))
 def test_bad_input_gives_its_exit_code_and_one_line_naming_the_problem(name, tmp_path, monkeypatch):
     case = CASES[name]
