@@ -272,7 +272,9 @@ MORE: dict[str, Case] = {
     "trace time nan": trace_case("time,voltage,current\n0,1,1\nnan,1,1\n", "time is not a finite number"),
     "trace voltage inf": trace_case("time,voltage,current\n0,inf,1\n1,1,1\n", "voltage is not a finite number"),
     "trace current negative": trace_case("time,voltage,current\n0,1,-1\n1,1,1\n", "current -1 is negative"),
-    "trace current 1e9": trace_case("time,voltage,current\n0,1,1e9\n1,1,1\n", "current is 1 000 000 000; give a current"),
+    "trace current 1e9": trace_case(
+        "time,voltage,current\n0,1,1e9\n1,1,1\n", "current is 1 000 000 000; give a current"
+    ),
     "trace time repeats": trace_case("time,voltage,current\n0,1,1\n0,1,1\n", "time 0 s repeats"),
     "trace time backwards": trace_case("time,voltage,current\n1,1,1\n0,1,1\n", "goes backwards"),
     "trace text cell": trace_case("time,voltage,current\n0,1,1\n1,one,1\n", "voltage 'one' is not a number"),
@@ -351,7 +353,9 @@ MORE: dict[str, Case] = {
         ("sharing", "s.toml", "-i", "2", "-v", "20", "--percentile", "101"), "--percentile is 101", {"s.toml": STAGE}
     ),
     "sharing current nan": Case(("sharing", "s.toml", "-i", "nan", "-v", "20"), "--current is nan", {"s.toml": STAGE}),
-    "sharing voltage -inf": Case(("sharing", "s.toml", "-i", "2", "--voltage=-inf"), "--voltage is -inf", {"s.toml": STAGE}),
+    "sharing voltage -inf": Case(
+        ("sharing", "s.toml", "-i", "2", "--voltage=-inf"), "--voltage is -inf", {"s.toml": STAGE}
+    ),
     "sweep samples one": Case(
         ("sweep", "s.toml", "--ramp", "current", "--from", "0", "--to", "6", "--at", "10", "--samples", "1"),
         "--samples is 1",
@@ -521,7 +525,7 @@ MORE: dict[str, Case] = {
     # ------------------------------------------------------------------ run
     "run out is a file": Case(
         ("run", "plan.toml", "-o", "o"),
-        "is a file, not a folder",
+        "o: exists",
         {**plan('[[points]]\nfile = "points.csv"\n'), "o": "x"},
     ),
     "run out under a file": Case(
