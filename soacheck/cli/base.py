@@ -15,7 +15,6 @@ from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Annotated, Any
 
-import click
 import numpy as np
 import typer
 from rich.console import Console
@@ -138,7 +137,8 @@ def user_errors(command):
         except SoacheckError as err:
             typer.echo(f"soacheck: error: {err}", err=True)
             raise typer.Exit(2) from None
-        except (typer.Exit, typer.Abort, click.exceptions.ClickException, KeyboardInterrupt, SystemExit):
+        except (typer.Exit, typer.Abort, typer.TyperException, KeyboardInterrupt, SystemExit):
+            # typer's own exits and usage errors (TyperException is the base of its bundled click's errors)
             raise
         except MemoryError:
             typer.echo("soacheck: error: not enough memory for this input; check fewer samples or devices", err=True)
