@@ -16,9 +16,9 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-from soacheck.calibration import AxisCalibration, Seed
+from soacheck.calibration import AxisCalibration, Seed, decades_disagree, range_calibration
 from soacheck.errors import SoacheckError
-from soacheck.picture import Frame, dark_mask, stroke_width_px
+from soacheck.picture import Frame, dark_mask, decades_seen, grid_lines, stroke_width_px
 from soacheck.vertices import SIMPLIFY_DECADES, sharpen, simplify
 
 SEED_RADIUS_PX = 15.0  # a seed must lie this close to a curve (reading a value by eye is good to a few px)
@@ -244,6 +244,38 @@ def follow_curve(mask: np.ndarray, grey: np.ndarray, runs: ColumnRuns, seeded: S
 
 
 # --------------------------------------------------------------------------- from seeds to curves
+
+
+def framed_axis(
+    grey: np.ndarray, frame: Frame, value_range: tuple[float, float], *, vertical: bool, name: str
+) -> AxisCalibration:
+    """A log axis with ``value_range`` at the frame's edges, checked against the decades of the grid.
+
+    Parameters
+    ----------
+    grey
+        Grey levels, shape ``(rows, columns)``.
+    frame
+        The plot's frame.
+    value_range
+        The values at the low and the high edge (left and right, or bottom and top).
+    vertical
+        True for the y axis.
+    name
+        How the range is named in a message, such as ``--y-range 0.1:100``.
+
+    Raises
+    ------
+    SoacheckError
+        When the range spans a different number of decades than the grid shows.
+    """
+    edges = (frame.bottom, frame.top) if vertical else (frame.left, frame.right)
+    axis = range_calibration(*edges, value_range, log=True)
+    seen = decades_seen(grid_lines(grey, frame, horizontal=vertical), abs(edges[1] - edges[0]))
+    disagreement = decades_disagree(axis, seen, name)
+    if disagreement:
+        raise SoacheckError(disagreement)
+    return axis
 
 
 @dataclass(frozen=True)

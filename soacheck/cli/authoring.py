@@ -20,7 +20,7 @@ from soacheck.authoring import (
     pixels_to_values,
     soa_from_ratings,
 )
-from soacheck.calibration import AxisCalibration, decades_disagree, parse_range, range_calibration
+from soacheck.calibration import AxisCalibration, parse_range
 from soacheck.cli.base import (
     ForceOpt,
     JsonOpt,
@@ -150,8 +150,8 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
     picture = read_image(image)
     grey = grey_levels(picture)
     frame = find_frame(grey, required=bool(x_range or y_range))  # pixel ticks need no frame
-    x_axis = _axis(x, x_range, "--x", (frame.left, frame.right), grey, frame, horizontal=False)
-    y_axis = _axis(y, y_range, "--y", (frame.bottom, frame.top), grey, frame, horizontal=True)
+    x_axis = _axis(x, x_range, "--x", grey, frame, vertical=False)
+    y_axis = _axis(y, y_range, "--y", grey, frame, vertical=True)
     curves = trace_curves(grey, frame, seeds, x_axis, y_axis)
     for curve in curves:
         if curve.note:
@@ -173,9 +173,9 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
         typer.echo(f"added {written} points of {len(curves)} curve(s) to {target}")
 
 
-def _axis(ticks, value_range, option, edges, grey, frame, *, horizontal) -> AxisCalibration:
+def _axis(ticks, value_range, option, grey, frame, *, vertical) -> AxisCalibration:
     """An axis from pixel ticks, or from its range put on the frame's edges and checked against the grid."""
-    from soacheck.picture import decades_seen, grid_lines
+    from soacheck.tracing import framed_axis
 
     if ticks and value_range:
         raise SoacheckError(f"give {option} (pixel ticks) or {option}-range (values at the frame's edges), not both")
@@ -183,30 +183,19 @@ def _axis(ticks, value_range, option, edges, grey, frame, *, horizontal) -> Axis
         return AxisCalibration.parse(ticks, log=True, option=option)
     if not value_range:
         raise SoacheckError(f"give the axis calibration: {option}-range LOW:HIGH, or {option} PX1=V1,PX2=V2")
-    axis = range_calibration(*edges, parse_range(value_range, log=True, option=f"{option}-range"), log=True)
-    lines = grid_lines(grey, frame, horizontal=horizontal)
-    disagreement = decades_disagree(
-        axis, decades_seen(lines, abs(edges[1] - edges[0])), f"{option}-range {value_range}"
-    )
-    if disagreement:
-        raise SoacheckError(disagreement)
-    return axis
+    span = parse_range(value_range, log=True, option=f"{option}-range")
+    return framed_axis(grey, frame, span, vertical=vertical, name=f"{option}-range {value_range}")
 
 
 def _write_overlay(path: Path, picture: np.ndarray, curves) -> None:
-    """The overlay picture, pixel for pixel over the original, written atomically."""
+    """The overlay picture, pixel for pixel over the original, marked as soacheck's and written atomically."""
     import io
-
-    from matplotlib.figure import Figure
 
     from soacheck.filemarks import figure_metadata
     from soacheck.tracing import plot_overlay
 
-    rows, columns = picture.shape[:2]
-    figure = Figure(figsize=(columns / 100, rows / 100), dpi=100)
-    plot_overlay(picture, curves, ax=figure.add_axes((0, 0, 1, 1)))
     buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=100, metadata=figure_metadata(path))
+    plot_overlay(picture, curves).figure.savefig(buffer, format="png", dpi=100, metadata=figure_metadata(path))
     write_output(path, buffer.getvalue())
 
 
