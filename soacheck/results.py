@@ -319,7 +319,7 @@ class StageRunResult(Result):
         return jsonable({"test": self.test, **self.run.summary(), **self.extra, "assumptions": list(self.assumptions)})
 
     def to_frame(self) -> pd.DataFrame:
-        """One row per device and sample (long format): time [s], device (from 0), source_voltage [V],
+        """One row per device and sample (long format): time [s], device (from 1, as Q1), source_voltage [V],
         total_current [A], voltage [V] and current [A] of the device, power [W], case_temp, tj,
         heatsink_temp [°C], allowed_current [A], margin (fraction), limit."""
         run = self.run
@@ -327,7 +327,7 @@ class StageRunResult(Result):
         return _pd().DataFrame(
             {
                 "time": np.tile(run.time_s, n),
-                "device": np.repeat(np.arange(n), m),
+                "device": np.repeat(np.arange(1, n + 1), m),
                 "source_voltage": np.tile(run.source_v, n),
                 "total_current": np.tile(run.total_a, n),
                 "voltage": run.device_v.ravel(),
@@ -473,7 +473,7 @@ class EnvelopeResult(Result):
         return jsonable(self.check.summary())
 
     def to_frame(self) -> pd.DataFrame:
-        """One row per device and edge point: source_voltage [V], total_current [A], device (from 0),
+        """One row per device and edge point: source_voltage [V], total_current [A], device (from 1, as Q1),
         voltage [V], current [A], case_temp, tj [°C], allowed_current [A], margin, limit."""
         c = self.check
         n, m = c.margin.shape
@@ -481,7 +481,7 @@ class EnvelopeResult(Result):
             {
                 "source_voltage": np.tile(c.source_v, n),
                 "total_current": np.tile(c.total_a, n),
-                "device": np.repeat(np.arange(n), m),
+                "device": np.repeat(np.arange(1, n + 1), m),
                 "voltage": c.state.device_v.ravel(),
                 "current": c.state.device_a.ravel(),
                 "case_temp": c.state.case_c.ravel(),
