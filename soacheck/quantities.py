@@ -41,6 +41,9 @@ MAX_COUNT = 10_000
 MAX_DRAWS = 1_000_000
 """Most Monte Carlo draws of one sharing estimate."""
 
+MAX_DEVICE_DRAWS = 100_000_000
+"""Most devices × draws of one Monte Carlo sharing estimate (about a minute of work)."""
+
 MIN_SAMPLES = 10
 MAX_SAMPLES = 1_000_000
 """Fewest and most time samples of a planned trajectory (discharge, sweep)."""

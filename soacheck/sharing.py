@@ -16,6 +16,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from soacheck.errors import SoacheckError
+from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory
+
 if TYPE_CHECKING:
     from soacheck.stage import Stage
 
@@ -169,6 +172,18 @@ def sharing_monte_carlo(
     is called after each batch.
     """
     n = stage.count
+    DRAWS.check(draws, "draws")
+    # about 8 arrays of (devices, batch) float64 per batch; the work grows with devices x draws
+    check_memory(
+        8 * 8 * n * min(batch, draws),
+        f"Monte Carlo batches of {min(batch, draws)} draws of {n} devices",
+        "use fewer devices",
+    )
+    if n * draws > MAX_DEVICE_DRAWS:
+        raise SoacheckError(
+            f"{draws} draws of {n} devices is {n * draws:.3g} device solutions, more than the "
+            f"{MAX_DEVICE_DRAWS:.0e} soacheck does in one run (minutes of work); use fewer draws"
+        )
     rng = np.random.default_rng(seed)
     part = stage.part
     r_cs = stage.cooling.case_sink_k_per_w if stage.cooling else 0.0

@@ -19,6 +19,7 @@ from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.points import overload_of
+from soacheck.quantities import check_memory
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
@@ -143,6 +144,8 @@ def run_stage(
     src = np.asarray(source_v, dtype=float)
     total = np.asarray(total_a, dtype=float)
     n, m = stage.count, t.size
+    # about 20 arrays of (devices, samples) float64 live at once: currents, voltages, powers, temperatures, checks
+    check_memory(20 * 8 * n * m, f"a run of {n} devices over {m} samples", "use fewer samples or fewer devices")
     junction, junction_note = _junction_network(part)
     rth_diff = part.ratings.rth_jc_k_per_w + (stage.cooling.case_sink_k_per_w if stage.cooling else 0.0)
     bipolar = part.is_bipolar

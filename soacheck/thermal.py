@@ -256,6 +256,51 @@ def _poly_trim(a: list[Fraction]) -> list[Fraction]:
     return a
 
 
+MERGE_REL_TOL = 1e-3
+"""Foster time constants closer than this, relatively, are merged into one term."""
+
+
+def merge_close_time_constants(foster: Foster, *, rel_tol: float = MERGE_REL_TOL) -> Foster:
+    """Merge Foster terms whose time constants differ by at most ``rel_tol`` (relative) into one.
+
+    The rule: sort the terms by τ; a term joins the group of the term that opened it
+    while τ ≤ τ_open·(1 + rel_tol); each group becomes one term with R = ΣRᵢ and
+    τ = ΣRᵢτᵢ/ΣRᵢ, which keeps Zth(∞) = ΣR and the area ∫(Zth(∞) − Zth(t))dt = ΣRτ
+    exactly; Zth(t) itself changes by less than ΣRᵢ·rel_tol/e (common practice, no source;
+    the bound from |∂Zth/∂τ| = (R t/τ²)e^(−t/τ) ≤ R/(eτ)). Two such terms are one pole to
+    any measurement, and left apart they make the Cauer ladder degenerate (capacities
+    near zero, time constants of its modes near zero or negative).
+
+    Parameters
+    ----------
+    foster
+        The network.
+    rel_tol
+        Largest relative difference of time constants that are merged. [1]
+
+    Returns
+    -------
+    Foster
+        The network with close terms merged, time constants rising; the same network
+        (sorted) when no two are close.
+    """
+    order = np.argsort(foster.tau_s, kind="stable")
+    tau = foster.tau_s[order]
+    r = foster.r_k_per_w[order]
+    group = np.zeros(tau.size, dtype=int)
+    opened = tau[0]
+    for k in range(1, tau.size):  # a handful of terms: a loop reads best
+        if tau[k] <= opened * (1.0 + rel_tol):
+            group[k] = group[k - 1]
+        else:
+            group[k] = group[k - 1] + 1
+            opened = tau[k]
+    r_sum = np.bincount(group, weights=r)
+    tau_mean = np.bincount(group, weights=r * tau) / np.where(r_sum != 0, r_sum, 1.0)
+    tau_mean = np.where(r_sum != 0, tau_mean, np.bincount(group, weights=tau) / np.bincount(group))
+    return Foster(r_sum, tau_mean)
+
+
 def foster_to_cauer(foster: Foster) -> Cauer:
     """Convert a Foster network to the Cauer ladder with the same junction impedance.
 
@@ -270,9 +315,9 @@ def foster_to_cauer(foster: Foster) -> Cauer:
     """
     if np.any(foster.r_k_per_w <= 0):
         raise SoacheckError("Foster resistances must be above zero to form a Cauer ladder")
-    # equal time constants are one branch: merge them, or the expansion degenerates
-    tau, index = np.unique(foster.tau_s, return_inverse=True)
-    r_merged = np.bincount(index, weights=foster.r_k_per_w)
+    # nearly equal time constants are one branch: merge them, or the ladder degenerates
+    merged = merge_close_time_constants(foster)
+    tau, r_merged = merged.tau_s, merged.r_k_per_w
     # Z = N/D as polynomials in s, highest power first, exact
     numerator = [Fraction(0)]
     denominator = [Fraction(1)]

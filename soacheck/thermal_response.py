@@ -156,8 +156,10 @@ def _branch_any_step(t: np.ndarray, p: np.ndarray, r: float, tau: float, theta0:
     s = (t - t[0]) / tau
     drive = r * -np.expm1(-np.diff(s)) * p[:-1]  # enters at sample j + 1
     out = np.empty(t.size)
-    marks = np.arange(_BLOCK_EXPONENT, s[-1] + _BLOCK_EXPONENT, _BLOCK_EXPONENT)
-    bounds = np.unique(np.r_[0, np.searchsorted(s, marks), t.size])
+    # blocks: the samples sharing floor(s / 600), found per sample, so a waveform spanning
+    # many more time constants than it has samples needs no more blocks than samples
+    block = np.floor(s / _BLOCK_EXPONENT)
+    bounds = np.r_[0, np.flatnonzero(np.diff(block)) + 1, t.size]
     carry = theta0
     for start, stop in zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=True):
         if start > 0:
