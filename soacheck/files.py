@@ -342,7 +342,8 @@ def _parquet_chunks(path: Path, chunk_rows: int):
             f"{path}: reading Parquet needs pyarrow; `pip install pyarrow`, or save the trace as CSV"
         ) from None
     try:
-        handle = pq.ParquetFile(path)
+        # without pre-buffering: the reader then holds only the batch being read, not every one
+        handle = pq.ParquetFile(path, pre_buffer=False, buffer_size=1 << 20)
     except (OSError, ValueError) as err:
         raise SoacheckError(f"{path}: not a readable Parquet file ({err})") from None
     names = [n.lower() for n in handle.schema_arrow.names]

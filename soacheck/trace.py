@@ -32,6 +32,7 @@ from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import ThermalState, temperature_rise
+from soacheck.thinning import PeakThinner
 from soacheck.units import format_duration
 
 
@@ -116,7 +117,8 @@ class TraceChecker:
     breakdown
         Derating of second breakdown or instability.
     plot_points
-        About how many samples to keep for plots.
+        At most how many samples to keep for plots: bins over the whole trace, each keeping
+        the samples where a plotted quantity is at its lowest or highest (0: none).
     """
 
     def __init__(
@@ -184,8 +186,10 @@ class TraceChecker:
         self.excursions = 0
         self.open: OpenRun | None = None
         self.worst = _Worst()
-        self.plot_points = plot_points
-        self.kept: list[tuple[np.ndarray, ...]] = []
+        names = ("time", "voltage", "current", "case_temp", *(("tj",) if self.junction is not None else ()), "margin")
+        # each bin keeps the samples of highest voltage, current and junction temperature and of least margin
+        keys = 3 + (self.junction is not None)
+        self.thinner = PeakThinner(plot_points // keys, names, keys) if plot_points >= keys else None
 
     # ----------------------------------------------------------------- evaluation
 
@@ -236,6 +240,7 @@ class TraceChecker:
 
         excess = self._excess(self.dc, v, i, tc)
         k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
+        has_nan = bool(np.isnan(excess[k]))  # argmax finds a NaN first if there is one
         if excess[k] > 0 or np.isnan(excess[k]):
             outside = excess > 0
             worst_inside = np.fmax.reduce(excess, where=~outside, initial=-np.inf)
@@ -250,7 +255,7 @@ class TraceChecker:
             self._excursions(t, v, i, tc, outside, excess)
         if np.isfinite(worst_inside):
             self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
-        self._keep_for_plot(t, v, i, tc, rise_j, excess)
+        self._keep_for_plot(t, v, i, tc, rise_j, excess, nan_excess=has_nan)
         self.samples += t.size
         self.last_t, self.last_p = float(t[-1]), float(p[-1])
 
@@ -274,7 +279,6 @@ class TraceChecker:
         starts, ends = run_edges(outside)
         lengths = ends - starts
         offsets = np.r_[0, np.cumsum(lengths)[:-1]]
-        run_of = np.repeat(np.arange(starts.size), lengths)
         margins = np.empty((n_b, rows.size))
         for b in range(n_b):
             sub = excess[rows] if b == self.dc else self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
@@ -287,7 +291,9 @@ class TraceChecker:
         negative = margins < 0
         position = np.arange(rows.size)
         min_margin = np.minimum.reduceat(margins, offsets, axis=1)  # (boundaries, runs)
-        arg_min = np.stack([np.lexsort((m, run_of))[offsets] for m in margins])
+        # the first sample of each run at its least margin: linear, where a sort per run was not
+        at_min = margins == np.repeat(min_margin, lengths, axis=1)
+        arg_min = np.minimum.reduceat(np.where(at_min, position, rows.size), offsets, axis=1)
         first_negative = np.minimum.reduceat(np.where(negative, position, rows.size), offsets, axis=1)
         negative_s = np.add.reduceat(np.where(negative, hold, 0.0), offsets, axis=1)
         vit = np.column_stack([v[rows], i[rows], np.full(rows.size, self.reference_c) if tc is None else tc[rows]])
@@ -367,11 +373,19 @@ class TraceChecker:
             self.time_outside += float(run.negative_s[b])
             self.worst.violation(float(run.first_negative_s[b]), run.first_negative_sample[b])
 
-    def _keep_for_plot(self, t, v, i, tc, rise_j, excess) -> None:
-        keep = slice(None, None, max(1, t.size // max(1, self.plot_points // 10)))
-        case = np.full(t[keep].size, self.reference_c) if tc is None else tc[keep]
-        tj = None if rise_j is None else self.reference_c + rise_j[keep]
-        self.kept.append((t[keep], v[keep], i[keep], case, tj, excess_margin(excess[keep])))
+    def _keep_for_plot(self, t, v, i, tc, rise_j, excess, *, nan_excess: bool) -> None:
+        if self.thinner is None:
+            return
+        if nan_excess:  # zero current where nothing is allowed: margin 1, never the least
+            excess = np.where(np.isnan(excess), -np.inf, excess)
+        heat = [] if rise_j is None else [rise_j]
+
+        def columns_at(k: np.ndarray) -> list[np.ndarray]:
+            case = np.full(k.size, self.reference_c) if tc is None else tc[k]
+            tj = [] if rise_j is None else [self.reference_c + rise_j[k]]
+            return [t[k], v[k], i[k], case, *tj, excess_margin(excess[k])]
+
+        self.thinner.add([v, i, *heat, excess], columns_at)
 
     # ----------------------------------------------------------------- result
 
@@ -397,13 +411,7 @@ class TraceChecker:
                 )
         violated = math.isfinite(self.worst.violation_time)
         worst = self.worst.margin
-        plot = {}
-        if self.kept:
-            names = ("time", "voltage", "current", "case_temp", "tj", "margin")
-            for n, name in enumerate(names):
-                pieces = [k[n] for k in self.kept if k[n] is not None]
-                if pieces:
-                    plot[name] = np.concatenate(pieces)
+        plot = self.thinner.result() if self.thinner is not None else {}
         return TraceResult(
             part_id=self.part.id,
             passed=not violated,
