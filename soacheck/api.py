@@ -34,9 +34,10 @@ from soacheck.envelope import Envelope, check_envelope, largest_safe_envelope
 from soacheck.errors import SoacheckError, choose
 from soacheck.files import check_output, iter_trace, iter_trace_frame, read_toml, read_trace
 from soacheck.jobfiles import battery_from, discharge_from_table, read_envelope, read_points
-from soacheck.library import find_part, library_folders, list_parts, read_stage
+from soacheck.library import find_part, find_part_folder, library_folders, list_parts, read_stage
 from soacheck.limit_table import limit_table
-from soacheck.partfiles import read_part
+from soacheck.lint import lint_part
+from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
@@ -62,6 +63,7 @@ from soacheck.results import (
     CheckResult,
     CompareResult,
     EnvelopeResult,
+    LintResult,
     PlanResult,
     SafeEnvelopeResult,
     SharingResult,
@@ -106,6 +108,7 @@ __all__ = [
     "discharge",
     "envelope",
     "load_part",
+    "lint",
     "load_stage",
     "parts",
     "run_plan",
@@ -937,3 +940,29 @@ def run_plan(
     if out is not None:
         result.write_report(out, force=force)
     return result
+
+
+def lint(part: str | Path, *, library: Library = None) -> LintResult:
+    """Check a part folder for digitizing mistakes, each finding with its file, line and fix (``soacheck lint``).
+
+    Parameters
+    ----------
+    part
+        The path of a part folder, or a part id in the libraries.
+    library
+        Folders of user part folders, for a part given by id.
+
+    Returns
+    -------
+    LintResult
+        The findings, errors first; ``verdict`` ``fail`` when any is an error.
+
+    Raises
+    ------
+    SoacheckError
+        An unknown id or a folder without ``part.toml``; a malformed file is a finding, not an error.
+    """
+    folder = Path(part)
+    if not (folder / PART_FILE).is_file():
+        folder = find_part_folder(str(part), _folders(library))
+    return LintResult(folder, tuple(lint_part(folder)))

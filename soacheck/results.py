@@ -33,6 +33,7 @@ from soacheck.envelope import Envelope, EnvelopeCheck, SafeEnvelope
 from soacheck.errors import SoacheckError
 from soacheck.jsonvalues import json_chunks, json_text, jsonable
 from soacheck.limit_table import LimitTable, export_writer
+from soacheck.lint import Finding
 from soacheck.parts import Part
 from soacheck.plan import Plan
 from soacheck.points import PointCheck
@@ -804,3 +805,60 @@ def refuse_report_folder(out: Path, force: bool) -> None:
 
     if out.exists() and not (out / REPORT_MARKER).is_file() and not force:
         raise SoacheckError(f"{out}: exists and holds no soacheck report; choose another -o or add --force")
+
+
+# --------------------------------------------------------------------------- part folders
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class LintResult(Result):
+    """A part folder checked for digitizing mistakes (``soacheck lint``).
+
+    ``passed`` is False when any finding is an error (warnings pass); ``margin`` is NaN and
+    ``limit`` None, since no operating point is checked.
+
+    Attributes
+    ----------
+    folder
+        The part folder.
+    findings
+        Each finding's severity (``error`` / ``warning``), file, line (0 when the whole file) and message with its fix.
+    """
+
+    folder: Path
+    findings: tuple[Finding, ...]
+
+    @property
+    def passed(self) -> bool:
+        return not any(f.severity == "error" for f in self.findings)
+
+    @property
+    def margin(self) -> float:
+        return math.nan
+
+    @property
+    def limit(self) -> str | None:
+        return None
+
+    @property
+    def assumptions(self) -> tuple[str, ...]:
+        return ()
+
+    def to_dict(self) -> dict[str, Any]:
+        return jsonable({"part": self.folder.name, "findings": [f.as_dict() for f in self.findings]})
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per finding, errors first: severity, file, row, message."""
+        return _pd().DataFrame([f.as_dict() for f in self.findings], columns=["severity", "file", "row", "message"])
+
+    def plot(self, ax: Axes | None = None) -> Axes:
+        """The part's digitized curves, each segment coloured by the mechanism its slope implies.
+
+        Raises
+        ------
+        SoacheckError
+            When the part cannot be read (fix the errors first).
+        """
+        from soacheck.partfiles import read_part
+
+        return _plots().plot_soa(read_part(self.folder), ax=ax)

@@ -33,8 +33,6 @@ from soacheck.cli.base import (
 )
 from soacheck.errors import SoacheckError
 from soacheck.files import read_image, read_table
-from soacheck.library import find_part_folder, library_folders
-from soacheck.lint import lint_part
 from soacheck.partfiles import (
     PART_FILE,
     SOA_FILE,
@@ -227,13 +225,13 @@ def lint(
     as_json: JsonOpt = False,
 ) -> None:
     """Check a part folder for digitizing mistakes; each finding with its file, row and fix."""
-    folder = Path(part)
-    if not (folder / PART_FILE).is_file():
-        folder = find_part_folder(part, library_folders(library or []))
-    findings = lint_part(folder)
+    from soacheck import api
+
+    result = api.lint(part, library=library)
+    folder, findings = result.folder, result.findings
     errors = sum(f.severity == "error" for f in findings)
     if as_json:
-        echo_json({"part": folder.name, "findings": [f.as_dict() for f in findings]})
+        echo_json(result.to_dict())
     else:
         console = console_for_output()
         for f in findings:
