@@ -48,3 +48,43 @@ def check_json_output(args, result) -> None:
     words = shlex.split(args) if isinstance(args, str) else [str(a) for a in (args or [])]
     if "--json" in words and result.exit_code in (0, 1) and words[0] not in ("-h", "--help"):
         validate_output(words[0], result.stdout)
+
+
+# --------------------------------------------------------------------------- closed forms, written here
+# Independent of soacheck's thermal code, so a test can hold the code to them.
+
+FOUR_R_K_PER_W = (0.05, 0.15, 0.30, 0.50)  # the constructed four-term network of conftest.FOUR
+FOUR_TAU_S = (1e-4, 1e-3, 1e-2, 1e-1)
+
+
+def zth_closed_form(t_s, r=FOUR_R_K_PER_W, tau=FOUR_TAU_S):
+    """Single-pulse Foster impedance Zth(t) = Σ Rᵢ (1 − e^(−t/τᵢ)) [K/W] (the Foster form; elementary)."""
+    import numpy as np
+
+    t = np.asarray(t_s, dtype=float)[..., None]
+    return np.sum(np.asarray(r) * -np.expm1(-t / np.asarray(tau)), axis=-1)
+
+
+def zth_train_closed_form(tp_s, duty, r=FOUR_R_K_PER_W, tau=FOUR_TAU_S):
+    """Periodic steady-state peak of a Foster network under pulses tp every T = tp/D [K/W].
+
+    Zth(tp, D) = Σ Rᵢ (1 − e^(−tp/τᵢ)) / (1 − e^(−T/τᵢ)): each branch's step response summed as a
+    geometric series over the earlier pulses (elementary derivation). D = 0 is a single pulse.
+    """
+    import numpy as np
+
+    if duty == 0:
+        return float(zth_closed_form(tp_s, r, tau))
+    r, tau = np.asarray(r), np.asarray(tau)
+    return float(np.sum(r * -np.expm1(-tp_s / tau) / -np.expm1(-(tp_s / duty) / tau)))
+
+
+def svg_texts(path) -> list[str]:
+    """The texts a matplotlib SVG shows (titles, labels, legend entries, ticks), read back from the file.
+
+    matplotlib draws text as paths and writes each text beside them as an XML comment.
+    """
+    import re
+    from pathlib import Path
+
+    return re.findall(r"<!-- (.*?) -->", Path(path).read_text(encoding="utf-8"))

@@ -16,7 +16,8 @@ from soacheck.partfiles import read_part
 from soacheck.points import check_points
 from soacheck.thermal_model import thermal_model
 
-from .conftest import FOUR, REFERENCE_SOA, THERMAL, write_part
+from .conftest import REFERENCE_SOA, THERMAL, write_part
+from .helpers import zth_closed_form, zth_train_closed_form
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -45,7 +46,7 @@ def test_cli_thermal_limit_is_tj_headroom_over_zth(tmp_path, tp_s, duty, tc_c):
     result = runner.invoke(app, args)
     assert result.exit_code == 0, result.output
     (point,) = json.loads(result.stdout)["points"]
-    expected = (150 - tc_c) / FOUR.zth_train(tp_s, duty) / voltage  # A
+    expected = (150 - tc_c) / zth_train_closed_form(tp_s, duty) / voltage  # A, the closed form in tests/helpers.py
     if point["limit"] == "power":
         assert point["allowed_current"] == pytest.approx(expected, rel=0.02)  # issue's acceptance: 2 %
     else:  # bounded lower by another mechanism: never above the thermal limit
@@ -99,7 +100,7 @@ def test_without_a_model_a_train_is_checked_against_dc(reference_part):
 def test_zth_csv_is_fitted_when_no_terms_are_given(tmp_path):
     folder = write_part(tmp_path / "fitted")
     t = np.geomspace(1e-5, 1.0, 21)
-    rows = "\n".join(f"{a:.6g},{b:.5g}" for a, b in zip(t, FOUR.zth(t), strict=True))
+    rows = "\n".join(f"{a:.6g},{b:.5g}" for a, b in zip(t, zth_closed_form(t), strict=True))
     (folder / "zth.csv").write_text("time,zth\n" + rows + "\n")
     part = read_part(folder)
     model = thermal_model(part)
@@ -108,7 +109,7 @@ def test_zth_csv_is_fitted_when_no_terms_are_given(tmp_path):
     # second breakdown not derated, so that the power line of the fit bounds the train at 20 V
     got = allowed_current(20.0, part, pulse_s=5e-4, duty=0.2, breakdown="none")
     assert got.limit[0] == "power"
-    assert got.current_a[0] == pytest.approx(125 / FOUR.zth_train(5e-4, 0.2) / 20, rel=0.02)
+    assert got.current_a[0] == pytest.approx(125 / zth_train_closed_form(5e-4, 0.2) / 20, rel=0.02)
 
 
 def test_model_and_curves_that_disagree_are_reported(tmp_path):

@@ -19,7 +19,8 @@ from soacheck.files import iter_trace
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker
 
-from .conftest import FOUR, THERMAL, write_part
+from .conftest import THERMAL, write_part
+from .helpers import zth_train_closed_form
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -47,7 +48,7 @@ def test_tj_peak_of_a_pulse_train_matches_the_closed_form(modelled):
     # so the train is within e^-10 of its periodic steady state: Tj = Tc + P Zth(tp, D)
     t, v, i = pulse_train(v=20, i_on=10.0, i_off=0.0, tp=1e-3, period=1e-2, periods=100)
     result = check(modelled, t, v, i)
-    expected = 25 + 200 * FOUR.zth_train(1e-3, 0.1)
+    expected = 25 + 200 * zth_train_closed_form(1e-3, 0.1)  # tests/helpers.py, written out
     assert result.tj_peak_c == pytest.approx(expected, rel=0.01)  # the acceptance: 1 %
     assert result.tj_peak_c == pytest.approx(expected, rel=2e-4)  # and in fact to sampling accuracy
     assert result.passed and result.excursions == 100
@@ -84,7 +85,7 @@ def test_second_breakdown_of_the_pulse_curve_still_applies(modelled):
 def test_junction_over_tj_max_fails_even_inside_the_curves(modelled):
     # 250 W pulses of 1 ms at D = 0.5: the train heats to 25 + 250 Zth(1 ms, 0.5) > 150 °C
     t, v, i = pulse_train(v=10, i_on=25.0, i_off=0.0, tp=1e-3, period=2e-3, periods=300)
-    assert 25 + 250 * FOUR.zth_train(1e-3, 0.5) > 150
+    assert 25 + 250 * zth_train_closed_form(1e-3, 0.5) > 150  # 25 + 250 x 0.5684 = 167.1 °C
     result = check(modelled, t, v, i)
     assert not result.passed and result.limit == "tj_max"
     assert result.time_over_tj_max_s > 0
