@@ -88,3 +88,15 @@ def svg_texts(path) -> list[str]:
     from pathlib import Path
 
     return re.findall(r"<!-- (.*?) -->", Path(path).read_text(encoding="utf-8"))
+
+
+def exit_code_for(payload: dict) -> int:
+    """The exit code a --json answer must come with: 1 when its verdict (or the best candidate's) fails, else 0.
+
+    The rule of every checking command (README, "Exit codes"): 0 all safe, 1 something unsafe.
+    """
+    if "verdict" in payload:
+        return 0 if payload["verdict"] == "pass" else 1
+    if payload.get("candidates"):
+        return 0 if payload["candidates"][0]["verdict"] == "pass" else 1
+    return 0

@@ -25,6 +25,7 @@ import soacheck
 from soacheck.cli import app
 
 from .conftest import write_part
+from .helpers import exit_code_for
 
 runner = CliRunner(env={"COLUMNS": "200", "SOACHECK_LIBRARY": ""})
 
@@ -54,8 +55,9 @@ def files(tmp_path, monkeypatch):
 
 def cli_json(*args):
     result = runner.invoke(app, [str(a) for a in args] + ["--json"])
-    assert result.exit_code in (0, 1), result.output
-    return result.exit_code, json.loads(result.stdout)
+    payload = json.loads(result.stdout)
+    assert result.exit_code == exit_code_for(payload), result.output  # 0 when it passes, 1 when it fails
+    return result.exit_code, payload
 
 
 LIB = ("--library", "parts")

@@ -24,6 +24,7 @@ from soacheck.stage import Stage
 from soacheck.stage_run import run_stage
 
 from .conftest import write_part
+from .helpers import svg_texts
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -294,7 +295,7 @@ def test_sweep_cli(tmp_path):
     write_part(tmp_path / "ref-bjt")
     stage = tmp_path / "stage.toml"
     stage.write_text('part = "ref-bjt"\ncount = 2\nballast = 0.1\nvbe_spread = 0.01\ncase_temp = 40\n')
-    plot = tmp_path / "sweep.png"
+    plot = tmp_path / "sweep.svg"
     result = runner.invoke(
         app,
         [
@@ -316,7 +317,10 @@ def test_sweep_cli(tmp_path):
         ],
     )
     assert result.exit_code == 0, result.output
-    assert json.loads(result.stdout)["verdict"] == "pass" and plot.stat().st_size > 10000
+    assert json.loads(result.stdout)["verdict"] == "pass"
+    texts = svg_texts(plot)  # read back: device 0 (Q1) sits at the bottom of the V_BE band, so it is the worst
+    assert "current ramp 0→4 A at 20 V in 5 s: Q1 (worst)" in texts
+    assert {"Q1", "Q2", "tj_max", "dc derated, Tc = 40 °C"} <= set(texts)
 
 
 # --------------------------------------------------------------------------- Monte Carlo

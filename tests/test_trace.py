@@ -20,7 +20,7 @@ from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker
 
 from .conftest import THERMAL, write_part
-from .helpers import zth_train_closed_form
+from .helpers import svg_texts, zth_train_closed_form
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -149,7 +149,9 @@ def test_cli_trace_json_and_plot(tmp_path):
     for key in ("verdict", "tj_peak", "first_violation_time", "margin", "margin_time", "time_outside"):
         assert key in payload
     assert payload["verdict"] == "pass" and payload["first_violation_time"] is None
-    assert plot.stat().st_size > 10000
+    texts = svg_texts(plot)  # the plot, read back: the trajectory with its verdict, Tj against tj_max
+    assert "modelled: trajectory (pass)" in texts
+    assert {"junction Tj", "case Tc", "tj_max", "dc derated, Tc = 25 °C"} <= set(texts)
 
 
 def test_parquet_trace_reads_like_csv(tmp_path):

@@ -14,7 +14,7 @@ import pytest
 
 from soacheck.glossary import LIMITS, TERMS
 
-from .helpers import invoke
+from .helpers import exit_code_for, invoke
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 STAGE = EXAMPLES / "stage.toml"
@@ -99,19 +99,19 @@ def outputs(tmp_path_factory) -> dict[str, dict]:
     found = {}
     for name, args in COMMANDS.items():
         result = invoke(*args, "--json")
-        assert result.exit_code in (0, 1), f"{name}: {result.output}"
         found[name] = json.loads(result.stdout)
+        assert result.exit_code == exit_code_for(found[name]), f"{name}: {result.output}"
     folder = tmp_path_factory.mktemp("plan")
     (folder / "hot-case.toml").write_text("voltage = [5, 42]\ncurrent = 10\npower = 150\ncase_temp = 60\n")
     result = invoke(
         "compare", "demo-npn-to3-250w", "demo-npn-to220-62w", "--envelope", folder / "hot-case.toml", "--json"
     )
-    assert result.exit_code in (0, 1), result.output
     found["compare"] = json.loads(result.stdout)
+    assert result.exit_code == exit_code_for(found["compare"]), result.output
     plan = folder / "plan.toml"
     plan.write_text(SMALL_PLAN.format(stage=STAGE.as_posix(), examples=EXAMPLES.as_posix()), encoding="utf-8")
     result = invoke("run", plan, "-o", folder / "out", "--json")
-    assert result.exit_code in (0, 1), result.output
+    assert result.exit_code == exit_code_for(json.loads(result.stdout)), result.output
     found["run"] = json.loads(result.stdout)
     return found
 
