@@ -7,6 +7,7 @@ string that came from the user (names, ids, file names, notes) is escaped.
 
 from __future__ import annotations
 
+import hashlib
 import html
 import io
 import re
@@ -74,8 +75,17 @@ def svg_text(figure: Figure) -> str:
 
 
 def slug(text: str) -> str:
-    """A file-name-safe version of a job name."""
-    return re.sub(r"[^A-Za-z0-9]+", "-", text).strip("-").lower() or "job"
+    """A file-name- and anchor-safe version of a job name, different for different names.
+
+    A name made only of lower-case letters, digits and single inner hyphens is its own
+    slug; any other gets the readable part (or ``job``) and 8 hex digits of the name's
+    SHA-256, so ``&`` and ``'`` (both ``job`` when read) get plots and anchors of their own
+    (plans refuse names equal but for letter case, which would otherwise share a slug).
+    """
+    readable = re.sub(r"[^A-Za-z0-9]+", "-", text).strip("-").lower() or "job"
+    if readable == text:
+        return readable
+    return f"{readable}-{hashlib.sha256(text.encode('utf-8', 'surrogatepass')).hexdigest()[:8]}"
 
 
 def report_json(plan: Plan, results: list[JobResult], plot_files: dict[str, list[str]]) -> dict[str, Any]:
