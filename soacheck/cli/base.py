@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import contextlib
 import functools
-import math
 import os
 import sys
 from collections.abc import Callable, Iterator, Sequence
@@ -25,10 +24,9 @@ from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, choose
 from soacheck.files import check_output
 from soacheck.jsonvalues import json_chunks
-from soacheck.library import find_part, library_folders, read_stage
+from soacheck.library import find_part, library_folders
 from soacheck.parts import Part
-from soacheck.quantities import DUTY, SAMPLES, Quantity
-from soacheck.stage import Stage
+from soacheck.quantities import Quantity
 
 
 def _plain_metavar(param) -> str:
@@ -199,31 +197,8 @@ def breakdown_option(text: str) -> BreakdownDerating:
     return choice_option(text, ("auto", "thermal", "none"), "--breakdown-derating")  # type: ignore[return-value]
 
 
-def duty_option(duty: float | None, pulse_s: float) -> float:
-    """The duty cycle from ``--duty``: 0 (a single pulse) when absent."""
-    if duty is None:
-        return 0.0
-    DUTY.check(duty, "--duty")
-    if math.isinf(pulse_s):
-        raise SoacheckError("--duty needs a pulse width: add --pulse, such as --pulse 3ms --duty 0.1")
-    return duty
-
-
 def part_option(ref: str, library: list[Path] | None) -> Part:
     return find_part(ref, library_folders(library or []))
-
-
-def jsonable(value: Any) -> Any:
-    """Plain JSON values: NaN becomes null, numpy scalars become Python numbers."""
-    if isinstance(value, dict):
-        return {k: jsonable(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [jsonable(v) for v in value]
-    if isinstance(value, np.generic):
-        value = value.item()
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
 
 
 def echo_result_json(result: Any) -> None:
@@ -259,10 +234,6 @@ def output_path(
         raise SoacheckError(f"{option}: {err}") from None
 
 
-def stage_option(path: Path, library: list[Path] | None) -> Stage:
-    return read_stage(path, library_folders(library or []))
-
-
 def number_list(text: str, option: str, example: str, quantity: Quantity) -> np.ndarray:
     """Comma-separated values of one quantity from an option, such as ``25,75,125``; one clear error otherwise."""
     try:
@@ -272,11 +243,6 @@ def number_list(text: str, option: str, example: str, quantity: Quantity) -> np.
     if values.size == 0:
         raise SoacheckError(f"{option}: give at least one number, such as {example}")
     return quantity.check_array(values, lambda k: f"{option}: value {k + 1}")
-
-
-def check_outputs(samples: int, plot: Path | None, force: bool) -> None:
-    SAMPLES.check(samples, "--samples")
-    output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
 
 
 def main() -> None:

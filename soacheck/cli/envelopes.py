@@ -6,7 +6,6 @@ import math
 from pathlib import Path
 from typing import Annotated
 
-import numpy as np
 import typer
 from rich.markup import escape
 from rich.table import Table as RichTable
@@ -31,12 +30,6 @@ from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 from soacheck.limit_table import export_writer
 from soacheck.quantities import VOLTAGE
-
-
-def _voltages(text: str | None, v_max_v: float) -> np.ndarray:
-    if text is None:
-        return np.geomspace(1.0, v_max_v, 25)
-    return np.unique(number_list(text, "--voltages", "10,20,40", VOLTAGE))
 
 
 @app.command()
