@@ -24,6 +24,7 @@ class OpenRun:
     negative_s: np.ndarray
     pending_negative: np.ndarray  # flags of the last sample, whose hold time is not known yet
     last_t: float
+    start_tj_c: float = float("nan")  # junction temperature at the first sample, NaN without a thermal model
 
 
 def excess_margin(excess: np.ndarray) -> np.ndarray:
@@ -54,4 +55,5 @@ def merge_runs(a: OpenRun, b: OpenRun, t_join: float) -> OpenRun:
         negative_s=a.negative_s + b.negative_s + a.pending_negative * (t_join - a.last_t),
         pending_negative=b.pending_negative,
         last_t=b.last_t,
+        start_tj_c=a.start_tj_c,
     )

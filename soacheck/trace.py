@@ -90,7 +90,7 @@ class _Worst:
     margin: float = math.inf
     margin_time: float = math.nan
     violation_time: float = math.inf
-    violation_sample: tuple[float, float, float, int] | None = None  # v, i, tc, boundary index
+    violation_sample: tuple[float, float, float, float, int] | None = None  # v, i, tc, Tj at pulse start, boundary
     violation_limit: str | None = None
 
     def margin_candidate(self, margin: float, time: float) -> None:
@@ -193,12 +193,16 @@ class TraceChecker:
 
     # ----------------------------------------------------------------- evaluation
 
-    def _excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
+    def _excess(
+        self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None, *, exact: bool = False
+    ) -> np.ndarray:
         """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
 
         The margin is 1 − exp(excess); working in logs saves a pass over every sample.
+        ``tc`` is the temperature the lines are derated at; ``exact`` evaluates the lines at
+        it even where the fixed-case polylines would serve.
         """
-        if self.polylines is not None:
+        if self.polylines is not None and not exact:
             log_allowed = self.polylines[index].log_current_at(v)
         else:
             allowed, _ = evaluate_lines(
@@ -252,7 +256,8 @@ class TraceChecker:
             self._close(self.open, float(t[0]))
             self.open = None
         if outside is not None and outside.any():
-            self._excursions(t, v, i, tc, outside, excess)
+            tj = None if rise_j is None else self.reference_c + rise_j
+            self._excursions(t, v, i, tc, tj, outside, excess)
         if np.isfinite(worst_inside):
             self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
         self._keep_for_plot(t, v, i, tc, rise_j, excess, nan_excess=has_nan)
@@ -272,16 +277,32 @@ class TraceChecker:
             self.worst.violation(float(t[int(np.argmax(over))]), None, self.part.tj_limit)
         self.over_pending = bool(over[-1])
 
-    def _excursions(self, t, v, i, tc, outside, excess) -> None:
-        """Reduce each run of samples above the DC boundary per boundary, and judge the runs that ended."""
+    def _excursions(self, t, v, i, tc, tj, outside, excess) -> None:
+        """Reduce each run of samples above the DC boundary per boundary, and judge the runs that ended.
+
+        With a thermal model the pulse curves' lines (second breakdown, instability, current) are
+        derated at the junction temperature at the excursion's first sample, where the pulse
+        starts, not at the case temperature: single-pulse curves hold for a junction that
+        starts at the case temperature (common practice, no source), and a pulse that follows
+        others or a standing current starts hotter.
+        """
         n_b = len(self.lines)
         rows = np.flatnonzero(outside)
         starts, ends = run_edges(outside)
         lengths = ends - starts
         offsets = np.r_[0, np.cumsum(lengths)[:-1]]
+        start_tj = np.full(starts.size, np.nan) if tj is None else tj[starts]
+        if self.open is not None and starts.size and starts[0] == 0:  # the open excursion started in a past chunk
+            start_tj[0] = self.open.start_tj_c
+        start_rows = np.repeat(start_tj, lengths)
         margins = np.empty((n_b, rows.size))
         for b in range(n_b):
-            sub = excess[rows] if b == self.dc else self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
+            if b == self.dc:
+                sub = excess[rows]
+            elif tj is not None:
+                sub = self._excess(b, v[rows], i[rows], start_rows, exact=True)
+            else:
+                sub = self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
             margins[b] = excess_margin(sub)
         t_rows = t[rows]
         nxt = rows + 1
@@ -296,7 +317,8 @@ class TraceChecker:
         arg_min = np.minimum.reduceat(np.where(at_min, position, rows.size), offsets, axis=1)
         first_negative = np.minimum.reduceat(np.where(negative, position, rows.size), offsets, axis=1)
         negative_s = np.add.reduceat(np.where(negative, hold, 0.0), offsets, axis=1)
-        vit = np.column_stack([v[rows], i[rows], np.full(rows.size, self.reference_c) if tc is None else tc[rows]])
+        case_rows = np.full(rows.size, self.reference_c) if tc is None else tc[rows]
+        vit = np.column_stack([v[rows], i[rows], case_rows, start_rows])
 
         def run_state(r: int) -> OpenRun:
             has_negative = first_negative[:, r] < rows.size
@@ -310,6 +332,7 @@ class TraceChecker:
                 negative_s=negative_s[:, r].copy(),
                 pending_negative=negative[:, offsets[r] + lengths[r] - 1] if ends[r] == t.size else np.zeros(n_b, bool),
                 last_t=float(t[ends[r] - 1]),
+                start_tj_c=float(start_tj[r]),
             )
 
         closed = np.arange(starts.size)
@@ -400,14 +423,18 @@ class TraceChecker:
             self.open = None
         limit = self.worst.violation_limit
         if limit is None and self.worst.violation_sample is not None:
-            v, i, tc, b = self.worst.violation_sample
+            v, i, tc, start_tj, b = self.worst.violation_sample
+            from_start = b != self.dc and math.isfinite(start_tj)  # a pulse curve judged where the pulse started
             if v > self.part.v_limit_v:
                 limit = "voltage" if v > self.part.ratings.v_max_v else self.part.v_limit
             elif tc >= self.part.tj_limit_c:
                 limit = "case_at_tj_max" if tc >= self.part.ratings.tj_max_c else self.part.tj_limit
+            elif from_start and start_tj >= self.part.tj_limit_c:
+                limit = self.part.tj_limit
             else:
+                at_c = start_tj if from_start else tc
                 limit = str(
-                    evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=tc, breakdown=self.breakdown)[1][0]
+                    evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=at_c, breakdown=self.breakdown)[1][0]
                 )
         violated = math.isfinite(self.worst.violation_time)
         worst = self.worst.margin
@@ -452,7 +479,9 @@ class TraceChecker:
             )
             notes.append(
                 "an excursion above the DC boundary is allowed when it ends within the width of a digitized pulse "
-                "curve whose second-breakdown, instability and current limits contain it (the next longer width)"
+                "curve whose second-breakdown, instability and current limits contain it (the next longer width), "
+                "those limits derated at the junction temperature at the excursion's first sample, where the pulse "
+                "starts, not at the case temperature"
             )
         else:
             notes.append(

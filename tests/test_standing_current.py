@@ -143,3 +143,34 @@ def test_a_negative_idle_current_names_the_line(tmp_path):
     result = CliRunner(env={"COLUMNS": "120"}).invoke(app, ["check", str(folder), "-p", str(points)])
     assert result.exit_code == 2, result.output
     assert "line 3" in result.output and "idle_current" in result.output
+
+
+def _pulse_after(standing_a: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """1 s at 60 V and ``standing_a``, a 1 ms pulse of 2.2 A at 90 V, then 0.1 s standing again (0.1 ms steps)."""
+    t = np.arange(0.0, 1.101, 1e-4)
+    pulse = (t >= 1.0) & (t < 1.001 - 1e-9)
+    v = np.where(pulse, 90.0, 60.0)
+    i = np.where(pulse, 2.2, standing_a)
+    return t, v, i
+
+
+def test_a_trace_pulse_on_a_standing_current_is_judged_where_the_junction_starts(modelled_part):
+    """The 1 ms curve's second breakdown at 90 V is 10·(90/40)^m = 2.406 A at 25 °C, m = ln(0.2)/ln(2.5).
+
+    From rest the 2.2 A pulse is inside it. After 1 s of 0.4 A at 60 V (24 W, about ten time
+    constants of the slowest branch) the junction starts the pulse at 25 + 24·Σ Rᵢ(1 − e^(−1 s/τᵢ))
+    ≈ 49.0 °C, where the line is derated like the thermal limit (no table) to
+    2.406·(150 − 49.0)/125 = 1.94 A < 2.2 A (hand values).
+    """
+    from soacheck.trace import TraceChecker
+
+    cold = TraceChecker(modelled_part, tc_c=25.0)
+    cold.feed(*_pulse_after(1e-3))
+    assert cold.result().passed
+    warm = TraceChecker(modelled_part, tc_c=25.0)
+    t, v, i = _pulse_after(0.4)
+    warm.feed(t[:10003], v[:10003], i[:10003])  # the excursion crosses a chunk border
+    warm.feed(t[10003:], v[10003:], i[10003:])
+    result = warm.result()
+    assert not result.passed and result.limit == "second_breakdown"
+    assert result.first_violation_time_s == pytest.approx(1.0, abs=1e-9)
