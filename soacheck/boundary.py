@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from soacheck.derating import BreakdownDerating, mechanism_factors
+from soacheck.instability import instability_line
 from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
 from soacheck.search import highest_each
@@ -51,7 +52,14 @@ class PulseLines:
     modelled: bool
 
 
-def pulse_lines(part: Part, *, pulse_s: float = DC, duty: float = 0.0, use_model: bool = True) -> PulseLines:
+def pulse_lines(
+    part: Part,
+    *,
+    pulse_s: float = DC,
+    duty: float = 0.0,
+    use_model: bool = True,
+    beyond_case_k_per_w: float = 0.0,
+) -> PulseLines:
     """Mechanism lines for a single pulse (``duty`` 0), a pulse train, or DC.
 
     Without a thermal model the digitized curve is used: the next longer width, and DC
@@ -61,12 +69,19 @@ def pulse_lines(part: Part, *, pulse_s: float = DC, duty: float = 0.0, use_model
     breakdown, instability and the on-resistance line still come from the next longer
     digitized curve; the current limit is ``i_pulse_max`` where given (for widths up to the
     longest pulse curve).
+
+    A FET or IGBT with a transfer characteristic gains the thermal instability cap of
+    :func:`instability_line`, for the impedance the pulse condition sees: Zth(tp, D) with a
+    model, else rth_jc (never less than Zth(tp), so conservative); for DC rth_jc plus
+    ``beyond_case_k_per_w``, the path from the case to what holds its temperature (the
+    interface and heatsink on a heatsink, 0 with the case held). [K/W]
     """
     continuous = math.isinf(pulse_s) or duty >= 1.0
     model = thermal_model(part) if use_model and not continuous else None
     if model is None:
         curve = part.dc_curve if continuous or duty > 0 else part.curve_for(pulse_s)
-        return PulseLines(mechanism_lines(part, curve), curve, False)
+        z = part.ratings.rth_jc_k_per_w + (beyond_case_k_per_w if continuous else 0.0)
+        return PulseLines((*mechanism_lines(part, curve), *instability_line(part, z)), curve, False)
     curve = part.curve_for(pulse_s)
     rated = part.ratings.i_pulse_max_a if not curve.is_dc else None
     kept = [
@@ -77,7 +92,8 @@ def pulse_lines(part: Part, *, pulse_s: float = DC, duty: float = 0.0, use_model
     log_p = math.log((part.ratings.tj_max_c - REFERENCE_CASE_C) / float(model.pulse_zth(pulse_s, duty)))
     thermal = MechanismLine("power", np.array([0.0, 1.0]), np.array([log_p, log_p - 1.0]))
     cap = MechanismLine("current", np.array([0.0]), np.array([math.log(rated or current_cap_a(part, curve))]))
-    return PulseLines((*kept, thermal, cap), curve, True)
+    unstable = instability_line(part, float(model.pulse_zth(pulse_s, duty)))
+    return PulseLines((*kept, thermal, cap, *unstable), curve, True)
 
 
 @dataclass(frozen=True, eq=False)
@@ -120,7 +136,7 @@ def _derated_lines(
     """ln I of every derated mechanism line at every point, shape ``(lines, points)``."""
     factors = mechanism_factors(tc_c, part, breakdown)
     with np.errstate(divide="ignore"):
-        return np.stack([line(log_v) + np.log(factors[line.mechanism]) for line in lines])
+        return np.stack([line(log_v) + (np.log(factors[line.mechanism]) if line.derated else 0.0) for line in lines])
 
 
 def repeated_pulse_lines(
@@ -174,6 +190,9 @@ def repeated_pulse_lines(
     stacked = []
     for line in bound.lines:
         log_i = line(log_v)
+        if not line.derated:
+            stacked.append(log_i)
+            continue
         if line.mechanism in ("current", "on_resistance", "power"):
             # the one place derating (and a policy) scales a line: mechanism_factors
             at_c = tc_power if line.mechanism == "power" else tc_c
@@ -230,6 +249,7 @@ def allowed_current(
     idle_current_a: np.ndarray | float = 0.0,
     breakdown: BreakdownDerating = "auto",
     use_model: bool = True,
+    beyond_case_k_per_w: float = 0.0,
 ) -> Allowed:
     """Highest current the part may carry at each voltage, case temperature and pulse condition.
 
@@ -253,6 +273,9 @@ def allowed_current(
         Derating of second breakdown or instability, see :data:`BreakdownDerating`.
     use_model
         Use the part's thermal model for the thermal limit of pulses (see :func:`pulse_lines`).
+    beyond_case_k_per_w
+        Thermal resistance from the case to what holds its temperature, for the DC thermal
+        instability cap of a part with a transfer characteristic (see :func:`pulse_lines`). [K/W]
 
     Returns
     -------
@@ -304,7 +327,9 @@ def allowed_current(
         rows = np.flatnonzero(valid)
         for k, (width, train) in enumerate(conditions):
             sel = rows if len(conditions) == 1 else rows[group == k]
-            bound = pulse_lines(part, pulse_s=width, duty=train, use_model=use_model)
+            bound = pulse_lines(
+                part, pulse_s=width, duty=train, use_model=use_model, beyond_case_k_per_w=beyond_case_k_per_w
+            )
             if bound.modelled:
                 stacked = repeated_pulse_lines(
                     v[sel], tc[sel], idle[sel], part, bound, width, train, breakdown=breakdown
@@ -321,7 +346,14 @@ def allowed_current(
 
     standing = valid & (idle > 0) & ~continuous
     if standing.any():  # between pulses the standing current sits at the same voltage, as DC
-        dc = allowed_current(v[standing], part, tc_c=tc[standing], breakdown=breakdown, use_model=use_model)
+        dc = allowed_current(
+            v[standing],
+            part,
+            tc_c=tc[standing],
+            breakdown=breakdown,
+            use_model=use_model,
+            beyond_case_k_per_w=beyond_case_k_per_w,
+        )
         over = np.flatnonzero(standing)[idle[standing] > dc.current_a]
         allowed[over], limit[over] = 0.0, dc.limit[idle[standing] > dc.current_a]
 
@@ -519,9 +551,9 @@ def max_case_temp(
     log_v = np.log(v)
     highest = np.inf
     for line in bound.lines:
-        with np.errstate(divide="ignore"):
+        with np.errstate(divide="ignore", over="ignore"):
             need = i / np.exp(line(log_v))  # the factor this line must keep
-        f = factors[line.mechanism]
+        f = factors[line.mechanism] if line.derated else np.ones_like(grid)
         # f is non-increasing on the grid: the last grid point where f >= need
         count = np.searchsorted(-f, -need, side="right")
         if np.any(count == 0):

@@ -107,12 +107,16 @@ class MechanismLine:
         its vertices the line extends with its end slopes.
     lines
         File lines of the first and last vertex, for messages (0, 0 when implicit).
+    derated
+        False for a line computed for the operating temperature already (the thermal
+        instability cap from a transfer characteristic): case temperature does not scale it.
     """
 
     mechanism: Mechanism
     log_v: np.ndarray
     log_i: np.ndarray
     lines: tuple[int, int] = (0, 0)
+    derated: bool = True
 
     def __call__(self, log_v: np.ndarray) -> np.ndarray:
         """ln I of the line at ``log_v`` (any shape), extended straight beyond its ends."""

@@ -18,7 +18,9 @@ from matplotlib.lines import Line2D
 from soacheck.boundary import boundary_polyline
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, EnvelopeCheck
+from soacheck.instability import instability_line
 from soacheck.mechanisms import mechanism_lines
+from soacheck.mosfet import ztc_point
 from soacheck.parts import Part
 from soacheck.points import PointCheck
 from soacheck.stage_run import StageRun
@@ -95,6 +97,7 @@ def plot_soa(
             fontsize=8,
             va="center",
         )
+    _draw_instability(ax, part)
     cmap_t = ["#e08214", "#b35806", "#7f3b08", "#542788"]
     for n, tc in enumerate(case_temps_c):
         poly = boundary_polyline(
@@ -151,6 +154,30 @@ def plot_soa(
     ax.set_title(f"{part.id}: SOA at 25 °C case (solid), derated (dashed)", fontsize=10)
     ax.grid(True, which="both", lw=0.3, alpha=0.6)
     return ax
+
+
+def _draw_instability(ax: Axes, part: Part) -> None:
+    """The DC thermal instability cap (case held, Z = rth_jc) and the ZTC current, for a part with transfer.csv."""
+    if part.transfer is None or part.is_bipolar:
+        return
+    ztc = ztc_point(part.transfer)
+    if ztc.current_a is not None:
+        ax.axhline(ztc.current_a, color="#6a3d9a", lw=0.9, ls="-.", label=f"ZTC current {ztc.current_a:.3g} A")
+    lines = instability_line(part, part.ratings.rth_jc_k_per_w)
+    if lines:
+        v = np.geomspace(part.dc_curve.voltage_v[0], part.ratings.v_max_v, 300)
+        with np.errstate(over="ignore"):
+            i = np.exp(lines[0](np.log(v)))
+        shown = i <= part.ratings.i_max_a * 10
+        ax.plot(
+            v[shown],
+            i[shown],
+            color="#6a3d9a",
+            lw=1.6,
+            ls=(0, (1, 1)),
+            label="instability cap (DC, case held)",
+            zorder=4,
+        )
 
 
 def plot_point_check(

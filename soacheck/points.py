@@ -15,6 +15,7 @@ import numpy as np
 
 from soacheck.boundary import Allowed, allowed_current, distinct_rows, model_consistency
 from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
+from soacheck.instability import instability_notes
 from soacheck.mechanisms import mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part
 from soacheck.thermal_model import thermal_model
@@ -275,6 +276,7 @@ def _assumptions(
         notes.append(
             f"{int(high.sum())} point(s) between the last digitized voltage and v_max: the last segment was extended"
         )
+    notes.extend(instability_notes(part))
     if np.any(tc < REFERENCE_CASE_C):
         notes.append("case temperatures below 25 °C get no more than the 25 °C limits")
     used = np.unique(result.curve_pulse_s[~np.isnan(result.curve_pulse_s)])

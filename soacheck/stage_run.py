@@ -226,8 +226,15 @@ def check_devices(
     away the hog (Q1, index 0) is labelled ``runaway``.
     """
     n, m = device_a.shape
+    cooling = stage.cooling
     allowed = allowed_current(
-        np.maximum(vce_v, 1e-12), stage.part, tc_c=case_c, pulse_s=pulse_s, duty=duty, breakdown=breakdown
+        np.maximum(vce_v, 1e-12),
+        stage.part,
+        tc_c=case_c,
+        pulse_s=pulse_s,
+        duty=duty,
+        breakdown=breakdown,
+        beyond_case_k_per_w=cooling.case_sink_k_per_w + cooling.sink_ambient_k_per_w if cooling else 0.0,
     )
     allowed_a = allowed.current_a.reshape(n, m)
     limit = allowed.limit.reshape(n, m).astype(object)

@@ -25,6 +25,7 @@ from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_line
 from soacheck.derating import BreakdownDerating, breakdown_note
 from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
+from soacheck.instability import instability_line, instability_notes
 from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
 from soacheck.points import overload_of
@@ -155,9 +156,12 @@ class TraceChecker:
         # boundary 0..n-2: pulse curves (non-thermal lines when a model follows Tj); n-1: DC
         self.widths_s = part.pulse_widths_s
         self.lines: list[tuple[MechanismLine, ...]] = []
+        # the DC thermal instability cap (transfer.csv) sees the whole path the case sits on
+        beyond_k_per_w = cooling.case_sink_k_per_w + cooling.sink_ambient_k_per_w if cooling else 0.0
         for curve in part.curves:
             if curve.is_dc:
-                self.lines.append(mechanism_lines(part, curve))
+                dc = mechanism_lines(part, curve)
+                self.lines.append((*dc, *instability_line(part, part.ratings.rth_jc_k_per_w + beyond_k_per_w)))
             elif self.model is not None:
                 bound = pulse_lines(part, pulse_s=curve.pulse_s)
                 self.lines.append(tuple(line for line in bound.lines if line.mechanism != "power"))
@@ -489,6 +493,7 @@ class TraceChecker:
                 "excursion above the DC boundary is credited with a pulse curve, since repetition cannot be "
                 "accounted for (conservative)"
             )
+        notes.extend(instability_notes(part))
         widths = ", ".join(format_duration(w) for w in self.widths_s[:-1])
         notes.append(f"digitized pulse curves: {widths or 'none'}")
         return notes

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import importlib.metadata
 import json
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
@@ -15,7 +16,9 @@ from typer.testing import CliRunner
 from soacheck.cli import app
 from soacheck.filemarks import written_by_soacheck
 
-from .conftest import write_part
+from .conftest import BUNDLED_IDS, write_part
+
+ROOT_CURVES = Path(__file__).resolve().parents[1] / "curves"
 
 runner = CliRunner(env={"COLUMNS": "200", "SOACHECK_LIBRARY": ""})
 
@@ -101,7 +104,7 @@ def test_parts_lists_bundled_and_user_libraries_user_first(tmp_path):
     result = invoke("parts", "--library", library, "--json")
     assert result.exit_code == 0, result.output
     rows = {r["id"]: r for r in json.loads(result.stdout)["parts"]}
-    assert len(rows) == 6 and "my-bjt" in rows
+    assert len(rows) == len(BUNDLED_IDS) + 1 and "my-bjt" in rows
     assert rows["demo-npn-to3-250w"]["folder"].startswith(str(library))
     env_result = invoke("check", "my-bjt", "-v", 20, "-i", 1, env={"SOACHECK_LIBRARY": str(library)})
     assert env_result.exit_code == 0, env_result.output
@@ -138,8 +141,12 @@ def test_installed_package_carries_the_bundled_curves():
             installed.append(dist)
     if not installed:
         pytest.skip("no non-editable install of soacheck here; CI's `pip install '.[test]'` makes one")
-    from .conftest import BUNDLED_IDS
 
     for part_id in BUNDLED_IDS:
-        for name in ("part.toml", "soa.csv"):
+        names = (
+            "part.toml",
+            "soa.csv",
+            *(("transfer.csv",) if (ROOT_CURVES / part_id / "transfer.csv").exists() else ()),
+        )
+        for name in names:
             assert installed[0].locate_file(f"soacheck/curves/{part_id}/{name}").is_file()

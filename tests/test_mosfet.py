@@ -31,6 +31,7 @@ from soacheck.mosfet import (
     ztc_point,
 )
 from soacheck.partfiles import read_part, read_transfer
+from soacheck.points import check_points
 
 from .conftest import write_part
 
@@ -174,3 +175,52 @@ def test_a_transfer_file_on_a_bipolar_part_is_refused(tmp_path):
     write_transfer(folder / "transfer.csv")
     with pytest.raises(SoacheckError, match="FET or IGBT"):
         read_part(folder)
+
+
+# a FET curve with no steep segment (constructed): 15 A to 8.33 V, then 125 W to 100 V
+FET_SOA = "pulse,voltage,current\ndc,1,15\ndc,8.3333,15\ndc,100,1.25\n"
+
+
+def test_check_caps_the_current_where_the_square_law_device_runs_away(tmp_path):
+    """At 60 V with the case held, Z = rth_jc = 1.0 K/W: the cap is the smallest I with 60·α(I)·1.0 = 1.
+
+    Reference: brentq on the closed-form α of the square-law device below its peak; the
+    DC power line allows 2.08 A there, so the cap is what bounds the point.
+    """
+    folder = write_part(tmp_path / "fet", soa=FET_SOA, kind="nmos")
+    write_transfer(folder / "transfer.csv", i_lo=0.01)
+    part = read_part(folder)
+    peak = scipy.optimize.minimize_scalar(lambda i: -alpha_reference(i), bounds=(0.01, 34.0), method="bounded").x
+    expected = scipy.optimize.brentq(lambda i: 60.0 * 1.0 * alpha_reference(i) - 1.0, 0.01, peak, xtol=1e-12)
+    got = check_points(60.0, 1.0, part, tc_c=75.0)
+    assert got.limit[0] == "thermal_instability" and not got.inside[0]
+    # not derated with case temperature; log-log interpolation between points 1.6 % apart in current
+    assert got.allowed_current_a[0] == pytest.approx(expected, rel=2e-3)
+    assert any("transfer.csv" in note for note in got.assumptions)
+
+
+def test_a_fet_without_transfer_curves_says_no_instability_check_was_possible(tmp_path):
+    part = read_part(write_part(tmp_path / "fet", soa=FET_SOA, kind="nmos"))
+    got = check_points(50.0, 1.0, part)
+    assert any("no thermal-instability check beyond the digitized SOA curve" in n for n in got.assumptions)
+
+
+def test_show_draws_the_ztc_current_and_the_instability_cap(tmp_path):
+    """The plot carries a horizontal line at the ZTC current (closed form, about 34 A) and the DC cap."""
+    from soacheck.plots import plot_soa
+
+    folder = write_part(tmp_path / "fet", soa=FET_SOA, kind="nmos")
+    write_transfer(folder / "transfer.csv", i_lo=0.01)
+    ax = plot_soa(read_part(folder))
+    labels = {line.get_label(): line for line in ax.get_lines()}
+    ztc = next(line for label, line in labels.items() if label.startswith("ZTC current"))
+    s1, s2 = math.sqrt(k_of(T_COOL)), math.sqrt(k_of(T_HOT))
+    v = (s1 * vth_of(T_COOL) - s2 * vth_of(T_HOT)) / (s1 - s2)
+    assert ztc.get_ydata()[0] == pytest.approx(k_of(T_COOL) * (v - vth_of(T_COOL)) ** 2, rel=1e-3)
+    cap = labels["instability cap (DC, case held)"]
+    # at 60 V the drawn cap is the brentq root of 60·α(I)·1.0 = 1 (as in the check above)
+    volts, amps = cap.get_xdata(), cap.get_ydata()
+    peak = scipy.optimize.minimize_scalar(lambda i: -alpha_reference(i), bounds=(0.01, 34.0), method="bounded").x
+    expected = scipy.optimize.brentq(lambda i: 60.0 * alpha_reference(i) - 1.0, 0.01, peak, xtol=1e-12)
+    got = math.exp(np.interp(math.log(60.0), np.log(volts), np.log(amps)))
+    assert got == pytest.approx(expected, rel=2e-2)  # the plot samples 300 voltages

@@ -8,6 +8,7 @@ defines Rth_jc as (Tj - Tc)/P), and from shapely as a reference geometry library
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -102,7 +103,11 @@ def test_slope_is_base_independent():
 
 
 def test_25c_reproduces_the_digitized_polyline(bundled_part):
-    """At 25 °C case the derated boundary is the digitized curve itself, at every vertex."""
+    """At 25 °C case the derated boundary is the digitized curve itself, at every vertex.
+
+    A transfer characteristic's instability cap is a limit the digitized curve does not draw, so it is left out.
+    """
+    bundled_part = dataclasses.replace(bundled_part, transfer=None)
     for curve in bundled_part.curves:
         got = allowed_current(curve.voltage_v, bundled_part, pulse_s=curve.pulse_s, use_model=False)
         assert got.current_a == pytest.approx(curve.current_a, rel=1e-9)

@@ -8,7 +8,13 @@ consistent so that the tests and the demo exercise real behaviour:
 - second breakdown (bipolar) or instability (FET, IGBT) is a power law I = I₀(V/V₀)^m
   below the constant-power line above its knee, raised by a factor for pulses;
 - each curve is the lower envelope of straight lines on log-log axes, so it is concave
-  and every pulse curve encloses the longer ones.
+  and every pulse curve encloses the longer ones;
+- a transfer characteristic (``transfer.csv``) follows the square law
+  I_D = K(T)(V_GS − V_th(T))² with K ∝ (T/300 K)^−1.5 and V_th falling linearly with T
+  (Sedra & Smith for the law, Sze for the mobility exponent; from memory), drawn at 25 °C
+  and 150 °C past the point where the curves cross;
+- a current gain table falls at high current, as high-level injection makes it (Webster
+  1954; from memory), and a Darlington's is the product of two such gains.
 
 Run ``python tools/make_demo_curves.py`` from the repository root to rewrite them.
 """
@@ -47,6 +53,9 @@ class Demo:
     r_on: float | None = None  # on-resistance line for a FET [ohm]
     derating: list[list[float]] | None = None
     extra: dict = field(default_factory=dict)
+    square_law: tuple[float, float, float] | None = None  # K at 300 K [A/V²], V_th at 25 °C [V], dV_th/dT [V/K]
+    gain: list[tuple[float, float]] | None = None  # (collector current [A], h_FE)
+    darlington: bool = False
 
     @property
     def p_max(self) -> float:
@@ -121,10 +130,71 @@ rth_jc = {demo.rth_jc:g}       # K/W
 foster_r = [{", ".join(f"{r:g}" for r in demo.foster_r)}]      # K/W, sums to rth_jc
 foster_tau = [{", ".join(f"{t:g}" for t in demo.foster_tau)}]  # s
 '''
+    if demo.gain:
+        toml += (
+            "\n[gain]   # invented: DC current gain at 25 degC, falling at high current\n"
+            f"current = [{', '.join(f'{i:g}' for i, _ in demo.gain)}]   # A\n"
+            f"hfe = [{', '.join(f'{h:g}' for _, h in demo.gain)}]\n"
+        )
+    if demo.darlington:
+        toml = toml.replace(f'kind = "{demo.kind}"\n', f'kind = "{demo.kind}"\ndarlington = true\n')
     (folder / "part.toml").write_text(toml, encoding="utf-8")
+    if demo.square_law:
+        (folder / "transfer.csv").write_text(transfer_rows(*demo.square_law), encoding="utf-8")
+
+
+def transfer_rows(k300: float, vth25: float, dvth_dt: float, temps=(25.0, 150.0), points: int = 16) -> str:
+    """transfer.csv of a square-law device at ``temps``, from 0.1 A to twice the current where the curves cross."""
+    k = [k300 * ((t + 273.15) / 300.0) ** -1.5 for t in temps]
+    vth = [vth25 + dvth_dt * (t - 25.0) for t in temps]
+    s1, s2 = math.sqrt(k[0]), math.sqrt(k[1])
+    v_cross = (s1 * vth[0] - s2 * vth[1]) / (s1 - s2)
+    i_top = 2 * k[0] * (v_cross - vth[0]) ** 2
+    rows = ["temp,vgs,current"]
+    for t, kt, vt in zip(temps, k, vth, strict=True):
+        currents = np.geomspace(0.1, i_top, points)
+        rows += [f"{t:g},{significant(vt + math.sqrt(i / kt), 5)},{significant(i, 5)}" for i in currents]
+    return "\n".join(rows) + "\n"
 
 
 DEMOS = [
+    Demo(
+        id="demo-nmos-to247-linear-240w",
+        kind="nmos",
+        package="TO-247",
+        text="switching MOSFET whose DC SOA comes from Rth alone; transfer curves show its linear-mode instability",
+        v_max=100,
+        i_max=80,
+        i_pulse_max=300,
+        tj_max=175,
+        rth_jc=0.625,
+        foster_r=[0.015, 0.06, 0.2, 0.35],
+        foster_tau=[5e-5, 5e-4, 5e-3, 0.05],
+        steep_knee_v=100,  # no steep segment drawn: the datasheet computed its DC SOA from Rth
+        steep_slope=-2.0,
+        steep_pulse_gain={"10ms": 50.0, "1ms": 50.0, "100us": 50.0},
+        v_start=0.3,
+        r_on=0.01,
+        square_law=(5.0, 4.0, -0.006),
+    ),
+    Demo(
+        id="demo-npn-darlington-to3-150w",
+        kind="npn",
+        package="TO-3 metal can",
+        text="Darlington for linear supplies, gain falling above 5 A, second breakdown above 40 V",
+        v_max=100,
+        i_max=15,
+        i_pulse_max=25,
+        tj_max=200,
+        rth_jc=1.1667,
+        foster_r=[0.04, 0.12, 0.4067, 0.6],
+        foster_tau=[1e-4, 1e-3, 1e-2, 0.12],
+        steep_knee_v=40,
+        steep_slope=-1.8,
+        steep_pulse_gain={"10ms": 1.6, "1ms": 3.0, "100us": 5.0},
+        gain=[(0.5, 1500.0), (2.0, 2500.0), (5.0, 2000.0), (10.0, 800.0), (15.0, 300.0)],
+        darlington=True,
+    ),
     Demo(
         id="demo-npn-to3-250w",
         kind="npn",

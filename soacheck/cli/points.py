@@ -61,7 +61,9 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
     subset = not all_rows and total > TABLE_ROWS
     title = f"{result.part_id}: operating points" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
     table = RichTable(title=escape(title), title_justify="left")
-    names = ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", "idle [A]", "curve", "allowed [A]", "margin", "limit", "")
+    idle = bool(np.any(result.idle_current_a > 0))  # a column only when some point has a standing current
+    names = ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", *(("idle [A]",) if idle else ()), "curve")
+    names = (*names, "allowed [A]", "margin", "limit", "")
     for name in ("#", *names) if subset else names:
         table.add_column(name, justify="right" if "[" in name or name in ("margin", "#") else "left")
     rows = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
@@ -78,7 +80,7 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
             f"{row.case_temp:g}",
             row.pulse,
             f"{row.duty:g}" if row.duty is not None else "single" if row.pulse != "dc" else "",
-            f"{row.idle_current:g}" if row.idle_current > 0 else "",
+            *((f"{row.idle_current:g}" if row.idle_current > 0 else "",) if idle else ()),
             row.curve,
             allowed,
             margin,
