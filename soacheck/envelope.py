@@ -154,6 +154,9 @@ class EnvelopeCheck:
             "worst_current": float(self.total_a[k]),
             "heatsink_temp": float(self.state.sink_c.max()),
             "tj_peak": float(self.state.junction_c.max()),
+            "loop_gain_peak": float(np.max(self.state.gain)),
+            "stage_gain_peak": float(np.max(self.state.stage_gain)) if self.state.stage_gain is not None else 0.0,
+            "drive_current_peak": self.stage.drive_current_peak_a(self.state.device_a),
             "outside": self.outside,
             "assumptions": list(self.assumptions),
         }
@@ -176,7 +179,7 @@ def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, breakd
     limit = np.where(dropout, "dropout", limit)
     margin = np.where(dropout, -np.inf, margin)
     hot = state.junction_c > stage.part.tj_limit_c
-    margin = np.where(hot | (limit == "runaway"), np.minimum(margin, -1e-9), margin)
+    margin = np.where(hot | np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
     return allowed, margin, limit
 
 

@@ -120,7 +120,24 @@ _TERMS = [
     _t("time_outside", "s", "total time spent outside"),
     _t("time_over_tj_max", "s", "total time the junction spent above tj_max"),
     _t("excursions", "", "runs of samples above the DC boundary, each judged as a pulse"),
-    _t("loop_gain_peak", "1", "highest electro-thermal loop gain; 1 or more is runaway"),
+    _t(
+        "loop_gain_peak",
+        "1",
+        "highest electro-thermal loop gain of one device (R_th·V·α over its drive's slope); above 1 a device warms "
+        "faster than its ballast pulls it back, but the whole set decides: see stage_gain_peak",
+    ),
+    _t(
+        "stage_gain_peak",
+        "1",
+        "highest eigenvalue of the whole set of devices' electro-thermal Jacobian; 1 or more: the shared state "
+        "cannot hold, and one device takes the current (reported and checked) or the stage runs away",
+    ),
+    _t(
+        "drive_current_peak",
+        "A",
+        "most base current the driver supplies to all devices at once, Σ I_E/(h_FE + 1); 0 for FETs; null for a "
+        "bipolar part without a [gain] table",
+    ),
     _t("device_power_peak", "W", "highest power in one device"),
     _t("sense_resistor_power_peak", "W", "highest power in the shared sense and wiring resistance", "sense R peak"),
     _t("energy", "Wh", "energy taken from the source over the test"),
@@ -132,6 +149,7 @@ _TERMS = [
     _t("series_resistance", "Ω", "shared current-sense and wiring resistance"),
     _t("vbe_spread", "V", "spread of V_BE (V_GS) between devices at equal current and temperature"),
     _t("vbe_tempco", "V/K", "temperature coefficient of V_BE (V_GS) at constant current", "vbe tempco"),
+    _t("drive_limit", "A", "the most base current the driver can supply to all devices together"),
     _t("cooling", "", "the heatsink the devices share (a [cooling] table in the stage file)"),
     _t("interface_rth", "K/W", "case to heatsink, each device", "interface Rth"),
     _t("heatsink_rth", "K/W", "heatsink to ambient", "heatsink Rth"),

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from soacheck.bipolar import VBE_TEMPCO_V_PER_K, junctions
 from soacheck.errors import SoacheckError, nearest
 from soacheck.files import read_toml
 from soacheck.partfiles import PART_FILE, read_part
@@ -151,14 +152,17 @@ def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -
         cooling = Cooling(c.interface_rth, c.heatsink_rth, c.heatsink_capacity, c.ambient)
     elif table.case_temp is None:
         raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
+    # a Darlington's two junctions in series: twice the single junction's −2 mV/K (Sedra & Smith, from memory)
+    tempco = VBE_TEMPCO_V_PER_K * junctions(part.darlington) if table.vbe_tempco is None else table.vbe_tempco
     return Stage(
         part,
         table.count,
         table.ballast,
         table.series_resistance,
         table.vbe_spread,
-        table.vbe_tempco,
+        tempco,
         cooling,
         table.case_temp,
         name=where,
+        drive_limit_a=table.drive_limit,
     )

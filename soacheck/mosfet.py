@@ -254,3 +254,49 @@ def instability_cap(transfer: TransferCurves, z_k_per_w: float) -> InstabilityCa
     v = 1.0 / (z_k_per_w * running[rises])
     order = np.argsort(v, kind="stable")
     return InstabilityCap(v[order], i[order], float(z_k_per_w), ztc, ztc.side == "above")
+
+
+def current_for_drive(
+    drive_v: np.ndarray, tj_c: np.ndarray, transfer: TransferCurves, *, source_ohm: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """The drain current I with V_GS(I, T) + I·R_S = ``drive_v``, and dI/d(drive), exactly.
+
+    Parameters
+    ----------
+    drive_v
+        Gate voltage above the source resistor's foot, any shape. [V]
+    tj_c
+        Junction temperature, broadcast with ``drive_v``. [°C]
+    source_ohm
+        Source resistor R_S. [Ω]
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        I [A] and dI/d(drive) [S]; both 0 where the drive is below the threshold.
+
+    Notes
+    -----
+    V_GS(I, T) of :func:`gate_voltage_at` is straight in s = √I between the curves' points
+    (their union), so on each piece V_GS = A + B·s and R_S·s² + B·s + A − drive = 0 is
+    solved in closed form; dI/d(drive) = 2s/(B + 2·R_S·s).
+    """
+    x = np.asarray(drive_v, dtype=float)
+    t = np.broadcast_to(np.asarray(tj_c, dtype=float), x.shape)
+    s_grid = np.unique(np.r_[0.0, np.concatenate([np.sqrt(i) for i in transfer.current_a])])
+    temps = transfer.temp_c
+    pair = np.clip(np.searchsorted(temps, t, side="right") - 1, 0, temps.size - 2)
+    w = (t - temps[pair]) / (temps[pair + 1] - temps[pair])
+    curves = np.stack([gate_voltage(s_grid**2, transfer, k) for k in range(temps.size)])  # (k, J)
+    v_grid = curves[pair] + w[..., None] * (curves[pair + 1] - curves[pair])  # (..., J)
+    h = v_grid + source_ohm * s_grid**2
+    piece = np.clip(np.sum(h <= x[..., None], axis=-1) - 1, 0, s_grid.size - 2)
+    v0 = np.take_along_axis(v_grid, piece[..., None], axis=-1)[..., 0]
+    v1 = np.take_along_axis(v_grid, piece[..., None] + 1, axis=-1)[..., 0]
+    s0, s1 = s_grid[piece], s_grid[piece + 1]
+    slope = np.maximum((v1 - v0) / (s1 - s0), 1e-12)
+    rest = x - (v0 - slope * s0)  # drive less the piece's intercept A
+    with np.errstate(invalid="ignore"):
+        s = 2 * rest / (slope + np.sqrt(np.maximum(slope**2 + 4 * source_ohm * rest, 0.0)))
+    s = np.maximum(s, 0.0)
+    return s**2, 2 * s / (slope + 2 * source_ohm * s)

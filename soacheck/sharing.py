@@ -16,18 +16,19 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from soacheck.bipolar import THERMAL_VOLTAGE_V, VBE_TEMPCO_V_PER_K
 from soacheck.errors import SoacheckError
+from soacheck.mosfet import (
+    TransferCurves,
+    current_for_drive,
+    gate_voltage_at,
+    temperature_coefficient,
+    transconductance,
+)
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory
 
 if TYPE_CHECKING:
     from soacheck.stage import Stage
-
-
-THERMAL_VOLTAGE_V = 0.02569
-"""kT/q at 25 °C. [V]"""
-
-VBE_TEMPCO_V_PER_K = -0.002
-"""dV_BE/dT at constant current, about −2 mV/K (Sedra & Smith, from memory). [V/K]"""
 
 
 def share_current(
@@ -39,14 +40,19 @@ def share_current(
     bipolar: bool,
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
     start_a: np.ndarray | None = None,
+    transfer: TransferCurves | None = None,
+    junctions: int = 1,
 ) -> np.ndarray:
     """Split a total current between parallel devices with a common base (gate) drive.
 
     Each device k obeys V_B = u_k(I_k) + I_k·R_E + ΔV_k + φ·(Tj_k − 25 °C) with a common
     V_B, and Σ I_k = I_total. For a bipolar part u(I) = V_T ln(I / 1 A), so
     I_k = (V_T/R_E)·ω(ln(R_E/V_T) + x_k/V_T) with ω the Wright omega function; for a FET or
-    IGBT u = 0 (1/g_m neglected, conservative), so I_k = x_k/R_E. V_B is found by Newton's
-    method, vectorized over all samples. Devices with the same offset and temperature
+    IGBT without a transfer characteristic u = 0 (1/g_m neglected, conservative), so
+    I_k = x_k/R_E. With one, a FET's V_GS(I, T) comes from its curves
+    (:func:`~soacheck.mosfet.current_for_drive`): its transconductance and its α = ∂I_D/∂T
+    replace the V_BE law and tempco. A Darlington (``junctions`` 2) has u = 2·V_T ln(I/1 A).
+    V_B is found by Newton's method, vectorized over all samples. Devices with the same offset and temperature
     everywhere (all but one in a worst-case stage) are solved once and weighted by their
     number; ``start_a``, the currents of a nearby solution (the previous step of a fixed
     point), starts Newton from the base voltage they imply.
@@ -65,6 +71,10 @@ def share_current(
         The device law, see above.
     start_a
         Currents of a nearby solution, shape ``(n, m)``, to start from; equal sharing when None. [A]
+    transfer
+        The FET's transfer characteristic, or None.
+    junctions
+        Base-emitter junctions in series (2 for a Darlington).
 
     Returns
     -------
@@ -75,9 +85,11 @@ def share_current(
     n = tj_c.shape[0]
     if n == 1:
         return total[None, :].copy()
-    shift = np.asarray(offsets_v, dtype=float).reshape(n, -1) + tempco_v_per_k * (tj_c - 25.0)  # (n, m)
-    vt, r = THERMAL_VOLTAGE_V, ballast_ohm
-    if not bipolar and r == 0:
+    by_curves = transfer is not None and not bipolar
+    offsets = np.broadcast_to(np.asarray(offsets_v, dtype=float).reshape(n, -1), tj_c.shape)
+    shift = offsets if by_curves else offsets + tempco_v_per_k * (tj_c - 25.0)  # (n, m)
+    vt, r = junctions * THERMAL_VOLTAGE_V, ballast_ohm
+    if not bipolar and r == 0 and not by_curves:
         # no ballast and no modelled 1/g_m: the device with the lowest threshold takes it all
         out = np.zeros_like(shift)
         out[np.argmin(shift, axis=0), np.arange(shift.shape[1])] = total
@@ -88,13 +100,23 @@ def share_current(
     # identical devices (same offset and temperature at every sample) are one unknown, counted;
     # a loop over devices (at most a few hundred), not samples
     seen: dict[bytes, int] = {}
-    which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in shift])
+    rows = np.concatenate([shift, tj_c], axis=1) if by_curves else shift
+    which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in rows])
     keep = np.unique(which, return_index=True)[1]
     shift = shift[keep]
+    tj_kept = tj_c[keep]
     weight = np.bincount(which).astype(float)[:, None]
+
+    def drive(i_a: np.ndarray, rows: np.ndarray | slice) -> np.ndarray:
+        """The base (gate) voltage at which kept devices ``rows`` carry ``i_a``, less their shift."""
+        if by_curves:
+            return gate_voltage_at(i_a, tj_kept[rows], transfer) + i_a * r
+        return i_a * r + (vt * np.log(i_a) if bipolar else 0.0)
 
     def currents(vb: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         x = vb[None, :] - shift
+        if by_curves:
+            return current_for_drive(x, tj_kept, transfer, source_ohm=r)
         if not bipolar:
             i = np.maximum(x, 0.0) / r
             return i, np.where(x > 0, 1.0 / r, 0.0)
@@ -104,13 +126,17 @@ def share_current(
             i = np.exp(x / vt)
         return i, 1.0 / (r + vt / np.maximum(i, 1e-300))
 
-    if start_a is None:  # equal sharing
+    columns = np.arange(total.size)
+    if start_a is None:  # equal sharing, at the first kept device's temperature
         each = np.maximum(total / n, 1e-12)
-        vb = (each * r + (vt * np.log(each) if bipolar else 0.0)) + (weight * shift).sum(axis=0) / n
+        vb = drive(each[None, :], slice(0, 1))[0] + (weight * shift).sum(axis=0) / n
     else:  # the base voltage of the device that carried the most, at its current and the new temperature
         k = np.argmax(np.asarray(start_a, dtype=float), axis=0)
-        each = np.maximum(np.asarray(start_a, dtype=float)[k, np.arange(k.size)], 1e-12)
-        vb = each * r + (vt * np.log(each) if bipolar else 0.0) + shift[which[k], np.arange(k.size)]
+        each = np.maximum(np.asarray(start_a, dtype=float)[k, columns], 1e-12)
+        if by_curves:
+            vb = gate_voltage_at(each, tj_kept[which[k], columns], transfer) + each * r + shift[which[k], columns]
+        else:
+            vb = drive(each, slice(None)) + shift[which[k], columns]
     for _ in range(100):
         i, slope = currents(vb)
         residual = (weight * i).sum(axis=0) - total
@@ -121,6 +147,35 @@ def share_current(
     return currents(vb)[0][which]
 
 
+def drive_slopes(
+    current_a: np.ndarray,
+    tj_c: np.ndarray,
+    *,
+    ballast_ohm: float,
+    bipolar: bool,
+    tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
+    transfer: TransferCurves | None = None,
+    junctions: int = 1,
+) -> tuple[np.ndarray, np.ndarray]:
+    """How each device's drive voltage V_B = u(I, T) + I·R_E moves with its current and temperature.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        r = ∂V_B/∂I at fixed T [Ω]: R_E + J·V_T/I for a bipolar part with J junctions, R_S + 1/g_m
+        for a FET with transfer curves, R_S for one without (1/g_m neglected); and
+        φ = ∂V_B/∂T at fixed I [V/K]: the V_BE tempco, or −α/g_m from the curves (α of
+        :func:`~soacheck.mosfet.temperature_coefficient`, the datasheet's finite difference).
+        Both with the shape of ``current_a``.
+    """
+    i = np.maximum(np.asarray(current_a, dtype=float), 1e-12)
+    if transfer is not None and not bipolar:
+        gm = transconductance(i, np.asarray(tj_c, dtype=float), transfer)
+        return ballast_ohm + 1.0 / gm, -temperature_coefficient(i, transfer) / gm
+    r = ballast_ohm + (junctions * THERMAL_VOLTAGE_V / i if bipolar else 0.0)
+    return np.broadcast_to(r, i.shape), np.full(i.shape, tempco_v_per_k)
+
+
 def loop_gain(
     current_a: np.ndarray,
     vce_v: np.ndarray,
@@ -129,15 +184,86 @@ def loop_gain(
     ballast_ohm: float,
     bipolar: bool,
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
+    transfer: TransferCurves | None = None,
+    tj_c: np.ndarray | float = 25.0,
+    junctions: int = 1,
 ) -> np.ndarray:
-    """Electro-thermal loop gain G = Rth·V_CE·|φ|/(R_E + r_e) of each device (elementary derivation).
+    """Electro-thermal loop gain G = −Rth·V_CE·φ/r of each device (elementary derivation).
 
-    G ≥ 1 means a device that warms takes more current faster than its ballast pushes it
-    back: current hogging, thermal runaway. r_e = V_T/I for a bipolar part, 0 for a FET.
+    With r and φ of :func:`drive_slopes`: G = Rth·V_CE·|φ|/(R_E + r_e) for a bipolar part
+    (r_e = V_T/I per junction), G = Rth·V_DS·α/(1 + g_m·R_S) for a FET with transfer curves
+    (negative above the ZTC point, where the device cools itself back). G ≥ 1 means a device
+    that warms takes more current faster than its ballast pushes it back. The exact
+    condition for the whole set of devices is :func:`stability_gain`.
     """
-    re = THERMAL_VOLTAGE_V / np.maximum(current_a, 1e-12) if bipolar else 0.0
-    with np.errstate(divide="ignore"):
-        return rth_k_per_w * np.maximum(vce_v, 0.0) * abs(tempco_v_per_k) / (ballast_ohm + re)
+    r, phi = drive_slopes(
+        current_a,
+        np.broadcast_to(np.asarray(tj_c, dtype=float), np.shape(current_a)),
+        ballast_ohm=ballast_ohm,
+        bipolar=bipolar,
+        tempco_v_per_k=tempco_v_per_k,
+        transfer=transfer,
+        junctions=junctions,
+    )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return rth_k_per_w * np.maximum(vce_v, 0.0) * -phi / r
+
+
+def stability_gain(
+    current_a: np.ndarray,
+    vce_v: np.ndarray,
+    tj_c: np.ndarray,
+    *,
+    z_self_k_per_w: float,
+    z_shared_k_per_w: float = 0.0,
+    ballast_ohm: float,
+    bipolar: bool,
+    tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
+    transfer: TransferCurves | None = None,
+    junctions: int = 1,
+) -> np.ndarray:
+    """The largest real part of the eigenvalues of the electro-thermal fixed point's Jacobian, shape ``(m,)``.
+
+    Parameters
+    ----------
+    current_a, vce_v, tj_c
+        Each device's current, voltage and junction temperature at a shared state, ``(n, m)``.
+    z_self_k_per_w
+        Junction rise per watt of a device's own power (rth_jc + R_cs, or Zth for pulses). [K/W]
+    z_shared_k_per_w
+        Rise of every junction per watt of the total power (the shared heatsink). [K/W]
+
+    Notes
+    -----
+    With the total current held (Σ δI = 0) and a common drive, δI_l = (δV_B − φ_l δT_l)/r_l gives
+    ∂I_l/∂T_j = (1/r_l)·[(φ_j/r_j)/Σ(1/r) − φ_l δ_lj]; with ∂P_l/∂I_l = V_l − I_l·R_E and
+    δT = (z_self·1 + z_shared·11ᵀ)·δP, the Jacobian J = Z·diag(∂P/∂I)·∂I/∂T. The state is
+    stable when every eigenvalue of J has a real part below 1 (the linearized thermal
+    dynamics C·dδT/dt = (J − 1)·δT/Z for devices with the same thermal time constants;
+    elementary derivation). For identical devices at an equal split the eigenvalue equals
+    the per-device :func:`loop_gain`; at an unequal split it lies between the devices'
+    gains, so a device's gain alone flags runaway too early. One device alone cannot
+    redistribute a held current: 0.
+    """
+    n, m = current_a.shape
+    if n == 1:
+        return np.zeros(m)
+    r, phi = drive_slopes(
+        current_a,
+        tj_c,
+        ballast_ohm=ballast_ohm,
+        bipolar=bipolar,
+        tempco_v_per_k=tempco_v_per_k,
+        transfer=transfer,
+        junctions=junctions,
+    )
+    g = 1.0 / np.maximum(r, 1e-12)  # (n, m)
+    moves = g[:, None, :] * ((phi * g) / g.sum(axis=0))[None, :, :]  # ∂I_l/∂T_j, (l, j, m)
+    moves[np.arange(n), np.arange(n), :] -= g * phi
+    dp = np.maximum(vce_v, 0.0) - current_a * ballast_ohm  # ∂P_l/∂I_l, (n, m)
+    weighted = dp[:, None, :] * moves  # (l, j, m)
+    jac = z_self_k_per_w * weighted + z_shared_k_per_w * weighted.sum(axis=0, keepdims=True)
+    return np.linalg.eigvals(np.moveaxis(jac, 2, 0)).real.max(axis=1)
 
 
 @dataclass(frozen=True)
@@ -210,8 +336,8 @@ def sharing_monte_carlo(
             if np.max(np.abs(tj_new - tj)) < 1e-6:
                 break
             tj = tj_new
-        gain = stage.loop_gain(cur, vce, rth)
-        runaway += int((gain >= 1).any(axis=0).sum())
+        # the whole set's exact condition, not one device's gain
+        runaway += int((stage.stability_gain(cur, vce, tj, z_self_k_per_w=rth) >= 1).sum())
         shares.append(cur.max(axis=0) / total_a)
         done += size
         if progress is not None:

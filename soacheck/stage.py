@@ -7,14 +7,16 @@ and :mod:`soacheck.steady_state` finds its settled operating points.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
 import numpy as np
 
+from soacheck.bipolar import base_current, junctions
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
-from soacheck.sharing import VBE_TEMPCO_V_PER_K, loop_gain, share_current
+from soacheck.sharing import VBE_TEMPCO_V_PER_K, loop_gain, share_current, stability_gain
 
 SETTLED_K = 1e-4
 """The electro-thermal fixed point counts as settled when no junction moves more than this. [K]"""
@@ -69,6 +71,8 @@ class Stage:
         Heatsink shared by all devices (each with its own interface), or None.
     case_temp_c
         A fixed case temperature instead of a heatsink. [°C]
+    drive_limit_a
+        The most base current the driver can supply to all devices together, or None. [A]
     """
 
     part: Part
@@ -80,6 +84,7 @@ class Stage:
     cooling: Cooling | None = None
     case_temp_c: float | None = None
     name: str = "stage"
+    drive_limit_a: float | None = None
 
     def __post_init__(self) -> None:
         if self.count < 1:
@@ -122,33 +127,66 @@ class Stage:
             bipolar=self.part.is_bipolar,
             tempco_v_per_k=self.vbe_tempco_v_per_k,
             start_a=start_a,
+            transfer=self.part.transfer,
+            junctions=junctions(self.part.darlington),
         )
 
     def device_voltage(self, source_v: np.ndarray, total_a: np.ndarray, device_a: np.ndarray) -> np.ndarray:
         """V_CE of each device: the source less the sense-resistor and ballast drops. [V]"""
         return source_v - total_a * self.series_ohm - device_a * self.ballast_ohm
 
-    def loop_gain(self, device_a: np.ndarray, vce_v: np.ndarray, rth_k_per_w: float) -> np.ndarray:
+    def loop_gain(
+        self, device_a: np.ndarray, vce_v: np.ndarray, rth_k_per_w: float, tj_c: np.ndarray | float = 25.0
+    ) -> np.ndarray:
         """Electro-thermal loop gain of each device; see :func:`loop_gain`."""
-        return loop_gain(
+        return loop_gain(device_a, vce_v, rth_k_per_w, tj_c=tj_c, **self._law())
+
+    def stability_gain(
+        self,
+        device_a: np.ndarray,
+        vce_v: np.ndarray,
+        tj_c: np.ndarray,
+        *,
+        z_self_k_per_w: float,
+        z_shared_k_per_w: float = 0.0,
+    ) -> np.ndarray:
+        """The whole set's electro-thermal stability gain at each point, ``(m,)``; see :func:`stability_gain`."""
+        return stability_gain(
             device_a,
             vce_v,
-            rth_k_per_w,
-            ballast_ohm=self.ballast_ohm,
-            bipolar=self.part.is_bipolar,
-            tempco_v_per_k=self.vbe_tempco_v_per_k,
+            tj_c,
+            z_self_k_per_w=z_self_k_per_w,
+            z_shared_k_per_w=z_shared_k_per_w,
+            **self._law(),
         )
+
+    def drive_current_a(self, device_a: np.ndarray) -> np.ndarray | None:
+        """Base current the driver supplies to all devices at each point, Σ I_E/(h_FE + 1), ``(m,)``. [A]
+
+        0 for FETs and IGBTs (the gate draws no steady current); None for a bipolar part without
+        a ``[gain]`` table, whose drive cannot be known. See :func:`~soacheck.bipolar.base_current`.
+        """
+        if not self.part.is_bipolar:
+            return np.zeros(np.shape(device_a)[1:])
+        if self.part.gain is None:
+            return None
+        return base_current(device_a, self.part.gain).sum(axis=0)
+
+    def drive_current_peak_a(self, device_a: np.ndarray) -> float | None:
+        """The most base current the driver supplies at any point; None where it cannot be known. [A]"""
+        drive = self.drive_current_a(device_a)
+        return None if drive is None else float(np.max(drive))
+
+    def _law(self) -> dict:
+        """The device law's keywords for :mod:`soacheck.sharing`."""
+        return {
+            "ballast_ohm": self.ballast_ohm,
+            "bipolar": self.part.is_bipolar,
+            "tempco_v_per_k": self.vbe_tempco_v_per_k,
+            "transfer": self.part.transfer,
+            "junctions": junctions(self.part.darlington),
+        }
 
     def with_part(self, part: Part) -> Stage:
         """The same stage with another pass device in place."""
-        return Stage(
-            part,
-            self.count,
-            self.ballast_ohm,
-            self.series_ohm,
-            self.vbe_spread_v,
-            self.vbe_tempco_v_per_k,
-            self.cooling,
-            self.case_temp_c,
-            self.name,
-        )
+        return dataclasses.replace(self, part=part)

@@ -9,6 +9,7 @@ reported as a failure with the limit ``runaway``.
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -21,6 +22,7 @@ from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.quantities import check_memory
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
+from soacheck.steady_state import HOG_START_K, TIP_V
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import temperature_rise
@@ -50,12 +52,13 @@ class StageRun:
     gain: np.ndarray
     runaway: bool
     assumptions: tuple[str, ...] = field(default_factory=tuple)
+    stage_gain: np.ndarray | None = None
 
     @property
     def inside(self) -> np.ndarray:
-        """(n, m): inside the SOA and at or below tj_max (under a policy, its ceiling), and not in runaway."""
+        """(n, m): inside the SOA and at or below tj_max (under a policy, its ceiling), not in runaway, driven."""
         ok = (self.device_a <= self.allowed_a) & (self.junction_c <= self.stage.part.tj_limit_c)
-        return ok & ~(self.limit == "runaway")
+        return ok & ~np.isin(self.limit, ("runaway", "drive"))
 
     @property
     def passed(self) -> bool:
@@ -92,6 +95,8 @@ class StageRun:
             "case_peak": float(self.case_c.max()),
             "heatsink_peak": float(self.sink_c.max()),
             "loop_gain_peak": float(np.max(self.gain)),
+            "stage_gain_peak": float(np.max(self.stage_gain)) if self.stage_gain is not None else 0.0,
+            "drive_current_peak": self.stage.drive_current_peak_a(self.device_a),
             "device_power_peak": float(self.device_w.max()),
             "sense_resistor_power_peak": float((self.total_a**2).max() * self.stage.series_ohm),
             "energy": energy_wh,
@@ -148,25 +153,31 @@ def run_stage(
     check_memory(20 * 8 * n * m, f"a run of {n} devices over {m} samples", "use fewer samples or fewer devices")
     junction, junction_note = _junction_network(part)
     rth_diff = part.ratings.rth_jc_k_per_w + (stage.cooling.case_sink_k_per_w if stage.cooling else 0.0)
-    bipolar = part.is_bipolar
+    z_shared = stage.cooling.sink_ambient_k_per_w if stage.cooling else 0.0
 
-    tj = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
-    converged = False
-    currents = None
-    for _ in range(max_iterations):
-        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
-        vce = stage.device_voltage(src[None, :], total[None, :], currents)
-        power = np.maximum(vce, 0.0) * currents
-        sink, case, tj_new = _temperatures(stage, junction, t, power)
-        change = np.max(np.abs(tj_new - tj))
-        tj = tj_new
-        if change < SETTLED_K:
-            converged = True
-            break
-        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
-            break
-    gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
-    runaway_at = (gain >= 1.0).any(axis=0) | (not converged and n > 1)
+    def relax(tj0: np.ndarray, placed: Stage = stage):
+        state, converged = _relax(placed, junction, t, src, total, tj0, max_iterations)
+        currents, vce, _, _, tj, _ = state
+        gain = stage.stability_gain(currents, vce, tj, z_self_k_per_w=rth_diff, z_shared_k_per_w=z_shared)
+        return state, converged, gain
+
+    start_c = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
+    state, converged, stage_gain = relax(start_c)
+    unstable = ((stage_gain >= 1.0) | (not converged)) if n > 1 else np.zeros(m, dtype=bool)
+    hogging = np.zeros(m, dtype=bool)
+    if unstable.any():  # the shared state cannot hold there: look for Q1 taking the current
+        hot = start_c.copy()
+        hot[0] += HOG_START_K
+        # matched devices stay exactly matched in a computation, though nothing real does: Q1 a microvolt low
+        tipped = dataclasses.replace(stage, vbe_spread_v=max(stage.vbe_spread_v, TIP_V))
+        other, other_converged, other_gain = relax(hot, tipped)
+        if other_converged:  # the transient into that state is what happens: report and check it
+            hogging = unstable
+            state = tuple(np.where(hogging, b, a) for a, b in zip(state, other, strict=True))
+            stage_gain = np.where(hogging, other_gain, stage_gain)
+    currents, vce, power, case, tj, sink = state
+    runaway_at = unstable & ~hogging
+    gain = stage.loop_gain(currents, vce, rth_diff, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, breakdown=breakdown)
     notes = [
         junction_note,
@@ -179,11 +190,18 @@ def run_stage(
         "each device checked against its DC boundary at its own case temperature, and its junction against "
         f"{part.tj_limit} = {part.tj_limit_c:g} °C",
     ]
-    if not bipolar and n > 1:
-        notes.append("FET sharing: 1/g_m neglected, only the source resistors balance the devices (conservative)")
+    notes.extend(sharing_notes(stage))
+    if hogging.any():
+        notes.append(
+            f"from t = {float(t[np.argmax(hogging)]):g} s the shared state is unstable (the whole set's "
+            "electro-thermal Jacobian has an eigenvalue ≥ 1): the run into the state in which Q1 takes the current "
+            "(matched devices tipped by 1 µV) is reported and checked there, joined sample by sample to the shared "
+            "state before"
+        )
     if runaway_at.any():
         notes.append(
-            f"thermal runaway: loop gain {float(gain.max()):.2f} ≥ 1 from t = {float(t[np.argmax(runaway_at)]):g} s; "
+            f"thermal runaway: stability gain {float(np.max(stage_gain)):.2f} ≥ 1 from "
+            f"t = {float(t[np.argmax(runaway_at)]):g} s and no stable state with one device taking the current; "
             "raise the ballast resistors or lower the voltage across the devices"
         )
     return StageRun(
@@ -203,7 +221,45 @@ def run_stage(
         gain,
         bool(runaway_at.any()),
         tuple(notes),
+        stage_gain,
     )
+
+
+def _relax(stage: Stage, junction: Foster, t, src, total, tj0: np.ndarray, iterations: int):
+    """Waveform relaxation from junction temperatures ``tj0``: (currents, V, P, case, Tj, sink), converged."""
+    tj = tj0
+    currents = None
+    for _ in range(iterations):
+        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
+        vce = stage.device_voltage(src[None, :], total[None, :], currents)
+        power = np.maximum(vce, 0.0) * currents
+        sink, case, tj_new = _temperatures(stage, junction, t, power)
+        change = np.max(np.abs(tj_new - tj))
+        tj = tj_new
+        if change < SETTLED_K:
+            return (currents, vce, power, case, tj, sink), True
+        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
+            break
+    return (currents, vce, power, case, tj, sink), False
+
+
+def sharing_notes(stage: Stage) -> list[str]:
+    """How the devices' law was modelled, in words."""
+    part = stage.part
+    if part.is_bipolar:
+        law = "Darlington: V_BE slope 2·V_T per e-fold of current" if part.darlington else "V_BE = V_T ln(I/I_S)"
+        notes = [f"bipolar sharing: {law}, temperature coefficient {stage.vbe_tempco_v_per_k * 1e3:g} mV/K"]
+        if part.gain is None:
+            notes.append("no [gain] table: the base current the driver must supply is not known")
+        return notes
+    if part.transfer is not None:
+        return [
+            "FET sharing by the transfer curves (transfer.csv): V_GS(I, T) with its transconductance and "
+            "α = ∂I_D/∂T_j in place of a V_BE law and tempco"
+        ]
+    if stage.count > 1:
+        return ["FET sharing: 1/g_m neglected, only the source resistors balance the devices (conservative)"]
+    return []
 
 
 def check_devices(
@@ -240,6 +296,10 @@ def check_devices(
     limit = allowed.limit.reshape(n, m).astype(object)
     hot = junction_c > stage.part.tj_limit_c
     limit = np.where(hot & (device_a <= allowed_a), stage.part.tj_limit, limit)
+    drive = stage.drive_current_a(device_a)
+    if drive is not None and stage.drive_limit_a is not None:  # the driver falls short: Q1 is not driven
+        short = drive > stage.drive_limit_a
+        limit = np.where(short[None, :] & (np.arange(n) == 0)[:, None], "drive", limit)
     limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))

@@ -1,4 +1,10 @@
-"""A stage in thermal steady state at each operating point (envelopes, sweeps)."""
+"""A stage in thermal steady state at each operating point (envelopes, sweeps).
+
+Where the devices' shared state is unstable (the electro-thermal Jacobian of the whole set
+has an eigenvalue at or above 1), the state that exists physically is sought instead: one
+device, Q1 (the one with the lowest V_BE), taking the current. It is reported and checked
+when it is itself stable; otherwise the point is runaway.
+"""
 
 from __future__ import annotations
 
@@ -12,10 +18,22 @@ from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC
 
+HOG_START_K = 200.0
+"""How much hotter than the others Q1 starts when the state where it takes the current is sought. [K]"""
+
+TIP_V = 1e-6
+"""V_BE offset that breaks the exact symmetry of matched devices in that search (nothing real is matched closer). [V]"""
+
 
 @dataclass(frozen=True, eq=False)
 class SteadyState:
-    """Operating points of a stage in thermal steady state, each device: arrays ``(n, m)``; sink ``(m,)``."""
+    """Operating points of a stage in thermal steady state, each device: arrays ``(n, m)``; sink ``(m,)``.
+
+    ``gain`` is each device's loop gain, ``stage_gain`` the whole set's stability gain (the
+    largest real eigenvalue of the electro-thermal Jacobian), ``hogging`` where the shared
+    state was unstable and the stable state with Q1 taking the current is reported instead,
+    ``runaway_at`` where no stable state was found.
+    """
 
     device_a: np.ndarray
     device_v: np.ndarray
@@ -25,6 +43,8 @@ class SteadyState:
     sink_c: np.ndarray
     gain: np.ndarray
     runaway_at: np.ndarray
+    stage_gain: np.ndarray | None = None
+    hogging: np.ndarray | None = None
 
 
 def steady_state(
@@ -54,7 +74,9 @@ def steady_state(
     Notes
     -----
     Tc_k = T_sink + D·P_k·R_cs, T_sink = T_a + R_sa·Σ D·P_k (or the fixed case temperature),
-    Tj_k = Tc_k + P_k·Z, solved together with the sharing as a fixed point.
+    Tj_k = Tc_k + P_k·Z, solved together with the sharing as a fixed point, first from equal
+    temperatures; where that state is unstable (:meth:`Stage.stability_gain` ≥ 1), again
+    from Q1 hot, and that state is taken where it settles and is stable.
     """
     part = stage.part
     src = np.asarray(source_v, dtype=float)
@@ -63,16 +85,51 @@ def steady_state(
     continuous = math.isinf(pulse_s) or duty >= 1.0
     average = 1.0 if continuous else duty
     model = thermal_model(part)
-    if continuous or model is None:
-        z = part.ratings.rth_jc_k_per_w
-    else:
-        z = float(model.pulse_zth(pulse_s, duty))
+    z = part.ratings.rth_jc_k_per_w if continuous or model is None else float(model.pulse_zth(pulse_s, duty))
     cooling = stage.cooling
-    tj = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
+    z_self = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
+    z_shared = cooling.sink_ambient_k_per_w * average if cooling and sink == "each" else 0.0
+    start_c = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
+
+    def solve(tj0: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
+        state, ok = _settle(stage, src, total, tj0, z=z, average=average, sink=sink, iterations=max_iterations)
+        currents, vce, _, _, tj, _ = state
+        return state, ok, stage.stability_gain(currents, vce, tj, z_self_k_per_w=z_self, z_shared_k_per_w=z_shared)
+
+    state, settled, stage_gain = solve(start_c)
+    unstable = (stage_gain >= 1.0) | ~settled if n > 1 else np.zeros(m, dtype=bool)
+    hogging = np.zeros(m, dtype=bool)
+    if unstable.any():
+        hot = start_c.copy()
+        hot[0] += HOG_START_K
+        other, other_settled, other_gain = solve(hot)
+        hogging = unstable & other_settled & (other_gain < 1.0)
+        state = tuple(np.where(hogging, b, a) for a, b in zip(state, other, strict=True))
+        stage_gain = np.where(hogging, other_gain, stage_gain)
+    currents, vce, power, case, tj, sink_c = state
+    gain = stage.loop_gain(currents, vce, z_self, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
+    return SteadyState(currents, vce, power, case, tj, sink_c, gain, unstable & ~hogging, stage_gain, hogging)
+
+
+def _settle(
+    stage: Stage,
+    src: np.ndarray,
+    total: np.ndarray,
+    tj0: np.ndarray,
+    *,
+    z: float,
+    average: float,
+    sink: str,
+    iterations: int,
+) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
+    """The fixed point from junction temperatures ``tj0``: (currents, V, P, case, Tj, sink) and where it settled."""
+    cooling = stage.cooling
+    n, m = tj0.shape
+    tj = tj0
     settled = np.zeros(m, dtype=bool)
     gone = np.zeros(m, dtype=bool)
     currents = None
-    for _ in range(max_iterations):
+    for _ in range(iterations):
         currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
@@ -91,7 +148,4 @@ def steady_state(
         gone = (tj >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
         if np.all(settled | gone):
             break
-    rth_diff = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
-    gain = stage.loop_gain(currents, vce, rth_diff) if n > 1 else np.zeros((n, m))
-    runaway_at = (gain >= 1.0).any(axis=0) | ((gone | ~settled) & (n > 1))
-    return SteadyState(currents, vce, power, case, tj, sink_c, gain, runaway_at)
+    return (currents, vce, power, case, tj, sink_c), settled & ~gone

@@ -58,9 +58,10 @@ class StageTable(_Table):
     ballast: Q(q.RESISTANCE) = 0.0
     series_resistance: Q(q.RESISTANCE) = 0.0
     vbe_spread: Q(q.VBE_SPREAD) = 0.0
-    vbe_tempco: Q(q.VBE_TEMPCO) = -0.002
+    vbe_tempco: Q(q.VBE_TEMPCO) | None = None  # None: −2 mV/K per base-emitter junction of the part
     case_temp: Q(q.TEMPERATURE) | None = None
     cooling: CoolingTable | None = None
+    drive_limit: Q(q.CURRENT) | None = None
 
 
 class EnvelopeTable(_Table):
