@@ -739,6 +739,7 @@ def envelope(
     voltages: ArrayLike | None = ...,
     pulse: Pulse = ...,
     duty: float | None = ...,
+    idle_current: float = ...,
     breakdown: BreakdownDerating = ...,
     library: Library = ...,
     progress: Callable[[int, int], None] | None = ...,
@@ -752,6 +753,7 @@ def envelope(
     voltages: ArrayLike | None = ...,
     pulse: Pulse = ...,
     duty: float | None = ...,
+    idle_current: float = ...,
     breakdown: BreakdownDerating = ...,
     library: Library = ...,
     progress: Callable[[int, int], None] | None = ...,
@@ -764,6 +766,7 @@ def envelope(
     voltages: ArrayLike | None = None,
     pulse: Pulse = "dc",
     duty: float | None = None,
+    idle_current: float = 0.0,
     breakdown: BreakdownDerating = "auto",
     library: Library = None,
     progress: Callable[[int, int], None] | None = None,
@@ -787,6 +790,9 @@ def envelope(
     pulse, duty
         For the largest safe envelope: DC, or pulses of a width at a duty in (0, 1] (a single
         pulse when ``duty`` is None).
+    idle_current
+        For the largest safe envelope: total current standing between pulses, at the same
+        source voltage (an envelope file gives its own ``idle_current``). [A]
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
     progress
@@ -811,7 +817,15 @@ def envelope(
         grid = default_voltages(loaded.part.ratings.v_max_v)
     else:
         grid = np.unique(np.asarray(voltages, dtype=float))
-    safe = largest_safe_envelope(loaded, grid, pulse_s=pulse_s, duty=duty_value, breakdown=chosen, progress=progress)
+    safe = largest_safe_envelope(
+        loaded,
+        grid,
+        pulse_s=pulse_s,
+        duty=duty_value,
+        idle_current_a=IDLE_CURRENT.check(idle_current, "--idle-current"),
+        breakdown=chosen,
+        progress=progress,
+    )
     return SafeEnvelopeResult(limit_table(safe), safe)
 
 

@@ -46,6 +46,8 @@ class Envelope:
     ambient_c, case_temp_c
         The stage's heatsink settles in this ambient; or the cases are held at this
         temperature. [°C]
+    idle_current_a
+        Total current standing between pulses, at the same source voltage; 0 for none. [A]
     """
 
     v_min_v: float
@@ -56,6 +58,7 @@ class Envelope:
     duty: float = 1.0
     ambient_c: float | None = 25.0
     case_temp_c: float | None = None
+    idle_current_a: float = 0.0
 
     def __post_init__(self) -> None:
         if self.v_min_v <= 0 < self.v_max_v:
@@ -73,6 +76,10 @@ class Envelope:
             raise SoacheckError("envelope: current and power must be above zero")
         if not (0 <= self.duty <= 1) or (self.duty == 0 and math.isinf(self.pulse_s)):
             raise SoacheckError(f"envelope: duty {self.duty:g} is outside (0, 1]; give tp/T, such as 0.1")
+        if not (math.isfinite(self.idle_current_a) and self.idle_current_a >= 0):
+            raise SoacheckError(f"envelope: idle_current is {self.idle_current_a:g}; give 0 A or more")
+        if self.idle_current_a > 0 and (math.isinf(self.pulse_s) or self.duty >= 1):
+            raise SoacheckError('envelope: idle_current flows between pulses; give a pulse, such as pulse = "3ms"')
 
     @property
     def label(self) -> str:
@@ -82,6 +89,8 @@ class Envelope:
             timing = f"single {format_duration(self.pulse_s)} pulse"
         else:
             timing = f"{format_duration(self.pulse_s)} pulses at duty {self.duty:g}"
+        if self.idle_current_a > 0:
+            timing += f" on {self.idle_current_a:g} A between pulses"
         return f"{self.v_min_v:g}–{self.v_max_v:g} V, {self.current_a:g} A, {self.power_w:g} W, {timing}"
 
     def edge(self, points: int = 400) -> tuple[np.ndarray, np.ndarray]:
@@ -173,6 +182,7 @@ def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, breakd
         state.runaway_at,
         pulse_s=pulse_s,
         duty=0.0 if math.isinf(pulse_s) else duty,
+        idle_current_a=state.idle_a if state.idle_a is not None else 0.0,
         breakdown=breakdown,
     )
     dropout = state.device_v <= 0
@@ -200,7 +210,15 @@ def check_envelope(
         )
     placed, notes = stage_for(stage, envelope)
     v, i = envelope.edge(points)
-    state = steady_state(placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, sink="worst")
+    state = steady_state(
+        placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, idle_a=envelope.idle_current_a, sink="worst"
+    )
+    if envelope.idle_current_a > 0:
+        notes.append(
+            f"{envelope.idle_current_a:g} A between pulses, shared like the pulse current: each junction peaks at "
+            "Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D) (superposition; without a thermal model as DC), the heatsink "
+            "sees D·P + (1 − D)·P_idle, and repeated pulses are judged where the junction starts them"
+        )
     allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, breakdown)
     bad = (margin < 0).any(axis=0)
     outside = []
@@ -253,6 +271,7 @@ def largest_safe_envelope(
     *,
     pulse_s: float = DC,
     duty: float = 1.0,
+    idle_current_a: float = 0.0,
     breakdown: BreakdownDerating = "auto",
     iterations: int = 48,
     progress: Callable[[int, int], None] | None = None,
@@ -273,7 +292,7 @@ def largest_safe_envelope(
     hi = np.full(v.size, cap)
 
     def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, sink="each")
+        state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, idle_a=idle_current_a, sink="each")
         _, margin, limit = _judge(stage, state, pulse_s, duty, breakdown)
         d = np.argmin(margin, axis=0)
         return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
@@ -287,6 +306,8 @@ def largest_safe_envelope(
             progress(step + 1, iterations)
     _, limit = safe(hi)
     timing_note = "dc" if math.isinf(pulse_s) else f"{format_duration(pulse_s)} pulses at duty {duty:g}"
+    if idle_current_a > 0 and not math.isinf(pulse_s):
+        timing_note += f" on {idle_current_a:g} A between pulses"
     surroundings = (
         f"heatsink at each point's own steady state, ambient {stage.cooling.ambient_c:g} °C"
         if stage.cooling

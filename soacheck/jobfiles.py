@@ -112,13 +112,14 @@ def envelope_from_table(data: dict[str, Any], *, where: str) -> Envelope:
     ambient = None if case_temp is not None else (25.0 if table.ambient is None else table.ambient)
     current, power = table.current, table.power
     try:
-        return Envelope(v_lo, v_hi, current, power, pulse_s, duty, ambient, case_temp)
+        return Envelope(v_lo, v_hi, current, power, pulse_s, duty, ambient, case_temp, table.idle_current)
     except SoacheckError as err:
         raise SoacheckError(f"{where}: {str(err).removeprefix('envelope: ')}") from None
 
 
 def read_envelope(path: str | Path) -> Envelope:
-    """Read an envelope file (TOML): voltage = [low, high], current, power, pulse, duty, ambient or case_temp."""
+    """Read an envelope file (TOML): voltage = [low, high], current, power, pulse, duty, ambient or case_temp,
+    idle_current."""
     return envelope_from_table(read_toml(path, "envelope"), where=str(path))
 
 

@@ -272,6 +272,7 @@ def check_devices(
     *,
     pulse_s: float = DC,
     duty: float = 0.0,
+    idle_current_a: np.ndarray | float = 0.0,
     breakdown: BreakdownDerating = "auto",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Allowed current, margin and limit of every device at every point, each ``(n, m)``.
@@ -289,6 +290,7 @@ def check_devices(
         tc_c=case_c,
         pulse_s=pulse_s,
         duty=duty,
+        idle_current_a=idle_current_a,
         breakdown=breakdown,
         beyond_case_k_per_w=cooling.case_sink_k_per_w + cooling.sink_ambient_k_per_w if cooling else 0.0,
     )

@@ -45,6 +45,7 @@ class SteadyState:
     runaway_at: np.ndarray
     stage_gain: np.ndarray | None = None
     hogging: np.ndarray | None = None
+    idle_a: np.ndarray | None = None
 
 
 def steady_state(
@@ -54,6 +55,7 @@ def steady_state(
     *,
     pulse_s: float = DC,
     duty: float = 1.0,
+    idle_a: np.ndarray | float = 0.0,
     sink: Literal["each", "worst"] = "each",
     max_iterations: int = 2000,
 ) -> SteadyState:
@@ -67,14 +69,18 @@ def steady_state(
         DC, or pulses of width ``pulse_s`` at duty ``duty``: the junction then sits
         P·Zth(tp, D) above its case (the part's model; rth_jc without one, conservative) and
         the heatsink sees the average power D·P.
+    idle_a
+        Total current standing between pulses at each point, at the same source voltage,
+        shared like the pulse current; ignored for DC. [A]
     sink
         ``each``: every point with the heatsink at its own steady state; ``worst``: every point
         with the heatsink at the steady state of the hottest point (an envelope's worst power).
 
     Notes
     -----
-    Tc_k = T_sink + D·P_k·R_cs, T_sink = T_a + R_sa·Σ D·P_k (or the fixed case temperature),
-    Tj_k = Tc_k + P_k·Z, solved together with the sharing as a fixed point, first from equal
+    With P̄_k = D·P_k + (1 − D)·P_idle,k: Tc_k = T_sink + P̄_k·R_cs, T_sink = T_a + R_sa·Σ P̄_k (or
+    the fixed case temperature), Tj_k = Tc_k + P_idle,k·Rth + (P_k − P_idle,k)·Z (superposition),
+    solved together with the sharing as a fixed point, first from equal
     temperatures; where that state is unstable (:meth:`Stage.stability_gain` ≥ 1), again
     from Q1 hot, and that state is taken where it settles and is stable.
     """
@@ -86,13 +92,17 @@ def steady_state(
     average = 1.0 if continuous else duty
     model = thermal_model(part)
     z = part.ratings.rth_jc_k_per_w if continuous or model is None else float(model.pulse_zth(pulse_s, duty))
+    rth = model.foster.rth_k_per_w if model is not None and not continuous else z
+    idle_total = np.zeros(m) if continuous else np.broadcast_to(np.asarray(idle_a, dtype=float), (m,))
     cooling = stage.cooling
     z_self = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
     z_shared = cooling.sink_ambient_k_per_w * average if cooling and sink == "each" else 0.0
     start_c = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
 
     def solve(tj0: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
-        state, ok = _settle(stage, src, total, tj0, z=z, average=average, sink=sink, iterations=max_iterations)
+        state, ok = _settle(
+            stage, src, total, idle_total, tj0, z=z, rth=rth, average=average, sink=sink, iterations=max_iterations
+        )
         currents, vce, _, _, tj, _ = state
         return state, ok, stage.stability_gain(currents, vce, tj, z_self_k_per_w=z_self, z_shared_k_per_w=z_shared)
 
@@ -108,16 +118,26 @@ def steady_state(
         stage_gain = np.where(hogging, other_gain, stage_gain)
     currents, vce, power, case, tj, sink_c = state
     gain = stage.loop_gain(currents, vce, z_self, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
-    return SteadyState(currents, vce, power, case, tj, sink_c, gain, unstable & ~hogging, stage_gain, hogging)
+    idle = _idle_share(idle_total, currents, total)
+    return SteadyState(currents, vce, power, case, tj, sink_c, gain, unstable & ~hogging, stage_gain, hogging, idle)
+
+
+def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray) -> np.ndarray:
+    """Each device's standing current: the total shared like the pulse current, ``(n, m)``. [A]"""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        fraction = np.where(total > 0, currents / total, 1.0 / currents.shape[0])
+    return idle_total[None, :] * fraction
 
 
 def _settle(
     stage: Stage,
     src: np.ndarray,
     total: np.ndarray,
+    idle_total: np.ndarray,
     tj0: np.ndarray,
     *,
     z: float,
+    rth: float,
     average: float,
     sink: str,
     iterations: int,
@@ -133,16 +153,20 @@ def _settle(
         currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
+        idle = _idle_share(idle_total, currents, total)
+        idle_w = np.maximum(stage.device_voltage(src[None, :], idle_total[None, :], idle), 0.0) * idle
+        mean_w = average * power + (1.0 - average) * idle_w
         if cooling is not None:
-            sink_w = average * power.sum(axis=0)
+            sink_w = mean_w.sum(axis=0)
             if sink == "worst":
                 sink_w = np.full(m, sink_w.max())
             sink_c = cooling.ambient_c + cooling.sink_ambient_k_per_w * sink_w
-            case = sink_c[None, :] + average * power * cooling.case_sink_k_per_w
+            case = sink_c[None, :] + mean_w * cooling.case_sink_k_per_w
         else:
             sink_c = np.full(m, stage.case_temp_c)
             case = np.broadcast_to(sink_c, (n, m)).copy()
-        tj_new = np.minimum(case + power * z, 2 * RUNAWAY_C)  # a point that runs away stops here
+        peak = case + idle_w * rth + (power - idle_w) * z
+        tj_new = np.minimum(peak, 2 * RUNAWAY_C)  # a point that runs away stops here
         settled = np.max(np.abs(tj_new - tj), axis=0) < SETTLED_K
         tj = tj_new
         gone = (tj >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle

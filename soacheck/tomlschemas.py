@@ -74,6 +74,7 @@ class EnvelopeTable(_Table):
     duty: Q(q.DUTY) | None = None
     ambient: Q(q.TEMPERATURE) | None = None
     case_temp: Q(q.TEMPERATURE) | None = None
+    idle_current: Q(q.IDLE_CURRENT) = 0.0
 
 
 class DischargeTable(_Table):

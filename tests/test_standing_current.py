@@ -174,3 +174,23 @@ def test_a_trace_pulse_on_a_standing_current_is_judged_where_the_junction_starts
     result = warm.result()
     assert not result.passed and result.limit == "second_breakdown"
     assert result.first_violation_time_s == pytest.approx(1.0, abs=1e-9)
+
+
+def test_an_envelope_with_a_standing_current_fails_where_the_points_check_does(tmp_path):
+    """One device, cases held at 25 °C: the envelope's edge at 30 V asks 10 A in 3 ms pulses at duty 0.1.
+
+    Alone the pulse is allowed 125/Zth(3 ms, 0.1)/30 = 12.6 A; on 1.3 A between pulses 9.95 A (the points check
+    above, which the many-pulse simulation confirms), so the envelope passes without and fails with it.
+    """
+    from soacheck.envelope import Envelope, check_envelope
+    from soacheck.stage import Stage
+
+    part = read_part(write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL))
+    stage = Stage(part, 1, case_temp_c=25.0)
+    alone = Envelope(20.0, 40.0, 10.0, 300.0, TP_S, DUTY, None, 25.0)
+    assert check_envelope(stage, alone).passed
+    on_idle = Envelope(20.0, 40.0, 10.0, 300.0, TP_S, DUTY, None, 25.0, idle_current_a=1.3)
+    checked = check_envelope(stage, on_idle)
+    assert not checked.passed and checked.summary()["limit"] == "power"
+    allowed = allowed_current(30.0, part, pulse_s=TP_S, duty=DUTY, idle_current_a=1.3).current_a[0]
+    assert checked.outside[0]["from_voltage"] <= 300.0 / allowed + 1e-9  # where 300 W/V falls below the allowed

@@ -43,6 +43,9 @@ def envelope(
     voltages: Annotated[str | None, typer.Option("--voltages", help="Source voltages, such as 10,20,40.")] = None,
     pulse: Annotated[str, typer.Option("--pulse", help="'dc' or a pulse width, for the limit table.")] = "dc",
     duty: Annotated[float | None, typer.Option("--duty", help="Duty cycle of the pulses, in (0, 1].")] = None,
+    idle_current: Annotated[
+        float, typer.Option("--idle-current", help="Total current standing between pulses [A], for the limit table.")
+    ] = 0.0,
     export: Annotated[Path | None, typer.Option("--export", help="Write the limit table: .csv, .json or .h.")] = None,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
@@ -92,7 +95,9 @@ def envelope(
         output_path(export, "--export", force=force)
     grid = None if voltages is None else number_list(voltages, "--voltages", "10,20,40", VOLTAGE)
     with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
-        found = api.envelope(stage, voltages=grid, pulse=pulse, duty=duty, progress=progress, **options)
+        found = api.envelope(
+            stage, voltages=grid, pulse=pulse, duty=duty, idle_current=idle_current, progress=progress, **options
+        )
     table = found.table
     if export is not None:
         export.write_text(found.export_text(export.suffix), encoding="utf-8")
