@@ -21,10 +21,12 @@ import numpy as np
 
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
+from soacheck.instability import instability_notes
 from soacheck.points import overload_of
 from soacheck.stage import Stage
 from soacheck.stage_run import check_devices
 from soacheck.steady_state import SteadyState, steady_state
+from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
 
 
@@ -213,6 +215,12 @@ def check_envelope(
     state = steady_state(
         placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, idle_a=envelope.idle_current_a, sink="worst"
     )
+    if 0 < envelope.duty < 1 and not math.isinf(envelope.pulse_s) and thermal_model(stage.part) is not None:
+        notes.append(
+            "repeated pulses: second-breakdown and instability lines derated at the junction temperature where each "
+            "pulse starts (the periodic minimum above each device's case), not at the case temperature"
+        )
+    notes.extend(instability_notes(stage.part))
     if envelope.idle_current_a > 0:
         notes.append(
             f"{envelope.idle_current_a:g} A between pulses, shared like the pulse current: each junction peaks at "

@@ -18,6 +18,7 @@ import numpy as np
 from soacheck.boundary import allowed_current
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
+from soacheck.instability import instability_notes
 from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.quantities import check_memory
@@ -191,6 +192,7 @@ def run_stage(
         f"{part.tj_limit} = {part.tj_limit_c:g} °C",
     ]
     notes.extend(sharing_notes(stage))
+    notes.extend(instability_notes(part))
     if hogging.any():
         notes.append(
             f"from t = {float(t[np.argmax(hogging)]):g} s the shared state is unstable (the whole set's "

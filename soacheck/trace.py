@@ -188,6 +188,7 @@ class TraceChecker:
         self.over_pending = False
         self.time_outside = 0.0
         self.excursions = 0
+        self.start_tj_peak = -math.inf  # the hottest junction any excursion started from
         self.open: OpenRun | None = None
         self.worst = _Worst()
         names = ("time", "voltage", "current", "case_temp", *(("tj",) if self.junction is not None else ()), "margin")
@@ -299,6 +300,8 @@ class TraceChecker:
         if self.open is not None and starts.size and starts[0] == 0:  # the open excursion started in a past chunk
             start_tj[0] = self.open.start_tj_c
         start_rows = np.repeat(start_tj, lengths)
+        if np.isfinite(start_tj).any():
+            self.start_tj_peak = max(self.start_tj_peak, float(np.nanmax(start_tj)))
         margins = np.empty((n_b, rows.size))
         for b in range(n_b):
             if b == self.dc:
@@ -486,6 +489,11 @@ class TraceChecker:
                 "curve whose second-breakdown, instability and current limits contain it (the next longer width), "
                 "those limits derated at the junction temperature at the excursion's first sample, where the pulse "
                 "starts, not at the case temperature"
+                + (
+                    f" (excursions started from junctions up to {self.start_tj_peak:.1f} °C)"
+                    if math.isfinite(self.start_tj_peak)
+                    else ""
+                )
             )
         else:
             notes.append(

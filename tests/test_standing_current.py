@@ -174,6 +174,7 @@ def test_a_trace_pulse_on_a_standing_current_is_judged_where_the_junction_starts
     result = warm.result()
     assert not result.passed and result.limit == "second_breakdown"
     assert result.first_violation_time_s == pytest.approx(1.0, abs=1e-9)
+    assert any("up to 49.0 °C" in note for note in result.assumptions)  # the start temperature, named
 
 
 def test_an_envelope_with_a_standing_current_fails_where_the_points_check_does(tmp_path):
