@@ -158,6 +158,8 @@ STAGE_RUN_FIELDS = (
     f("case_peak", "number"),
     f("heatsink_peak", "number"),
     f("loop_gain_peak", "number"),
+    f("stage_gain_peak", "number"),
+    f("drive_current_peak", "number", null=True),
     f("device_power_peak", "number"),
     f("sense_resistor_power_peak", "number"),
     f("energy", "number"),
@@ -176,6 +178,9 @@ ENVELOPE_CHECK_FIELDS = (
     f("worst_current", "number"),
     f("heatsink_temp", "number"),
     f("tj_peak", "number"),
+    f("loop_gain_peak", "number"),
+    f("stage_gain_peak", "number"),
+    f("drive_current_peak", "number", null=True),
     f("outside", array(OUTSIDE_STRETCH)),
 )
 
