@@ -79,6 +79,18 @@ def zth_train_closed_form(tp_s, duty, r=FOUR_R_K_PER_W, tau=FOUR_TAU_S):
     return float(np.sum(r * -np.expm1(-tp_s / tau) / -np.expm1(-(tp_s / duty) / tau)))
 
 
+def zth_train_start_closed_form(tp_s, duty, r=FOUR_R_K_PER_W, tau=FOUR_TAU_S):
+    """Periodic steady state at the start of a pulse (the train's minimum) [K/W].
+
+    Z_start(tp, D) = Σ Rᵢ (1 − e^(−tp/τᵢ)) e^(−(T − tp)/τᵢ) / (1 − e^(−T/τᵢ)), T = tp/D: the peak
+    decayed over the pause (elementary derivation).
+    """
+    import numpy as np
+
+    r, tau, period = np.asarray(r), np.asarray(tau), tp_s / duty
+    return float(np.sum(r * -np.expm1(-tp_s / tau) * np.exp(-(period - tp_s) / tau) / -np.expm1(-period / tau)))
+
+
 def svg_texts(path) -> list[str]:
     """The texts a matplotlib SVG shows (titles, labels, legend entries, ticks), read back from the file.
 

@@ -235,3 +235,67 @@ def test_an_unknown_export_suffix_is_refused_before_anything_is_written(tmp_path
     result = invoke("envelope", table_stage(tmp_path), "--voltages", "5,20", "--export", tmp_path / "limits.txt")
     assert result.exit_code == 2, result.output
     assert ".csv, .json or .h" in result.stderr and not (tmp_path / "limits.txt").exists()
+
+
+# --------------------------------------------------------------------------- two devices sharing, by hand
+
+VT_V, PHI_V_PER_K = 0.02569, -0.002  # kT/q at 25 °C; dV_BE/dT at constant current (Sedra & Smith, from memory)
+BALLAST, SERIES, SPREAD_V, CASE_C = 0.1, 0.02, 0.02, 50.0
+DERATE = (150 - CASE_C) / (150 - 25)  # the reference part's thermal factor at 50 °C: 0.8
+
+
+def shared_by_hand(source_v, total_a):
+    """Two devices, common base drive, ballast R_E each, the first at the bottom of the V_BE band.
+
+    Equal base voltages: V_T ln(I1/I2) + R_E (I1 - I2) - ΔV + φ (Tj1 - Tj2) = 0, with
+    V_CE,k = V_s - I R_series - I_k R_E and Tj,k = Tc + V_CE,k I_k Rth_jc (Rth_jc 1 K/W):
+    the electro-thermal fixed point, solved here with scipy's brentq (elementary circuit analysis).
+    Returns [(V_CE, I)] of both devices.
+    """
+    import scipy.optimize
+
+    def unbalance(i1):
+        i2 = total_a - i1
+        v1, v2 = source_v - total_a * SERIES - i1 * BALLAST, source_v - total_a * SERIES - i2 * BALLAST
+        tj1, tj2 = CASE_C + v1 * i1, CASE_C + v2 * i2
+        return VT_V * math.log(i1 / i2) + BALLAST * (i1 - i2) - SPREAD_V + PHI_V_PER_K * (tj1 - tj2)
+
+    i1 = scipy.optimize.brentq(unbalance, total_a / 2, total_a * (1 - 1e-12), xtol=1e-14)
+    return [(source_v - total_a * SERIES - i * BALLAST, i) for i in (i1, total_a - i1)]
+
+
+def allowed_by_hand(vce):
+    """The reference curve derated at 50 °C, by mechanism: 15 A (not derated), 0.8 x 125 W / V, and second
+    breakdown 0.8 x 3.125 (V/40)^-2 (no table: derated like thermal). tj_max gives the same 100 W."""
+    return {"current": 15.0, "power": DERATE * 125 / vce, "second_breakdown": DERATE * 3.125 * (vce / 40) ** -2}
+
+
+def overload_by_hand(source_v, total_a):
+    return max(i / min(allowed_by_hand(v).values()) for v, i in shared_by_hand(source_v, total_a))
+
+
+def test_exported_limit_table_of_two_sharing_devices_matches_the_hand_solution(tmp_path):
+    """The table read back from the CSV against the sharing solved by hand: each current at most the hand
+    limit and less than 1 mA (plus the solvers' 1e-6) below it; 2 % more puts a device outside. Source
+    voltages up to 40 V keep the loop gain 1 x V_CE x 0.002/(0.1 + V_T/I) below 1 (no runaway)."""
+    import scipy.optimize
+
+    write_part(tmp_path / "ref-bjt")
+    stage = tmp_path / "stage.toml"
+    stage.write_text(
+        f'part = "ref-bjt"\ncount = 2\nballast = {BALLAST}\nseries_resistance = {SERIES}\n'
+        f"vbe_spread = {SPREAD_V}\ncase_temp = {CASE_C}\n",
+        encoding="utf-8",
+    )
+    out = tmp_path / "limits.csv"
+    result = invoke("envelope", stage, "--voltages", "8,15,25,40", "--export", out)
+    assert result.exit_code == 0, result.output
+    table = pd.read_csv(out, comment="#")
+    for source_v, exported_a, limit in table.itertuples(index=False):
+        hand_a = scipy.optimize.brentq(lambda i, v=source_v: overload_by_hand(v, i) - 1, 0.01, 60.0, xtol=1e-12)
+        assert hand_a - RESOLUTION_A - 1e-6 * hand_a <= exported_a <= hand_a * (1 + 1e-9), (source_v, hand_a)
+        assert overload_by_hand(source_v, 1.02 * exported_a) > 1  # 2 % more: outside
+        vce, current = shared_by_hand(source_v, hand_a)[0]  # the first device is the one at its limit
+        bound = min(allowed_by_hand(vce), key=allowed_by_hand(vce).get)
+        assert current == pytest.approx(allowed_by_hand(vce)[bound], rel=1e-6)
+        assert limit == bound, (source_v, limit, bound)
