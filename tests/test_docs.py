@@ -139,3 +139,20 @@ def test_the_convention_reads_commands_exit_codes_outputs_and_skips(tmp_path):
 )
 def test_outputs_match_to_the_shown_precision(shown, printed, matches):
     assert output_matches(shown, printed) is matches
+
+
+def test_no_file_cites_a_guide_outside_the_repository():
+    """Sources are the published ones (standard and clause, textbook, paper), 'common practice, no
+    source' or 'from memory': a reader of the project must be able to follow every citation."""
+    outside = "methods" + ".md"  # the developers' guide that lives outside the repository
+    suffixes = {".py", ".md", ".toml", ".csv", ".txt", ".cfg"}
+    citing = [
+        str(path.relative_to(ROOT))
+        for path in ROOT.rglob("*")
+        if path.suffix in suffixes
+        and path.is_file()
+        and not {".git", "build", ".venv"} & set(path.relative_to(ROOT).parts)
+        and ".egg-info" not in str(path)
+        and outside in path.read_text(encoding="utf-8", errors="replace")
+    ]
+    assert not citing, f"cite the published source instead of {outside} in: {citing}"

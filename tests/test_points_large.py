@@ -1,6 +1,6 @@
 """Large point sets: the worst rows and a summary, streamed JSON, one condition for all.
 
-The constructed reference part (methods.md §1-§2, see conftest): at 20 V the DC boundary is
+The constructed reference part (invented numbers, see conftest): at 20 V the DC boundary is
 the 125 W constant-power line, so 6.25 A is allowed at 25 °C (125 W / 20 V, by hand).
 """
 
