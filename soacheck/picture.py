@@ -176,7 +176,9 @@ def dark_mask(grey: np.ndarray, frame: Frame) -> np.ndarray:
     """Dark pixels inside the frame, with the frame and long dark grid lines taken out.
 
     A long line's pixels are kept where the dark stroke carries on beyond the line on
-    either side (a curve crossing it, or a curve drawn along it and wider than it).
+    either side (a curve crossing it), and where there is more ink across the line than
+    along the thinnest quarter of its length (a curve drawn on it, wider than it), by
+    0.6 px of black or more.
     """
     dark = grey < DARK_BELOW
     inside = np.zeros_like(dark)
@@ -188,8 +190,11 @@ def dark_mask(grey: np.ndarray, frame: Frame) -> np.ndarray:
         span = (frame.right - frame.left) if horizontal else (frame.bottom - frame.top)
         bands = long_lines(dark, horizontal=horizontal, min_length_px=0.8 * span)
         view = dark if horizontal else dark.T  # a view: rows of `view` run along the line
+        ink = np.clip(1.0 - (grey if horizontal else grey.T), 0.0, 1.0)
         for band in bands:
             keep = view[max(band.first - 1, 0)] | view[min(band.last + 1, view.shape[0] - 1)]
+            across = ink[max(band.first - 2, 0) : band.last + 3].sum(axis=0)  # [px of black]
+            keep |= across > np.percentile(across[band.start : band.end + 1], 25) + 0.6
             view[band.first : band.last + 1, ~keep] = False
     return dark
 

@@ -19,7 +19,7 @@ import shapely
 from soacheck.calibration import AxisCalibration, Seed, decades_disagree, range_calibration
 from soacheck.errors import SoacheckError
 from soacheck.picture import Frame, dark_mask, decades_seen, grid_lines, stroke_width_px
-from soacheck.vertices import SIMPLIFY_DECADES, sharpen, simplify
+from soacheck.vertices import SIMPLIFY_DECADES, merge_straight, sharpen, simplify
 
 SEED_RADIUS_PX = 15.0  # a seed must lie this close to a curve (reading a value by eye is good to a few px)
 
@@ -92,6 +92,23 @@ def _steep_on(runs: ColumnRuns, c: int, step: int, stop: int, first: int, last: 
     return bool(np.any(meets_far & ~meets_near))
 
 
+def _short_run_near(
+    runs: ColumnRuns, c: int, stop: int, step: int, rows: tuple[float, ...], tolerance: float, short: float
+) -> bool:
+    """Whether one of the next four columns from ``c`` holds a run no longer than ``short`` near one of ``rows``."""
+    for n in range(4):
+        k = c + n * step
+        if (stop - k) * step < 0:
+            return False
+        span = runs.column(k)
+        first, last = runs.first[span], runs.last[span]
+        shorts = last - first + 1 <= short
+        for row in rows:
+            if np.any(shorts & (first - tolerance - 0.6 * n <= row) & (row <= last + tolerance + 0.6 * n)):
+                return True
+    return False
+
+
 def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step: int, stop: int) -> list:
     """Columns, rows and ambiguity of the curve from run ``seed`` on, one column at a time."""
     columns, centres, clear = [seed_column], [float(runs.centre[seed])], [True]
@@ -122,7 +139,9 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
         if first.size:
             off = np.maximum(first - predicted, 0) + np.maximum(predicted - last, 0)
             k = int(np.argmin(off))
-            if off[k] <= max(2.0, width_px / 2) + 0.5 * abs(slope):
+            # across a gap (a dash, a removed grid line) the curve may have bent: the
+            # tolerance grows by 0.6 px per missing column, by 2 px at most
+            if off[k] <= max(2.0, width_px / 2) + 0.5 * abs(slope) + min(0.6 * gap, 2.0):
                 chosen = k
             elif gap == 0:
                 touching = np.flatnonzero((first <= previous[1] + 1) & (last >= previous[0] - 1))
@@ -145,16 +164,18 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
         half = expected / 2
         clipped = float(np.clip(predicted, first[chosen] + half - 0.5, last[chosen] - half + 0.5))
         row = clipped if merged else float(centre[chosen])
-        if (
-            not merged
-            and length > 2 * max(usual, expected) + 3
-            and not _steep_on(runs, c, step, stop, first[chosen], last[chosen], centres[-1])
-        ):
-            # a vertical line (a voltage limit drawn down to the frame): the curve ends here
+        long = length > 2 * max(usual, expected) + 3
+        if long and not merged and not _steep_on(runs, c, step, stop, first[chosen], last[chosen], centres[-1]):
             columns.append(c)
             centres.append(clipped)
             clear.append(False)
-            break
+            lengths.append(length)
+            previous = (int(np.floor(clipped - half)), int(np.ceil(clipped + half)))
+            if _short_run_near(
+                runs, c + step, stop, step, (predicted + slope * step, centres[-2]), 2.0 + abs(slope), 2 * usual + 3
+            ):
+                continue  # a leftover of a vertical grid line: the curve goes on beyond it
+            break  # a vertical line (a voltage limit drawn down to the frame): the curve ends here
         columns.append(c)
         centres.append(row)
         clear.append(not merged)
@@ -371,6 +392,7 @@ def _vertices(pixels, seed, note, frame, x_axis, y_axis, tolerance_decades) -> T
     ly = np.log10(y_axis.value(pixels.row))
     keep = simplify(lx, ly, tolerance_decades)
     vx, vy = sharpen(lx, ly, keep, pixels.clear, margin=int(2 * pixels.width_px) + 2, tolerance=tolerance_decades)
+    vx, vy = merge_straight(vx, vy, lx, ly, tolerance_decades)
     # a curve that runs into the frame goes on to the frame's edge
     reach = frame.line_px + 2
     for end, inner, edge in ((0, 1, frame.left), (-1, -2, frame.right)):

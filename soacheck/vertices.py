@@ -89,3 +89,32 @@ def sharpen(
     if fits[-1] is not None:
         vy[-1] = float(np.polyval(fits[-1], vx[-1]))
     return np.array(vx), np.array(vy)
+
+
+def merge_straight(
+    vx: np.ndarray, vy: np.ndarray, x: np.ndarray, y: np.ndarray, tolerance: float, *, slope_step: float = 0.1
+) -> tuple[np.ndarray, np.ndarray]:
+    """Drop inner vertices between two segments that are one straight line.
+
+    A vertex goes when the slopes on either side differ by less than ``slope_step`` (on
+    log-log axes one mechanism's slope band is wider, so no mechanism is lost) and every
+    traced point ``(x, y)`` between its neighbours lies within twice ``tolerance`` of the
+    straight line joining them. Grid lines as dark as the curves leave such kinks.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        The vertices left, x rising.
+    """
+    vx, vy = list(vx), list(vy)
+    j = 1
+    while j < len(vx) - 1:
+        before = (vy[j] - vy[j - 1]) / (vx[j] - vx[j - 1])
+        after = (vy[j + 1] - vy[j]) / (vx[j + 1] - vx[j])
+        between = (x >= vx[j - 1]) & (x <= vx[j + 1])
+        line = np.interp(x[between], [vx[j - 1], vx[j + 1]], [vy[j - 1], vy[j + 1]])
+        if abs(before - after) < slope_step and np.all(np.abs(y[between] - line) <= 2 * tolerance):
+            del vx[j], vy[j]
+        else:
+            j += 1
+    return np.array(vx), np.array(vy)

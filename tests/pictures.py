@@ -73,16 +73,21 @@ def draw_sheet(
     y_range: tuple[float, float] = Y_RANGE,
     jpeg_quality: int = 75,
     frame: bool = True,
+    grid_grey: tuple[float, float] = (0.65, 0.82),
 ) -> Sheet:
-    """Draw ``curves`` as a datasheet SOA picture at ``path`` (``.png`` or ``.jpg``); ``frame=False`` leaves the frame out."""
+    """Draw ``curves`` as a datasheet SOA picture at ``path`` (``.png`` or ``.jpg``).
+
+    ``frame=False`` leaves the frame out; ``grid_grey`` gives the grey levels of the major
+    and minor grid lines (0 black).
+    """
     fig = Figure(figsize=size_in, dpi=dpi)
     ax = fig.add_axes((0.13, 0.12, 0.82, 0.83))
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlim(*x_range)
     ax.set_ylim(*y_range)
-    ax.grid(True, which="major", color="0.65", linewidth=0.8, snap=False)
-    ax.grid(True, which="minor", color="0.82", linewidth=0.5, snap=False)
+    ax.grid(True, which="major", color=str(grid_grey[0]), linewidth=0.8, snap=False)
+    ax.grid(True, which="minor", color=str(grid_grey[1]), linewidth=0.5, snap=False)
     ax.tick_params(which="both", direction="in", top=True, right=True)
     # matplotlib snaps straight lines to whole pixels, moving the frame by up to half a
     # pixel against the curves; a datasheet's frame is where its axis is
@@ -91,7 +96,13 @@ def draw_sheet(
         spine.set_snap(False)
         spine.set_visible(frame)
     for curve in curves:
-        ax.plot(curve.voltage_v, curve.current_a, color="black", linewidth=line_width_pt, solid_joinstyle="miter")
+        ax.plot(
+            curve.voltage_v,
+            curve.current_a,
+            color="black",
+            linewidth=line_width_pt,
+            solid_joinstyle="miter",
+        )
         # a label beside the curve, above its middle vertex, as datasheets print them
         k = len(curve.voltage_v) // 2
         label = "DC" if curve.pulse == "dc" else curve.pulse.replace("us", " µs").replace("ms", " ms")

@@ -24,7 +24,7 @@ from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
 from soacheck.picture import decades_seen
 from soacheck.tracing import OVERLAY_COLOUR
-from soacheck.vertices import sharpen, simplify
+from soacheck.vertices import merge_straight, sharpen, simplify
 
 from .pictures import CURVES, DC, PULSE_1MS, PULSE_100US, KnownCurve, draw_sheet
 
@@ -469,3 +469,28 @@ def test_bad_ranges_are_one_line_and_exit_2(tmp_path, small_sheet, x_range, frag
         ],
     )
     assert result.exit_code == 2 and fragment in result.stderr and "--x-range" in result.stderr, result.output
+
+
+@pytest.mark.parametrize("suffix", ["png", "jpg"])
+def test_a_black_grid_is_not_a_curve(tmp_path, suffix):
+    """Grid lines as black as the curves (thinner): taken out as long lines across the frame, and crossed."""
+    sheet = draw_sheet(tmp_path / f"black-grid.{suffix}", CURVES, grid_grey=(0.0, 0.0))
+    out = tmp_path / "soa.csv"
+    traces = [arg for pulse, seed in SEEDS.items() for arg in ("--trace", f"{seed}={pulse}")]
+    result = runner.invoke(app, ["digitize", "--image", str(sheet.path), *RANGES, *traces, "--into", str(out)])
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out)
+    tolerance = 10 ** (1.5 / pixels_per_decade(sheet)) - 1 + 1e-3  # 1.5 px, as above
+    for known in CURVES:
+        curve = rows[rows["pulse"] == known.pulse]
+        assert curve["voltage"].to_numpy() == pytest.approx(known.voltage_v, rel=tolerance), known.pulse
+        assert curve["current"].to_numpy() == pytest.approx(known.current_a, rel=tolerance), known.pulse
+
+
+def test_merge_straight_drops_a_kink_within_one_slope_band():
+    """The vertex at x = 1 (slope 0 then 0.01: 0.005 off the joining line) goes; the corner at x = 2 stays."""
+    x = np.linspace(0.0, 3.0, 301)
+    y = np.where(x < 1.0, 0.0, 0.01 * (x - 1.0))
+    y = np.where(x < 2.0, y, 0.01 - (x - 2.0))
+    vx, vy = merge_straight(np.array([0.0, 1.0, 2.0, 3.0]), np.array([0.0, 0.0, 0.01, -0.99]), x, y, 0.005)
+    assert vx == pytest.approx([0.0, 2.0, 3.0]) and vy == pytest.approx([0.0, 0.01, -0.99])
