@@ -63,7 +63,8 @@ def value_text(name: str, value: Any, *, with_unit: bool = True, span_s: float |
     if isinstance(value, float) and not math.isfinite(value):
         return "—"
     if name in PERCENT:
-        return f"{value * 100:+.1f} %" if name == "margin" else f"{value * 100:.1f} %"
+        number = f"{value * 100:+.1f}" if name == "margin" else f"{value * 100:.1f}"
+        return f"{number} %" if with_unit else number
     if name == "overload":
         return f"{value:.3g}"
     quantity_unit = unit(name)

@@ -83,6 +83,8 @@ class StageRun:
         flat = int(np.argmin(finite))
         d, k = np.unravel_index(flat, finite.shape)
         worst = finite[d, k]
+        if limit is None:  # nothing failed: what bounds the current where the margin is least
+            limit = str(self.limit[d, k])
         energy_wh = float(np.sum(np.diff(self.time_s) * (self.source_v * self.total_a)[:-1]) / 3600.0)
         return {
             "verdict": "pass" if self.passed else "fail",

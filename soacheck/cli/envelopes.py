@@ -7,8 +7,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
-from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
     PLOT_SUFFIXES,
@@ -26,6 +24,8 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
+from soacheck.cli.tables import Column, named_column, print_assumptions, print_table, quantity_table, verdict_cells
+from soacheck.display import limit_text
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 from soacheck.limit_table import export_writer
@@ -68,22 +68,21 @@ def envelope(
             echo_json(payload)
         else:
             loaded, env = result.check.stage, result.envelope
-            console.print(f"{loaded.part.id} × {loaded.count} against {env.label}", highlight=False)
-            console.print(
-                f"least margin {payload['margin']:+.1%} ({payload['limit']}) at "
-                f"{payload['worst_voltage']:g} V, {payload['worst_current']:.4g} A"
-                if payload["margin"] is not None
-                else "nothing allowed somewhere on the edge",
-                highlight=False,
-            )
-            for part_out in payload["outside"]:
-                console.print(
-                    f"  outside from {part_out['from_voltage']:.4g} V to {part_out['to_voltage']:.4g} V: "
-                    f"{part_out['limit']}",
-                    highlight=False,
+            title = f"{loaded.part.id} × {loaded.count} against {env.label}"
+            console.print(quantity_table(title, payload, skip=("envelope", "part", "count")))
+            if payload["outside"]:
+                stretches = payload["outside"]
+                print_table(
+                    console,
+                    "stretches of source voltage outside",
+                    [
+                        named_column("from_voltage", [o["from_voltage"] for o in stretches], essential=True),
+                        named_column("to_voltage", [o["to_voltage"] for o in stretches], essential=True),
+                        named_column("margin", [o.get("margin") for o in stretches], essential=True),
+                        Column("limit", [limit_text(o["limit"]) for o in stretches], essential=True, justify="left"),
+                    ],
                 )
-            for note in result.assumptions:
-                console.print(f"  assumed: {note}", highlight=False, markup=False)
+            print_assumptions(console, result.assumptions)
             console.print(
                 "[green]PASS[/]: the stage covers the envelope"
                 if result.passed
@@ -107,14 +106,18 @@ def envelope(
         echo_json(found.to_dict())
         return
     loaded = found.safe.stage
-    out = RichTable(title=escape(f"{loaded.part.id} × {loaded.count}: largest safe envelope"), title_justify="left")
-    for name in ("source V", "max total current", "max power", "limit"):
-        out.add_column(name, justify="right" if name != "limit" else "left")
-    for v, i, lim in zip(table.voltage_v, table.max_current_a, table.limit, strict=True):
-        out.add_row(f"{v:.4g} V", f"{i:.3f} A", f"{math.floor(v * i * 10) / 10:.1f} W", lim)
-    console.print(out)
-    for note in table.assumptions:
-        console.print(f"  assumed: {note}", highlight=False, markup=False)
+    power = [math.floor(v * i * 10) / 10 for v, i in zip(table.voltage_v, table.max_current_a, strict=True)]
+    print_table(
+        console,
+        f"{loaded.part.id} × {loaded.count}: largest safe envelope",
+        [
+            Column("source voltage (V)", [f"{v:.4g}" for v in table.voltage_v], essential=True),
+            Column("max current (A)", [f"{i:.3f}" for i in table.max_current_a], essential=True),
+            Column("max power (W)", [f"{p:.1f}" for p in power], rank=1),
+            Column("limit", [limit_text(lim) for lim in table.limit], essential=True, justify="left"),
+        ],
+    )
+    print_assumptions(console, table.assumptions)
     if export is not None:
         console.print(f"limit table written to {export}", highlight=False)
 
@@ -165,26 +168,19 @@ def compare(
     if as_json:
         echo_json(payload)
     else:
-        out = RichTable(title=escape(f"candidates for {label}"), title_justify="left")
-        for name in (
-            "part",
-            "verdict",
-            "margin",
-            "limit",
-            "fewest devices",
-            "max heatsink Rth" if loaded_stage else "max case temp",
-        ):
-            out.add_column(name)
-        for c in ranked:
-            headroom = c.max_heatsink_rth if loaded_stage else c.max_case_temp
-            unit = " K/W" if loaded_stage else " °C"
-            out.add_row(
-                escape(c.part),
-                "[green]pass[/]" if c.passes else "[bold red]fail[/]",
-                "—" if c.margin is None else f"{c.margin:+.1%}",
-                c.limit or "—",
-                "—" if c.min_count is None else str(c.min_count),
-                "—" if headroom is None else f"{headroom:.3g}{unit}",
-            )
-        console_for_output().print(out)
+        verdicts, styles = verdict_cells(c.passes for c in ranked)
+        headroom = "max_heatsink_rth" if loaded_stage else "max_case_temp"
+        columns = [
+            Column("part", [c.part for c in ranked], essential=True, justify="left"),
+            Column("verdict", verdicts, essential=True, justify="left", styles=styles),
+            named_column("margin", [c.margin for c in ranked], essential=True),
+        ]
+        if any(c.margin is not None and c.margin < 0 for c in ranked):
+            columns.append(named_column("overload", [c.as_dict()["overload"] for c in ranked], essential=True))
+        columns += [
+            Column("limit", [limit_text(c.limit) for c in ranked], essential=True, justify="left"),
+            named_column("min_count", [c.min_count for c in ranked], rank=2),
+            named_column(headroom, [getattr(c, headroom) for c in ranked], rank=1),
+        ]
+        print_table(console_for_output(), f"candidates for {label}", columns)
     raise typer.Exit(0 if ranked and ranked[0].passes else 1)

@@ -6,8 +6,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
-from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
     SAFETY_NOTE,
@@ -20,7 +18,9 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
+from soacheck.cli.tables import Column, named_column, print_table, verdict_cells
 from soacheck.demo import DEMO_FOLDER, demo_plan_path
+from soacheck.display import limit_text
 
 
 def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
@@ -34,13 +34,21 @@ def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, li
         echo_json(result.to_dict())
         return result.passed
     console = console_for_output()
-    table = RichTable(title=escape(result.plan.title), title_justify="left")
-    for name in ("job", "kind", "verdict", "what decides it"):
-        table.add_column(name)
-    for job in failures_first(list(result.jobs)):
-        verdict = "[green]pass[/]" if job.passed else "[bold red]FAIL[/]"
-        table.add_row(escape(job.name), job.kind, verdict, escape(job.headline()))
-    console.print(table)
+    ordered = failures_first(list(result.jobs))
+    verdicts, styles = verdict_cells(r.passed for r in ordered)
+    columns = [
+        Column("job", [r.name for r in ordered], essential=True, justify="left"),
+        Column("kind", [r.kind for r in ordered], rank=2, justify="left"),
+        Column("verdict", verdicts, essential=True, justify="left", styles=styles),
+        named_column("margin", [r.summary.get("margin") for r in ordered], essential=True),
+    ]
+    if any(r.summary.get("overload") is not None for r in ordered):
+        columns.append(named_column("overload", [r.summary.get("overload") for r in ordered], essential=True))
+    columns += [
+        Column("limit", [limit_text(r.summary.get("limit")) for r in ordered], essential=True, justify="left"),
+        named_column("first_violation_time", [r.summary.get("first_violation_time") for r in ordered], rank=1),
+    ]
+    print_table(console, result.plan.title, columns)
     console.print(f"[yellow]Caution:[/] {SAFETY_NOTE}", highlight=False)
     console.print(f"Report written to {(out / 'report.html').resolve()}", highlight=False)
     return result.passed

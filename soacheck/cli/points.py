@@ -2,15 +2,12 @@
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 from typing import Annotated
 
 import numpy as np
 import typer
 from rich.console import Console
-from rich.markup import escape
-from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
     PLOT_SUFFIXES,
@@ -29,6 +26,7 @@ from soacheck.cli.base import (
     part_option,
     user_errors,
 )
+from soacheck.cli.tables import Column, named_column, print_assumptions, print_table, verdict_cells
 from soacheck.filemarks import save_figure
 from soacheck.points import PointCheck
 from soacheck.quantities import TEMPERATURE
@@ -57,41 +55,44 @@ def worst_rows(result: PointCheck, count: int) -> np.ndarray:
 
 
 def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False) -> None:
+    """The points as a table that fits the terminal: verdict, margin, overload, limit and allowed always whole."""
     total = result.inside.size
     subset = not all_rows and total > TABLE_ROWS
     title = f"{result.part_id}: operating points" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
-    table = RichTable(title=escape(title), title_justify="left")
-    idle = bool(np.any(result.idle_current_a > 0))  # a column only when some point has a standing current
-    names = ("V [V]", "I [A]", "Tc [°C]", "pulse", "duty", *(("idle [A]",) if idle else ()), "curve")
-    names = (*names, "allowed [A]", "margin", "limit", "")
-    for name in ("#", *names) if subset else names:
-        table.add_column(name, justify="right" if "[" in name or name in ("margin", "#") else "left")
-    rows = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
-    frame = result.to_frame(rows)
-    for number, row in zip(rows, frame.itertuples(index=False), strict=True):
-        margin = "—" if not math.isfinite(row.margin) else f"{row.margin:+.1%}"
-        allowed = "—" if not math.isfinite(row.allowed_current) else f"{row.allowed_current:.4g}"
-        mark = "[green]inside[/]" if row.inside else "[bold red]OUTSIDE[/]"
-        limit = row.limit + (" (extrapolated)" if row.extrapolated else "")
-        table.add_row(
-            *([str(number + 1)] if subset else []),
-            f"{row.voltage:g}",
-            f"{row.current:g}",
-            f"{row.case_temp:g}",
-            row.pulse,
-            f"{row.duty:g}" if row.duty is not None else "single" if row.pulse != "dc" else "",
-            *((f"{row.idle_current:g}" if row.idle_current > 0 else "",) if idle else ()),
-            row.curve,
-            allowed,
-            margin,
-            limit,
-            mark,
-        )
-    console.print(table)
+    chosen = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
+    frame = result.to_frame(chosen)
+    rows = frame.to_dict(orient="records")
+    outside = not bool(frame["inside"].all())
+    limits = [r["limit"] + ("*" if r["extrapolated"] else "") for r in rows]
+    point, styles = verdict_cells(frame["inside"], inside=True)
+    columns = [Column("#", [str(k + 1) for k in chosen], essential=True)] if subset else []
+    columns += [
+        named_column("voltage", frame["voltage"], rank=6),
+        named_column("current", frame["current"], rank=5),
+        named_column("case_temp", frame["case_temp"], rank=4),
+        Column("pulse", list(frame["pulse"]), rank=3, justify="left"),
+    ]
+    if frame["duty"].notna().any():  # duty only means something for pulse trains
+        columns.append(named_column("duty", frame["duty"], rank=2))
+    if (frame["idle_current"] > 0).any():
+        columns.append(named_column("idle_current", frame["idle_current"], rank=1))
+    columns += [
+        Column("curve", list(frame["curve"]), rank=0, justify="left"),
+        named_column("allowed_current", frame["allowed_current"], essential=True),
+        named_column("margin", frame["margin"], essential=True),
+    ]
+    if outside:
+        columns.append(named_column("overload", frame["overload"], essential=True))
+    columns += [
+        Column("limit", limits, essential=True, justify="left"),
+        Column("point", point, essential=True, justify="left", styles=styles),
+    ]
+    print_table(console, title, columns)
+    if any(r["extrapolated"] for r in rows):
+        console.print("  * beyond the digitized voltage range (conservative)", highlight=False, markup=False)
     if subset:
         _print_summary(console, result)
-    for note in result.assumptions:
-        console.print(f"  assumed: {note}", highlight=False, markup=False)
+    print_assumptions(console, result.assumptions)
     verdict = (
         "[green]PASS[/]: every point is inside"
         if result.passed
@@ -110,7 +111,7 @@ def _print_summary(console: Console, result: PointCheck) -> None:
     least = f"{np.min(result.margin[finite]):+.1%}" if finite.any() else "—"
     console.print(
         f"{result.inside.size} points: {int(outside.sum())} outside{f' ({by_limit})' if by_limit else ''}; "
-        f"least margin {least}; # is the point's row among the data rows; --all-rows shows them all",
+        f"margin {least} (the least); # is the point's row among the data rows; --all-rows shows them all",
         highlight=False,
     )
 
@@ -186,22 +187,15 @@ def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     if as_json:
         echo_json({"parts": rows})
         return
-    table = RichTable(title="soacheck parts", title_justify="left")
-    for name in ("id", "kind", "V max", "I max", "P max", "Tj max", "Rth jc", "curves", "description"):
-        table.add_column(name)
-    for r in rows:
-        table.add_row(
-            escape(r["id"]),
-            r["kind"],
-            f"{r['v_max']:g} V",
-            f"{r['i_max']:g} A",
-            f"{r['p_max']:g} W",
-            f"{r['tj_max']:g} °C",
-            f"{r['rth_jc']:g} K/W",
-            " ".join(r["curves"]),
-            escape(r["description"]),
-        )
-    console_for_output().print(table)
+    columns = [
+        Column("id", [r["id"] for r in rows], essential=True, justify="left"),
+        Column("kind", [r["kind"] for r in rows], essential=True, justify="left"),
+        *(named_column(k, [r[k] for r in rows], essential=True) for k in ("v_max", "i_max", "p_max", "tj_max")),
+        named_column("rth_jc", [r["rth_jc"] for r in rows], rank=2),
+        Column("curves", [" ".join(r["curves"]) for r in rows], rank=1, justify="left"),
+        Column("description", [r["description"] for r in rows], rank=0, justify="left"),
+    ]
+    print_table(console_for_output(), "soacheck parts", columns)
 
 
 @app.command()

@@ -6,8 +6,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.markup import escape
-from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
     PLOT_SUFFIXES,
@@ -24,13 +22,14 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
+from soacheck.cli.tables import print_assumptions, quantity_table
 from soacheck.filemarks import save_figure
 
 if TYPE_CHECKING:
     from soacheck.results import StageRunResult
 
 
-def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> None:
+def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, setpoint_unit: str = "") -> None:
     run, label, payload = result.run, result.test, result.to_dict()
     if plot is not None:
         save_figure(result.plot().figure, plot)
@@ -38,19 +37,10 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> 
         echo_json(payload)
     else:
         console = console_for_output()
-        table = RichTable(title=escape(f"{run.stage.part.id} × {run.stage.count}: {label}"), title_justify="left")
-        table.add_column("quantity")
-        table.add_column("value", justify="right")
-        for key, value in payload.items():
-            if key in ("assumptions", "test", "verdict"):
-                continue
-            table.add_row(
-                key.replace("_", " "),
-                "—" if value is None else f"{value:.4g}" if isinstance(value, float) else str(value),
-            )
-        console.print(table)
-        for note in payload["assumptions"]:
-            console.print(f"  assumed: {note}", highlight=False, markup=False)
+        title = f"{run.stage.part.id} × {run.stage.count}: {label}"
+        units = {"max_safe_setpoint": setpoint_unit}
+        console.print(quantity_table(title, payload, skip=("test",), span_s=payload.get("duration"), units=units))
+        print_assumptions(console, payload["assumptions"])
         if plot is not None:
             console.print(f"plot written to {plot}", highlight=False)
         console.print("[green]PASS[/]" if run.passed else "[bold red]FAIL[/]: a device leaves its safe operating area")
@@ -96,7 +86,8 @@ def discharge(
         breakdown=breakdown_option(breakdown_derating),
         library=library,
     )
-    _report_run(result, as_json=as_json, plot=plot)
+    unit = {"cc": "A", "cp": "W", "cr": "Ω"}.get(mode.strip().lower(), "")
+    _report_run(result, as_json=as_json, plot=plot, setpoint_unit=unit)
 
 
 @app.command()

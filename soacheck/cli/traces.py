@@ -7,8 +7,6 @@ from typing import Annotated
 
 import typer
 from rich.console import Console
-from rich.markup import escape
-from rich.table import Table as RichTable
 
 from soacheck.cli.base import (
     PLOT_SUFFIXES,
@@ -24,6 +22,7 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
+from soacheck.cli.tables import quantity_table
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
@@ -97,33 +96,9 @@ def trace(
 
 
 def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> None:
-    table = RichTable(title=escape(f"{result.part_id}: trace of {result.samples} samples"), title_justify="left")
-    table.add_column("quantity")
-    table.add_column("value", justify="right")
-
-    def fmt(value, unit="", spec=".4g"):
-        return "—" if value is None else f"{value:{spec}}{unit}"
-
-    rows = [
-        ("duration", fmt(result.duration_s, " s")),
-        (
-            "junction peak",
-            fmt(result.tj_peak_c, " °C", ".1f")
-            + (f" at {result.tj_peak_time_s:.4g} s" if result.tj_peak_c is not None else ""),
-        ),
-        ("case peak", fmt(result.tc_peak_c, " °C", ".1f")),
-        (
-            "margin",
-            fmt(result.margin, "", "+.1%") + (f" at {result.margin_time_s:.4g} s" if result.margin is not None else ""),
-        ),
-        ("excursions above DC", str(result.excursions)),
-        ("first violation", fmt(result.first_violation_time_s, " s") + (f" ({result.limit})" if result.limit else "")),
-        ("time outside", fmt(result.time_outside_s, " s")),
-        ("time above tj_max", fmt(result.time_over_tj_max_s, " s")),
-    ]
-    for name, value in rows:
-        table.add_row(name, value)
-    console.print(table)
+    summary = result.summary()
+    title = f"{result.part_id}: trace of {result.samples} samples"
+    console.print(quantity_table(title, summary, skip=("part", "samples"), span_s=result.duration_s))
     for note in result.assumptions:
         console.print(f"  assumed: {note}", highlight=False, markup=False)
     if plot is not None:
