@@ -166,23 +166,20 @@ def test_compare_ranks_by_margin_and_finds_the_fewest_devices_by_search():
         assert group_margins == sorted(group_margins, reverse=True)
 
 
-def test_compare_with_a_stage_searches_count_and_heatsink(tmp_path):
-    stage = Stage(
-        bundled("demo-npn-to3-250w"),
-        2,
-        ballast_ohm=0.1,
-        series_ohm=0.02,
-        vbe_spread_v=0.02,
-        cooling=Cooling(0.3, 0.4, 600.0, 25.0),
-    )
-    env = Envelope(5.0, 42.0, 10.0, 150.0)
-    (best,) = compare([stage.part], env, stage=stage)
-    assert best.passes and best.min_count in (1, 2)
-    # just inside at the found heatsink resistance, outside 5 % above it
-    cooled = Stage(stage.part, 2, 0.1, 0.02, 0.02, cooling=Cooling(0.3, best.max_heatsink_rth, 600.0, 25.0))
-    assert check_envelope(cooled, env).passed
-    worse = Stage(stage.part, 2, 0.1, 0.02, 0.02, cooling=Cooling(0.3, best.max_heatsink_rth * 1.05, 600.0, 25.0))
-    assert not check_envelope(worse, env).passed
+def test_compare_with_a_stage_finds_the_heatsink_by_hand(ref_part):
+    """One reference device on a heatsink (interface 0.3 K/W, ambient 25 °C) against min(10 A, 60 W/V)
+    from 5 to 30 V. By hand: the heatsink settles at the worst power, 60 W (from 6 V up), so
+    Tc = 25 + 60 (R_sa + 0.3); the derated power line (150 - Tc)/Rth_jc (Rth_jc 1 K/W) must carry 60 W,
+    and the current limit (15 A) and second breakdown (above the power line below 40 V) never bind:
+    R_sa <= (150 - 25)/60 - 1 - 0.3 = 0.78333 K/W. At R_sa = 0.5: Tc = 73 °C, 77 W allowed, margin
+    1 - 60/77 = 0.22078, limit power, first at the 6 V corner; one device is enough."""
+    stage = Stage(ref_part, 1, cooling=Cooling(0.3, 0.5, 600.0, 25.0))
+    (best,) = compare([ref_part], Envelope(5.0, 30.0, 10.0, 60.0), stage=stage)
+    assert best.passes and best.min_count == 1 and best.limit == "power"
+    assert best.margin == pytest.approx(1 - 60 / 77, abs=1e-4)
+    assert best.worst_voltage == pytest.approx(6.0, rel=1e-3)
+    # the search stops on the safe side, within 0.1 % of the hand value
+    assert (150 - 25) / 60 - 1 - 0.3 - 1e-3 <= best.max_heatsink_rth <= (150 - 25) / 60 - 1 - 0.3
 
 
 def test_compare_cli_json_and_plot_by_hand(tmp_path):
