@@ -173,10 +173,10 @@ def repeated_pulse_lines(
     P = (tj_max − 25 °C)/Zth(tp, D) derated at Tc + P_idle·(Rth − Zth(tp, D)) gives exactly
     the largest P with Tj ≤ tj_max (under a policy, its junction ceiling). Second-breakdown,
     instability and unclassified lines hold for a junction that starts the pulse at the case
-    temperature (common practice, no source), so they are derated at the junction temperature where each pulse starts,
-    which rises with the pulse current itself: the allowed current is the largest I with
-    I ≤ I_line(V)·f(T_start(I)), found by bisection. A single pulse with no standing
-    current starts at Tc, which leaves these lines as they are.
+    temperature (common practice, no source), so they are derated at the junction
+    temperature where each pulse starts, which rises with the pulse current itself: the
+    allowed current is the largest I with I ≤ I_line(V)·f(T_start(I)), found by bisection.
+    A single pulse with no standing current starts at Tc, which leaves these lines as they are.
     """
     model = thermal_model(part)
     rth = model.foster.rth_k_per_w
