@@ -41,6 +41,7 @@ from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
 from soacheck.plan import read_plan
 from soacheck.points import check_points
+from soacheck.policy import Policy, resolve_policy
 from soacheck.quantities import (
     CAPACITY,
     CELL_COUNT,
@@ -96,6 +97,8 @@ TraceData: TypeAlias = "PathLike | pd.DataFrame | tuple[ArrayLike, ArrayLike, Ar
 """A trace file (CSV, or Parquet with pyarrow), a DataFrame with columns ``time,voltage,current``
 (s, V, A), or a tuple of three equal-length arrays (time, voltage, current)."""
 Ramp: TypeAlias = SweepKind
+PolicyLike: TypeAlias = "Policy | str | Path | None"
+"""A design-margin policy, a preset name (``"none"``, ``"bench"``) or the path of a policy file (TOML)."""
 DEFAULT_ENVELOPE_VOLTAGES = 25
 """Source voltages of the largest safe envelope when none are given: log-spaced from 1 V to v_max."""
 
@@ -254,6 +257,16 @@ def _check_all(quantity: Quantity, values: ArrayLike, where: str) -> None:
         quantity.check_array(np.ravel(np.asarray(values, dtype=float)), lambda k: where)
 
 
+def _under(part: Part, policy: PolicyLike) -> Part:
+    """The part judged under ``policy``; None leaves the part as it is."""
+    return part if policy is None else part.under(resolve_policy(policy))
+
+
+def _stage_under(stage: Stage, policy: PolicyLike) -> Stage:
+    """The stage with its part judged under ``policy`` (in place of the stage file's); None leaves it."""
+    return stage if policy is None else stage.with_part(stage.part.rated.under(resolve_policy(policy)))
+
+
 def _breakdown(breakdown: str) -> BreakdownDerating:
     return choose(breakdown, ("auto", "thermal", "none"), "--breakdown-derating")  # type: ignore[return-value]
 
@@ -286,6 +299,7 @@ def allowed_current(
     pulse: Pulse = ...,
     duty: float | None = ...,
     breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
     library: Library = ...,
 ) -> float: ...
 @overload
@@ -297,6 +311,7 @@ def allowed_current(
     pulse: Pulse = ...,
     duty: float | None = ...,
     breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
     library: Library = ...,
 ) -> float | np.ndarray: ...
 def allowed_current(
@@ -307,6 +322,7 @@ def allowed_current(
     pulse: Pulse = "dc",
     duty: float | None = None,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
 ) -> float | np.ndarray:
     """The highest current a part may carry at each voltage: its SOA derated at the case temperature.
@@ -326,6 +342,11 @@ def allowed_current(
     breakdown
         How second breakdown (or a FET's linear-mode instability) derates: ``auto`` (the
         part's table, else like the constant-power limit), ``thermal``, ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
     library
         Folders of user part folders, for a part given by id.
 
@@ -343,7 +364,7 @@ def allowed_current(
     current; a pulse width between two digitized curves takes the longer one (without a
     thermal model). See :func:`check` for the limit and the margin of each point.
     """
-    loaded = load_part(part, library=library)
+    loaded = _under(load_part(part, library=library), policy)
     pulse_s = _pulse_s(pulse)
     shape = np.broadcast_shapes(np.shape(voltage), np.shape(case_temp))
     found = boundary_allowed_current(
@@ -369,6 +390,7 @@ def check(
     duty: float | None = None,
     idle_current: ArrayLike = 0.0,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
 ) -> CheckResult:
     """Check operating points against a part's SOA derated at their case temperature (``soacheck check``).
@@ -393,6 +415,11 @@ def check(
         without one such a pulse is judged as DC. [A]
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
     library
         Folders of user part folders, for a part given by id.
 
@@ -431,7 +458,7 @@ def check(
         idle = np.asarray(idle_current, dtype=float)
     if points is not None and "idle_current" in frame:
         IDLE_CURRENT.check_array(np.ravel(idle), lambda k: f"points row {k + 1}: idle_current")
-    loaded = load_part(part, library=library)
+    loaded = _under(load_part(part, library=library), policy)
     result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
     return CheckResult(loaded, result, chosen)
 
@@ -476,6 +503,7 @@ def trace(
     case_temp: float | None = None,
     cooling: Cooling | None = None,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     chunk_rows: int = 1_000_000,
     library: Library = None,
     progress: Callable[[int], None] | None = None,
@@ -498,6 +526,11 @@ def trace(
         A heatsink instead: the case then follows the part, interface and heatsink network.
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
     chunk_rows
         Samples read and checked at a time; the answer does not depend on it.
     progress
@@ -520,11 +553,11 @@ def trace(
         TEMPERATURE.check(case_temp, "--case-temp")
     CHUNK_ROWS.check(chunk_rows, "--chunk-rows")
     if isinstance(part, Stage):
-        loaded = part.part
+        loaded = part.part if policy is None else part.part.rated.under(resolve_policy(policy))
         if case_temp is None and cooling is None:
             cooling, case_temp = part.cooling, part.case_temp_c
     else:
-        loaded = load_part(part, library=library)
+        loaded = _under(load_part(part, library=library), policy)
     if cooling is not None and case_temp is not None:
         raise SoacheckError("give either --case-temp or a heatsink, not both")
     checker = TraceChecker(
@@ -561,6 +594,7 @@ def discharge(
     samples: int = 2000,
     find_max: bool = False,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
 ) -> StageRunResult:
     """Discharge a battery through the stage and check every device all the way down (``soacheck discharge``).
@@ -589,6 +623,11 @@ def discharge(
         lowest resistance), to 0.1 %; ``result.max_safe_setpoint``, None when none is safe.
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
 
     Returns
     -------
@@ -610,7 +649,7 @@ def discharge(
     if cutoff is not None:
         VOLTAGE.check(cutoff, "--cutoff")
     SAMPLES.check(samples, "--samples")
-    loaded = load_stage(stage, library=library)
+    loaded = _stage_under(load_stage(stage, library=library), policy)
     pack = battery_from(str(battery), cells, capacity, internal_resistance)
 
     def run_at(value: float) -> StageRun:
@@ -623,6 +662,15 @@ def discharge(
     extra: dict[str, Any] = {}
     if find_max:
         extra["max_safe_setpoint"] = max_safe_setpoint(passes_at(run_at), setpoint, mode)
+        extra["max_setpoint_at_rating"] = extra["max_safe_setpoint"]
+        if loaded.part.policy is not None:  # the same search against the absolute ratings, beside it
+            rated = loaded.with_part(loaded.part.rated)
+
+            def rated_run_at(value: float) -> StageRun:
+                path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
+                return run_stage(rated, path.time_s, path.source_v, path.total_a, breakdown=chosen)
+
+            extra["max_setpoint_at_rating"] = max_safe_setpoint(passes_at(rated_run_at), setpoint, mode)
     return StageRunResult(run, label, extra, chosen)
 
 
@@ -636,6 +684,7 @@ def sweep(
     time: Pulse = "10s",
     samples: int = 2000,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
 ) -> StageRunResult:
     """Run a V–I sweep through the stage and check every device along it (``soacheck sweep``).
@@ -657,6 +706,11 @@ def sweep(
         Time samples of the ramp, at least 10.
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
 
     Returns
     -------
@@ -670,7 +724,7 @@ def sweep(
     if not (ramp == "current" and start == 0):
         ramped.check(start, "--from")
     {"current": VOLTAGE, "voltage": CURRENT, "power": POWER}[ramp].check(at, "--at")
-    loaded = load_stage(stage, library=library)
+    loaded = _stage_under(load_stage(stage, library=library), policy)
     seconds = _pulse_s(time, where="--time")
     if math.isinf(seconds):
         raise SoacheckError("--time must be a duration such as 10s, not dc")
@@ -688,6 +742,7 @@ def sharing(
     draws: int = 10000,
     percentile: float = 99.0,
     seed: int = 0,
+    policy: PolicyLike = None,
     library: Library = None,
     progress: Callable[[int, int], None] | None = None,
 ) -> SharingResult:
@@ -707,6 +762,9 @@ def sharing(
         Percentile of the worst device's share to report, in (0, 100].
     seed
         Random seed: the same seed gives the same answer.
+    policy
+        Design margins: the worst device's current is judged against the policy's current
+        fraction of ``i_max`` (see :func:`check` for the forms accepted).
     progress
         Called with ``(draws done, draws)`` after each batch.
 
@@ -720,7 +778,7 @@ def sharing(
     DRAWS.check(draws, "--draws")
     PERCENTILE.check(percentile, "--percentile")
     SEED.check(seed, "--seed")
-    loaded = load_stage(stage, library=library)
+    loaded = _stage_under(load_stage(stage, library=library), policy)
     spread = sharing_monte_carlo(
         loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress
     )
@@ -741,6 +799,7 @@ def envelope(
     duty: float | None = ...,
     idle_current: float = ...,
     breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
     library: Library = ...,
     progress: Callable[[int, int], None] | None = ...,
 ) -> SafeEnvelopeResult: ...
@@ -755,6 +814,7 @@ def envelope(
     duty: float | None = ...,
     idle_current: float = ...,
     breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
     library: Library = ...,
     progress: Callable[[int, int], None] | None = ...,
 ) -> EnvelopeResult: ...
@@ -768,6 +828,7 @@ def envelope(
     duty: float | None = None,
     idle_current: float = 0.0,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
     progress: Callable[[int, int], None] | None = None,
 ) -> EnvelopeResult | SafeEnvelopeResult:
@@ -795,6 +856,11 @@ def envelope(
         source voltage (an envelope file gives its own ``idle_current``). [A]
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
     progress
         Called with ``(bisection steps done, steps)`` while the largest safe envelope is searched.
 
@@ -805,7 +871,7 @@ def envelope(
         CSV, JSON or a C header).
     """
     chosen = _breakdown(breakdown)
-    loaded = load_stage(stage, library=library)
+    loaded = _stage_under(load_stage(stage, library=library), policy)
     if case_temp is not None:
         loaded = replace(loaded, cooling=None, case_temp_c=TEMPERATURE.check(case_temp, "--case-temp"))
     if check is not None:
@@ -814,7 +880,7 @@ def envelope(
     pulse_s = _pulse_s(pulse)
     duty_value = 1.0 if math.isinf(pulse_s) else _duty(duty, pulse_s) if duty is not None else 0.0
     if voltages is None:
-        grid = default_voltages(loaded.part.ratings.v_max_v)
+        grid = default_voltages(loaded.part.v_limit_v)
     else:
         grid = np.unique(np.asarray(voltages, dtype=float))
     safe = largest_safe_envelope(
@@ -838,6 +904,7 @@ def compare(
     case_temp: float = 25.0,
     stage: StageLike | None = None,
     breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
     library: Library = None,
     progress: Callable[[int, int], None] | None = None,
 ) -> CompareResult:
@@ -856,6 +923,11 @@ def compare(
         The stage each candidate takes its place in; each stands alone when None.
     breakdown
         Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
     progress
         Called with ``(candidates done, candidates)`` after each candidate.
 
@@ -893,15 +965,21 @@ def compare(
         trajectory = trace if isinstance(trace, Trajectory) else read_trace(trace)
         job = TrajectoryJob(trajectory, case_temp_c=case_temp)
         label = trajectory.label
-    ranked = compare_parts(candidates, job, stage=loaded_stage, breakdown=chosen, progress=progress)
+    chosen_policy = None if policy is None else resolve_policy(policy)
+    ranked = compare_parts(
+        candidates, job, stage=loaded_stage, breakdown=chosen, policy=chosen_policy, progress=progress
+    )
+    if chosen_policy is None and loaded_stage is not None:
+        chosen_policy = loaded_stage.part.policy
     return CompareResult(
         tuple(ranked),
         label,
         loaded_stage.name if loaded_stage is not None else None,
-        tuple(candidates),
+        tuple(part.under(chosen_policy) for part in candidates),
         env,
         loaded_stage,
         chosen,
+        chosen_policy,
     )
 
 

@@ -24,6 +24,7 @@ from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.points import overload_of
+from soacheck.policy import Policy, least_margin
 from soacheck.search import MAX_COUNT, fewest, highest, highest_linear
 from soacheck.stage import Stage
 from soacheck.stage_run import run_stage
@@ -36,7 +37,9 @@ SEARCH_POINTS = 100
 @dataclass(frozen=True)
 class Candidate:
     """How one part does on the job. ``max_heatsink_rth`` [K/W] with a stage's heatsink;
-    ``max_case_temp`` [°C] for a single device at a fixed case temperature."""
+    ``max_case_temp`` [°C] for a single device at a fixed case temperature. Under a
+    design-margin policy the verdict, margin, limit and headroom are the policy's, and
+    ``margin_to_rating`` is the least margin against the absolute ratings."""
 
     part: str
     passes: bool
@@ -46,6 +49,7 @@ class Candidate:
     max_heatsink_rth: float | None
     max_case_temp: float | None
     worst_voltage: float
+    margin_to_rating: float | None = None
 
     def as_dict(self) -> dict[str, object]:
         return {
@@ -53,6 +57,7 @@ class Candidate:
             "verdict": "pass" if self.passes else "fail",
             "margin": self.margin,
             "overload": overload_of(self.margin),
+            "margin_to_rating": self.margin_to_rating,
             "limit": self.limit,
             "min_count": self.min_count,
             "max_heatsink_rth": self.max_heatsink_rth,
@@ -82,6 +87,13 @@ def _alone(part: Part, envelope: Envelope, breakdown: BreakdownDerating, points:
     )
     min_count = max(1, math.ceil(need * (1 - 1e-12))) if math.isfinite(need) and need <= MAX_COUNT else None
     hottest = max_case_temp(v, i, part, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown)
+    to_rating = least_margin(margin)
+    if part.policy is not None:
+        rated = allowed_current(
+            v, part.rated, tc_c=envelope.case_temp_c, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown
+        ).current_a
+        with np.errstate(divide="ignore", invalid="ignore"):
+            to_rating = least_margin(np.where(rated > 0, 1.0 - i / rated, -np.inf))
     return Candidate(
         part.id,
         bool(margin[k] >= 0),
@@ -91,6 +103,7 @@ def _alone(part: Part, envelope: Envelope, breakdown: BreakdownDerating, points:
         None,
         hottest,
         float(v[k]),
+        to_rating,
     )
 
 
@@ -108,18 +121,26 @@ class TrajectoryJob:
 Job = Envelope | TrajectoryJob
 
 
-def _rate(job: Job, stage: Stage, breakdown: BreakdownDerating, points: int) -> tuple[bool, float | None, str, float]:
-    """(passes, least margin, limit there, source voltage there) of a stage on a job."""
+def _rate(
+    job: Job, stage: Stage, breakdown: BreakdownDerating, points: int
+) -> tuple[bool, float | None, str, float, float | None]:
+    """(passes, least margin, limit there, source voltage there, least margin to rating) of a stage on a job."""
     if isinstance(job, Envelope):
         check = check_envelope(stage, job, breakdown=breakdown, points=points)
         summary = check.summary()
-        return check.passed, summary["margin"], str(summary["limit"]), float(summary["worst_voltage"])
+        return (
+            check.passed,
+            summary["margin"],
+            str(summary["limit"]),
+            float(summary["worst_voltage"]),
+            summary["margin_to_rating"],
+        )
     path = job.trajectory
     run = run_stage(stage, path.time_s, path.source_v, path.total_a, breakdown=breakdown)
     summary = run.summary()
     k = int(np.argmin(np.abs(path.time_s - summary["margin_time"])))
     limit = summary["limit"] or str(run.limit[summary["device"] - 1, k])
-    return run.passed, summary["margin"], limit, float(path.source_v[k])
+    return run.passed, summary["margin"], limit, float(path.source_v[k]), summary["margin_to_rating"]
 
 
 def _single_trace(part: Part, job: TrajectoryJob, count: int, breakdown: BreakdownDerating):
@@ -150,6 +171,7 @@ def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -
         None,
         hottest,
         float(job.trajectory.source_v[k]),
+        result.margin_to_rating,
     )
 
 
@@ -157,7 +179,7 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
     placed = stage.with_part(part)
     if isinstance(job, Envelope):
         placed, _ = stage_for(placed, job)
-    passed, margin, limit, worst_v = _rate(job, placed, breakdown, points)
+    passed, margin, limit, worst_v, to_rating = _rate(job, placed, breakdown, points)
     coarse = min(points, SEARCH_POINTS)
     rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
     min_count = fewest(lambda n: _rate(rough, replace(placed, count=n), breakdown, coarse)[0], placed.count)
@@ -169,7 +191,7 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
             )[0],
             placed.cooling.sink_ambient_k_per_w,
         )
-    return Candidate(part.id, passed, margin, limit, min_count, max_rth, None, worst_v)
+    return Candidate(part.id, passed, margin, limit, min_count, max_rth, None, worst_v, to_rating)
 
 
 def _thinned(job: TrajectoryJob, samples: int) -> TrajectoryJob:
@@ -187,6 +209,7 @@ def compare(
     *,
     stage: Stage | None = None,
     breakdown: BreakdownDerating = "auto",
+    policy: Policy | None = None,
     points: int = 400,
     progress: Callable[[int, int], None] | None = None,
 ) -> list[Candidate]:
@@ -202,6 +225,9 @@ def compare(
         The stage each candidate takes its place in. Without one: a single device at the
         envelope's (or the trajectory job's) case temperature, currents shared evenly
         when counting devices.
+    policy
+        The design-margin policy every candidate is judged and ranked under; None: the
+        stage's own policy (from its file), else the absolute ratings.
     progress
         Called as ``progress(done, total)`` after each candidate.
 
@@ -210,6 +236,9 @@ def compare(
     SoacheckError
         When the job's voltages start above every candidate's v_max.
     """
+    if policy is None and stage is not None:
+        policy = stage.part.policy
+    parts = [part.under(policy) for part in parts]
     lowest_v = job.v_min_v if isinstance(job, Envelope) else float(np.min(job.trajectory.source_v))
     if not any(p.ratings.v_max_v >= lowest_v for p in parts):
         raise SoacheckError(

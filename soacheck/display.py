@@ -12,7 +12,9 @@ from typing import Any
 
 from soacheck.glossary import LIMITS, heading, unit
 
-PERCENT = frozenset({"margin", "equal_share", "worst_share", "mean_worst_share", "runaway_fraction"})
+PERCENT = frozenset(
+    {"margin", "margin_to_rating", "equal_share", "worst_share", "mean_worst_share", "runaway_fraction"}
+)
 """Fractions shown as percentages in tables and plots (JSON keeps the fraction)."""
 
 _TIME_UNITS = ((7200.0, 3600.0, "h"), (300.0, 60.0, "min"), (1.0, 1.0, "s"), (0.0, 1e-3, "ms"))
@@ -63,7 +65,7 @@ def value_text(name: str, value: Any, *, with_unit: bool = True, span_s: float |
     if isinstance(value, float) and not math.isfinite(value):
         return "—"
     if name in PERCENT:
-        number = f"{value * 100:+.1f}" if name == "margin" else f"{value * 100:.1f}"
+        number = f"{value * 100:+.1f}" if name in ("margin", "margin_to_rating") else f"{value * 100:.1f}"
         return f"{number} %" if with_unit else number
     if name == "overload":
         return f"{value:.3g}"

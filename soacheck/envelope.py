@@ -19,10 +19,11 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from soacheck.derating import BreakdownDerating
+from soacheck.derating import BreakdownDerating, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.instability import instability_notes
 from soacheck.points import overload_of
+from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
 from soacheck.stage_run import check_devices
 from soacheck.steady_state import SteadyState, steady_state
@@ -136,6 +137,7 @@ class EnvelopeCheck:
     limit: np.ndarray
     outside: list[dict]
     assumptions: tuple[str, ...] = field(default_factory=tuple)
+    margin_to_rating: np.ndarray | None = None
 
     @property
     def passed(self) -> bool:
@@ -160,6 +162,8 @@ class EnvelopeCheck:
             "verdict": "pass" if self.passed else "fail",
             "margin": self.min_margin if np.isfinite(self.min_margin) else None,
             "overload": overload_of(float(self.min_margin)) if np.isfinite(self.min_margin) else None,
+            "margin_to_rating": least_margin(self.margin if self.margin_to_rating is None else self.margin_to_rating),
+            "policy": policy_of(self.stage.part.policy).to_dict(),
             "limit": str(self.limit[d, k]),
             "worst_voltage": float(self.source_v[k]),
             "worst_current": float(self.total_a[k]),
@@ -228,6 +232,10 @@ def check_envelope(
             "sees D·P + (1 − D)·P_idle, and repeated pulses are judged where the junction starts them"
         )
     allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, breakdown)
+    to_rating = None
+    if placed.part.policy is not None:  # the same steady states, judged against the absolute ratings
+        rated = placed.with_part(placed.part.rated)
+        to_rating = _judge(rated, state, envelope.pulse_s, envelope.duty, breakdown)[1]
     bad = (margin < 0).any(axis=0)
     outside = []
     if bad.any():
@@ -247,8 +255,9 @@ def check_envelope(
     notes += [
         f"the envelope's upper edge, {v.size} points, mapped through the current sharing and the resistor drops",
         f"worst case of the V_BE band ({stage.vbe_spread_v * 1e3:g} mV): Q1 at its bottom",
+        policy_note(placed.part),
     ]
-    return EnvelopeCheck(envelope, placed, v, i, state, allowed, margin, limit, outside, tuple(notes))
+    return EnvelopeCheck(envelope, placed, v, i, state, allowed, margin, limit, outside, tuple(notes), to_rating)
 
 
 # --------------------------------------------------------------------------- the largest safe envelope
@@ -328,5 +337,6 @@ def largest_safe_envelope(
         f"each current is the highest at which every device stays inside its derated SOA and below "
         f"{stage.part.tj_limit} = {stage.part.tj_limit_c:g} °C, "
         "without runaway and with V_CE above zero",
+        policy_note(stage.part),
     )
     return SafeEnvelope(stage, v, lo, limit, pulse_s, duty, notes)

@@ -93,6 +93,19 @@ _TERMS = [
         "current flows there.",
         "overload (I/I allowed)",
     ),
+    _t(
+        "margin_to_rating",
+        "1",
+        "the margin against the absolute ratings, beside a margin judged under a design-margin policy; "
+        "the margin itself without a policy",
+    ),
+    _t(
+        "policy",
+        "",
+        "the design-margin policy the answer was judged under: name, tj_ceiling (°C), current_fraction, "
+        "voltage_fraction, power_fraction (null: no margin on that quantity) and its source; name none: the "
+        "absolute ratings",
+    ),
     _t("limit", "", "what bounds the allowed current at that point, or why it fails (see the limits)"),
     _t("assumptions", "", "every choice made where the data did not decide, conservative unless it says otherwise"),
     # an operating point
@@ -142,6 +155,12 @@ _TERMS = [
     _t("sense_resistor_power_peak", "W", "highest power in the shared sense and wiring resistance", "sense R peak"),
     _t("energy", "Wh", "energy taken from the source over the test"),
     _t("max_safe_setpoint", "", "the most demanding setpoint that still passes (A, W or Ω, as the test's mode)"),
+    _t(
+        "max_setpoint_at_rating",
+        "",
+        "the most demanding setpoint that passes against the absolute ratings, beside max_safe_setpoint under a "
+        "policy (A, W or Ω, as the mode)",
+    ),
     # stages and their files, as the user writes them
     _t("stage", "", "the stage: the pass devices, their resistors and cooling (or the stage file's path)"),
     _t("count", "", "devices in parallel"),

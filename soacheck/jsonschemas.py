@@ -88,6 +88,18 @@ def array(items: Schema) -> Schema:
 
 ASSUMPTIONS = f("assumptions", "strings")
 PART = f("part", "string")
+MARGIN_TO_RATING = f("margin_to_rating", "number", null=True)
+POLICY = f(
+    "policy",
+    obj(
+        f("name", "string", text="the policy's name, shown in every result; none: the absolute ratings"),
+        f("tj_ceiling", "number", null=True),
+        f("current_fraction", "number", null=True),
+        f("voltage_fraction", "number", null=True),
+        f("power_fraction", "number", null=True),
+        f("source", "string"),
+    ),
+)
 
 POINT = obj(
     f("voltage", "number"),
@@ -99,6 +111,7 @@ POINT = obj(
     f("inside", "boolean"),
     f("allowed_current", "number", null=True),
     f("margin", "number", null=True),
+    MARGIN_TO_RATING,
     f("overload", "number", null=True),
     f("limit", "limit"),
     f("curve", "string"),
@@ -110,6 +123,7 @@ CANDIDATE = obj(
     PART,
     f("verdict", "verdict"),
     f("margin", "number", null=True),
+    MARGIN_TO_RATING,
     f("overload", "number", null=True),
     f("limit", "limit", null=True),
     f("min_count", "integer", null=True),
@@ -139,6 +153,8 @@ TRACE_FIELDS = (
     f("limit", "limit", null=True),
     f("margin", "number", null=True),
     f("overload", "number", null=True),
+    MARGIN_TO_RATING,
+    POLICY,
     f("margin_time", "number", null=True),
     f("time_outside", "number"),
     f("time_over_tj_max", "number"),
@@ -152,6 +168,8 @@ STAGE_RUN_FIELDS = (
     f("limit", "limit", null=True),
     f("margin", "number", null=True),
     f("overload", "number", null=True),
+    MARGIN_TO_RATING,
+    POLICY,
     f("margin_time", "number", null=True),
     f("device", "integer"),
     f("tj_peak", "number"),
@@ -173,6 +191,8 @@ ENVELOPE_CHECK_FIELDS = (
     f("verdict", "verdict"),
     f("margin", "number", null=True),
     f("overload", "number", null=True),
+    MARGIN_TO_RATING,
+    POLICY,
     f("limit", "limit"),
     f("worst_voltage", "number"),
     f("worst_current", "number"),
@@ -190,6 +210,7 @@ LIMIT_TABLE = obj(
     f("pulse", "string"),
     f("duty", "number", null=True),
     f("current_resolution", "number"),
+    POLICY,
     f(
         "points",
         array(obj(f("voltage", "number"), f("max_current", "number"), f("limit", "limit"))),
@@ -216,6 +237,7 @@ JOB_SUMMARY = _union(
     f("candidates", "integer", text="how many candidates were ranked"),
     f("best", "string"),
     f("max_safe_setpoint", "number", null=True),
+    f("max_setpoint_at_rating", "number", null=True),
     f("worst_current", "number"),
     *TRACE_FIELDS,
     *STAGE_RUN_FIELDS,
@@ -224,9 +246,14 @@ JOB_SUMMARY = _union(
 )
 
 SCHEMAS: dict[str, Schema] = {
-    "check": obj(PART, f("verdict", "verdict"), f("points", array(POINT)), ASSUMPTIONS),
+    "check": obj(PART, f("verdict", "verdict"), POLICY, f("points", array(POINT)), ASSUMPTIONS),
     "trace": obj(*TRACE_FIELDS, ASSUMPTIONS),
-    "discharge": obj(*STAGE_RUN_FIELDS, f("max_safe_setpoint", "number", null=True, optional=True), ASSUMPTIONS),
+    "discharge": obj(
+        *STAGE_RUN_FIELDS,
+        f("max_safe_setpoint", "number", null=True, optional=True),
+        f("max_setpoint_at_rating", "number", null=True, optional=True),
+        ASSUMPTIONS,
+    ),
     "sweep": obj(*STAGE_RUN_FIELDS, ASSUMPTIONS),
     "sharing": obj(
         f("stage", "string"),
@@ -239,6 +266,9 @@ SCHEMAS: dict[str, Schema] = {
         f("runaway_fraction", "number"),
         f("draws", "integer"),
         f("seed", "integer"),
+        f("margin", "number", text="the worst device's current against the policy's share of i_max"),
+        MARGIN_TO_RATING,
+        POLICY,
     ),
     "envelope": {
         "oneOf": [
@@ -246,7 +276,7 @@ SCHEMAS: dict[str, Schema] = {
             LIMIT_TABLE,
         ]
     },
-    "compare": obj(f("job", "string"), f("stage", "string", null=True), f("candidates", array(CANDIDATE))),
+    "compare": obj(f("job", "string"), f("stage", "string", null=True), POLICY, f("candidates", array(CANDIDATE))),
     "parts": obj(
         f(
             "parts",
@@ -302,6 +332,17 @@ SCHEMAS: dict[str, Schema] = {
                         f("heatsink_rth", "number"),
                         f("heatsink_capacity", "number"),
                         f("ambient", "number"),
+                    ),
+                    optional=True,
+                ),
+                f(
+                    "policy",
+                    obj(
+                        f("name", "string", text="the policy's name"),
+                        f("tj_ceiling", "number", optional=True),
+                        f("current_fraction", "number", optional=True),
+                        f("voltage_fraction", "number", optional=True),
+                        f("power_fraction", "number", optional=True),
                     ),
                     optional=True,
                 ),

@@ -18,6 +18,7 @@ from soacheck.errors import SoacheckError, nearest
 from soacheck.files import read_toml
 from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
+from soacheck.policy import policy_from_value
 from soacheck.stage import Cooling, Stage
 
 LIBRARY_ENV = "SOACHECK_LIBRARY"
@@ -123,6 +124,8 @@ def stage_table(stage: Stage) -> dict[str, Any]:
         }
     else:
         table["case_temp"] = stage.case_temp_c
+    if stage.part.policy is not None:  # the keys of its [policy] table, as written
+        table["policy"] = {k: v for k, v in stage.part.policy.to_dict().items() if v is not None and k != "source"}
     return table
 
 
@@ -154,6 +157,8 @@ def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -
         raise SoacheckError(f"{where}: add a [cooling] table or a fixed case_temp")
     # a Darlington's two junctions in series: twice the single junction's −2 mV/K (Sedra & Smith, from memory)
     tempco = VBE_TEMPCO_V_PER_K * junctions(part.darlington) if table.vbe_tempco is None else table.vbe_tempco
+    if "policy" in data:  # design margins kept with the stage they were chosen for
+        part = part.under(policy_from_value(data["policy"], f"{where}: policy", base=base))
     return Stage(
         part,
         table.count,

@@ -22,12 +22,13 @@ import json
 import math
 import textwrap
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from decimal import ROUND_FLOOR, Decimal
 
 from soacheck.envelope import SafeEnvelope
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import first_line
+from soacheck.policy import NO_POLICY, policy_of
 from soacheck.units import format_duration
 
 CURRENT_RESOLUTION_A = 0.001
@@ -73,7 +74,10 @@ class LimitTable:
     resolution_a
         The rounding step of the currents. [A]
     assumptions
-        What the numbers rest on, the rounding and the lookup rule included.
+        What the numbers rest on, the rounding, the lookup rule and the design-margin policy included.
+    policy
+        The design-margin policy the currents were found under, as its JSON object (``name``
+        ``none``: the absolute ratings).
     """
 
     part: str
@@ -85,6 +89,7 @@ class LimitTable:
     limit: tuple[str, ...]
     resolution_a: float
     assumptions: tuple[str, ...]
+    policy: dict[str, object] = field(default_factory=lambda: NO_POLICY.to_dict())
 
     def to_dict(self) -> dict[str, object]:
         """The table as the JSON object that ``envelope --json`` prints and ``--export x.json`` writes."""
@@ -94,6 +99,7 @@ class LimitTable:
             "pulse": self.pulse,
             "duty": self.duty,
             "current_resolution": self.resolution_a,
+            "policy": self.policy,
             "points": [
                 {"voltage": v, "max_current": i, "limit": lim}
                 for v, i, lim in zip(self.voltage_v, self.max_current_a, self.limit, strict=True)
@@ -136,6 +142,7 @@ def limit_table(safe: SafeEnvelope, *, resolution_a: float = CURRENT_RESOLUTION_
         limit=tuple(str(lim) for lim in safe.limit),
         resolution_a=resolution_a,
         assumptions=tuple(notes),
+        policy=policy_of(safe.stage.part.policy).to_dict(),
     )
 
 

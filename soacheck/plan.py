@@ -19,6 +19,7 @@ from soacheck.files import read_toml, read_trace
 from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_points
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
+from soacheck.policy import Policy, policy_from_value
 from soacheck.quantities import CURRENT, POWER, VOLTAGE
 from soacheck.stage import Stage
 from soacheck.tomlschemas import (
@@ -36,7 +37,7 @@ from soacheck.units import parse_duration
 
 JobKind = Literal["points", "envelope", "discharge", "sweep", "trace", "compare"]
 JOB_KINDS: tuple[JobKind, ...] = ("points", "envelope", "discharge", "sweep", "trace", "compare")
-_TOP_KEYS = ("title", "stage", *JOB_KINDS)
+_TOP_KEYS = ("title", "stage", "policy", *JOB_KINDS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -50,10 +51,13 @@ class Job:
 
 @dataclass(frozen=True, eq=False)
 class Plan:
+    """A validated plan. ``policy``: the design-margin policy every job is judged under (None: the ratings)."""
+
     title: str
     path: Path
     stage: Stage
     jobs: tuple[Job, ...]
+    policy: Policy | None = None
 
 
 def read_plan(path: str | Path, folders: Sequence[Path]) -> Plan:
@@ -83,6 +87,11 @@ def read_plan(path: str | Path, folders: Sequence[Path]) -> Plan:
         stage = stage_from_table(data["stage"], folders, where=f"{path} [stage]", base=base)
     else:
         raise SoacheckError(f"{path}: stage must be the path of a stage file or a [stage] table")
+    # the plan's policy, else the stage's own; every part of every job is judged under it
+    policy = stage.part.policy
+    if "policy" in data:
+        policy = policy_from_value(data["policy"], f"{path}: policy", base=base)
+        stage = stage.with_part(stage.part.rated.under(policy))
     jobs: list[Job] = []
     seen: dict[str, str] = {}
     for kind in JOB_KINDS:
@@ -102,10 +111,18 @@ def read_plan(path: str | Path, folders: Sequence[Path]) -> Plan:
                     "own name (names tell jobs apart in the report, its plots and its links)"
                 )
             seen[name.strip().lower()] = f"a [[{kind}]] job"
-            jobs.append(Job(kind, name, _prepare(kind, entry, where=where, base=base, stage=stage, folders=folders)))
+            prepared = _prepare(kind, entry, where=where, base=base, stage=stage, folders=folders)
+            try:
+                if "part" in prepared:
+                    prepared["part"] = prepared["part"].under(policy)
+                if "parts" in prepared:
+                    prepared["parts"] = [part.under(policy) for part in prepared["parts"]]
+            except SoacheckError as err:
+                raise SoacheckError(f"{where}: {err}") from None
+            jobs.append(Job(kind, name, prepared))
     if not jobs:
         raise SoacheckError(f"{path}: the plan has no jobs; add [[points]], [[discharge]], [[envelope]] ...")
-    return Plan(title, path, stage, tuple(jobs))
+    return Plan(title, path, stage, tuple(jobs), policy)
 
 
 def _file(where: str, file: str, base: Path) -> Path:

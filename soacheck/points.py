@@ -36,7 +36,7 @@ class PointCheck:
     the point was evaluated and its current is at most the allowed current (a point on
     the boundary is inside). Under a design-margin ``policy`` the allowed current, margin,
     limit and verdict are the policy's, and ``margin_to_rating`` is the margin against the
-    absolute ratings (None without a policy).
+    absolute ratings (the margin itself without a policy).
     """
 
     part_id: str
@@ -96,8 +96,8 @@ class PointCheck:
                 "extrapolated": self.extrapolated,
             }
         )
-        if self.margin_to_rating is not None:
-            frame.insert(frame.columns.get_loc("margin") + 1, "margin_to_rating", self.margin_to_rating)
+        to_rating = self.margin if self.margin_to_rating is None else self.margin_to_rating
+        frame.insert(frame.columns.get_loc("margin") + 1, "margin_to_rating", to_rating)
         return frame
 
 

@@ -30,10 +30,6 @@ from typing import Any
 
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.parts import REFERENCE_CASE_C
-from soacheck.quantities import DESIGN_FRACTION, TEMPERATURE
-
-POLICY_KEYS = ("name", "tj_ceiling", "current_fraction", "voltage_fraction", "power_fraction")
-"""The keys of a policy file or ``[policy]`` table, all optional."""
 
 
 @dataclass(frozen=True)
@@ -149,6 +145,23 @@ PRESETS: dict[str, Policy] = {"none": NO_POLICY, "bench": BENCH}
 """The presets ``--policy`` and a plan's ``policy`` key accept by name."""
 
 
+def policy_of(part_policy: Policy | None) -> Policy:
+    """The policy a result was judged under: :data:`NO_POLICY` for a part without one."""
+    return NO_POLICY if part_policy is None else part_policy
+
+
+def least_margin(margin: Any) -> float | None:
+    """The least of an array of margins (−inf where nothing is allowed), None when nothing finite is left."""
+    import numpy as np
+
+    flat = np.ravel(np.asarray(margin, dtype=float))
+    flat = flat[~np.isnan(flat)]
+    if flat.size == 0:
+        return None
+    worst = float(flat.min())
+    return worst if np.isfinite(worst) else None
+
+
 def policy_from_table(table: Any, where: str, *, default_name: str) -> Policy:
     """Validate a policy table (a policy file or a ``[policy]`` table) into a :class:`Policy`.
 
@@ -165,30 +178,41 @@ def policy_from_table(table: Any, where: str, *, default_name: str) -> Policy:
     ------
     SoacheckError
         An unknown key (with the nearest key), a fraction outside (0, 1], a ceiling below
-        25 °C or above 1000 °C, or a name that is not text; each names the key and range.
+        25 °C or above 1000 °C, or a name that is not text; each names the key and range
+        (the schema :class:`~soacheck.tomlschemas.PolicyTable`).
     """
-    if not isinstance(table, dict):
-        raise SoacheckError(f"{where} must be a table of keys {', '.join(POLICY_KEYS)}")
-    for key in table:
-        if key not in POLICY_KEYS:
-            raise SoacheckError(
-                f"{where}: unknown key '{key}'{did_you_mean(key, POLICY_KEYS)}; the keys are {', '.join(POLICY_KEYS)}"
-            )
-    name = table.get("name", default_name)
-    if not isinstance(name, str) or not name.strip():
-        raise SoacheckError(f"{where} key 'name' is {name!r}; give a name in quotes, such as \"bench\"")
-    values: dict[str, float | None] = {}
-    for key in ("current_fraction", "voltage_fraction", "power_fraction"):
-        values[key] = DESIGN_FRACTION.check(table[key], f"{where} key '{key}'") if key in table else None
-    ceiling = None
-    if "tj_ceiling" in table:
-        ceiling = TEMPERATURE.check(table["tj_ceiling"], f"{where} key 'tj_ceiling'")
-        if ceiling < REFERENCE_CASE_C:
-            raise SoacheckError(
-                f"{where} key 'tj_ceiling' is {ceiling:g} °C; give a junction ceiling of at least "
-                f"{REFERENCE_CASE_C:g} °C and at most the part's tj_max"
-            )
-    return Policy(name.strip(), ceiling, source=where, **values)
+    from soacheck.tomlschemas import PolicyTable, validate  # pydantic: only when a policy is read
+
+    checked = validate(PolicyTable, table, where)
+    name = (checked.name or default_name).strip()
+    return Policy(
+        name,
+        checked.tj_ceiling,
+        checked.current_fraction,
+        checked.voltage_fraction,
+        checked.power_fraction,
+        source=where,
+    )
+
+
+def policy_from_value(value: Any, where: str, *, base: Path) -> Policy:
+    """A file's ``policy`` key: an inline table, or a preset name or policy file (relative to ``base``).
+
+    Raises
+    ------
+    SoacheckError
+        Anything else, or a bad table or file (naming ``where`` and the key).
+    """
+    if isinstance(value, dict):
+        return policy_from_table(value, where, default_name="custom")
+    if isinstance(value, str) and value.strip():
+        text = value.strip()
+        if text.lower() in PRESETS:
+            return PRESETS[text.lower()]
+        return resolve_policy(base / text, where=where)
+    raise SoacheckError(
+        f"{where} is {value!r}; write a preset name ({', '.join(PRESETS)}), a policy file in quotes, or a table"
+    )
 
 
 def read_policy(path: str | Path) -> Policy:

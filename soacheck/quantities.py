@@ -145,6 +145,7 @@ def _q(name: str, unit: str, low: float, high: float, **kw) -> Quantity:
 # temperatures
 TEMPERATURE = _q("temperature", "°C", ABSOLUTE_ZERO_C, TEMPERATURE_CEILING_C, low_open=True)
 TJ_MAX = _q("rated junction temperature", "°C", 25.0, TEMPERATURE_CEILING_C, low_open=True)
+TJ_CEILING = _q("junction ceiling", "°C", 25.0, TEMPERATURE_CEILING_C)
 
 # electrical
 VOLTAGE = _q("voltage", "V", 0.0, 1e6, low_open=True)

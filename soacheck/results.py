@@ -37,7 +37,8 @@ from soacheck.lint import Finding
 from soacheck.parts import Part
 from soacheck.plan import Plan
 from soacheck.points import PointCheck
-from soacheck.sharing import SharingSpread
+from soacheck.policy import Policy, least_margin, policy_of
+from soacheck.sharing import SharingSpread, sharing_margins
 from soacheck.stage import Stage
 from soacheck.stage_run import StageRun
 from soacheck.trace import TraceResult
@@ -105,6 +106,12 @@ class Result(ABC):
     def assumptions(self) -> tuple[str, ...]:
         """The assumptions the answer rests on, in words."""
 
+    @property
+    def margin_to_rating(self) -> float:
+        """The least margin against the absolute ratings; the ``margin`` itself without a design-margin policy. [1]"""
+        value = self.to_dict().get("margin_to_rating")
+        return -math.inf if value is None else float(value)
+
     @abstractmethod
     def to_dict(self) -> dict[str, Any]:
         """Exactly the command's ``--json`` object: plain JSON values, None for NaN."""
@@ -167,6 +174,11 @@ class CheckResult(Result):
     def assumptions(self) -> tuple[str, ...]:
         return tuple(self.points.assumptions)
 
+    @property
+    def margin_to_rating(self) -> float:
+        worst = least_margin(self.to_frame()["margin_to_rating"].to_numpy(dtype=float))
+        return -math.inf if worst is None else worst
+
     def to_frame(self) -> pd.DataFrame:
         """One row per point: voltage [V], current [A], case_temp [°C], pulse, duty, inside,
         allowed_current [A], margin (fraction, NaN where nothing is allowed), limit, curve, extrapolated."""
@@ -176,6 +188,7 @@ class CheckResult(Result):
         return {
             "part": self.points.part_id,
             "verdict": self.verdict,
+            "policy": policy_of(self.points.policy).to_dict(),
             "points": points,
             "assumptions": list(self.assumptions),
         }
@@ -384,7 +397,7 @@ class SharingResult(Result):
     def margin(self) -> float:
         if not self.passed:
             return -math.inf
-        return 1.0 - self.spread.worst_share * self.current_a / self.stage.part.ratings.i_max_a
+        return float(sharing_margins(self.stage.part, self.spread.worst_share * self.current_a)["margin"])  # type: ignore[arg-type]
 
     @property
     def limit(self) -> str | None:
@@ -412,6 +425,7 @@ class SharingResult(Result):
                 "runaway_fraction": s.runaway_fraction,
                 "draws": s.draws,
                 "seed": self.seed,
+                **sharing_margins(self.stage.part, s.worst_share * self.current_a),
             }
         )
 
@@ -620,6 +634,8 @@ class CompareResult(Result):
         The stage file each candidate took its place in, or None (each alone).
     parts, envelope, stage, breakdown
         What the plot needs: the candidate parts, the envelope (None for a trajectory job), the stage.
+    policy
+        The design-margin policy the candidates were ranked under, or None (the absolute ratings).
     """
 
     candidates: tuple[Candidate, ...]
@@ -629,6 +645,7 @@ class CompareResult(Result):
     envelope: Envelope | None = None
     stage: Stage | None = None
     breakdown: BreakdownDerating = "auto"
+    policy: Policy | None = None
 
     @property
     def passed(self) -> bool:
@@ -658,7 +675,12 @@ class CompareResult(Result):
 
     def to_dict(self) -> dict[str, Any]:
         return jsonable(
-            {"job": self.job, "stage": self.stage_label, "candidates": [c.as_dict() for c in self.candidates]}
+            {
+                "job": self.job,
+                "stage": self.stage_label,
+                "policy": policy_of(self.policy).to_dict(),
+                "candidates": [c.as_dict() for c in self.candidates],
+            }
         )
 
     def to_frame(self) -> pd.DataFrame:

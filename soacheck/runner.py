@@ -19,7 +19,9 @@ from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, plot_stage_run, plot_trace
 from soacheck.points import check_points, overload_of
+from soacheck.policy import least_margin, policy_of
 from soacheck.search import max_safe_setpoint
+from soacheck.stage import Stage
 from soacheck.stage_run import passes_at, run_stage
 from soacheck.trace import TraceChecker
 
@@ -92,6 +94,8 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             "points_outside": int((~result.inside).sum()),
             "margin": float(margin[k]) if np.isfinite(margin[k]) else None,
             "overload": overload_of(float(margin[k])) if np.isfinite(margin[k]) else None,
+            "margin_to_rating": least_margin(result.to_frame()["margin_to_rating"].to_numpy(dtype=float)),
+            "policy": policy_of(result.policy).to_dict(),
             "limit": str(result.limit[k]),
             "worst_voltage": float(result.voltage_v[k]),
             "worst_current": float(result.current_a[k]),
@@ -118,7 +122,11 @@ def run_job(plan: Plan, job: Job) -> JobResult:
         run = run_stage(stage, path.time_s, path.source_v, path.total_a)
         summary = {"test": path.label, **run.summary()}
         if job.kind == "discharge" and d["find_max"]:
-            summary["max_safe_setpoint"] = _max_setpoint(plan, job)
+            summary["max_safe_setpoint"] = _max_setpoint(plan, job, plan.stage)
+            rated = plan.stage.with_part(plan.stage.part.rated)
+            summary["max_setpoint_at_rating"] = (
+                summary["max_safe_setpoint"] if plan.policy is None else _max_setpoint(plan, job, rated)
+            )
         figure = plot_stage_run(run, title=f"{job.name}: {path.label}")
         return JobResult(job.name, job.kind, run.passed, summary, run.assumptions + path.notes, {"run": figure})
     if job.kind == "trace":
@@ -138,7 +146,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
     if job.kind == "compare":
         target = d["job"]
         job_for = target if isinstance(target, Envelope) else TrajectoryJob(target)
-        ranked = compare(d["parts"], job_for, stage=stage if d["use_stage"] else None)
+        ranked = compare(d["parts"], job_for, stage=stage if d["use_stage"] else None, policy=plan.policy)
         rows = [c.as_dict() for c in ranked]
         best = ranked[0]
         summary = {
@@ -147,6 +155,8 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             "best": best.part,
             "margin": best.margin,
             "overload": overload_of(best.margin),
+            "margin_to_rating": best.margin_to_rating,
+            "policy": policy_of(plan.policy).to_dict(),
             "limit": best.limit,
         }
         figures = {}
@@ -168,12 +178,12 @@ def run_job(plan: Plan, job: Job) -> JobResult:
     raise SoacheckError(f"unknown job kind '{job.kind}'")
 
 
-def _max_setpoint(plan: Plan, job: Job) -> float | None:
+def _max_setpoint(plan: Plan, job: Job, stage: Stage) -> float | None:
     table, origin, base = job.data["table"], job.data["origin"], job.data["base"]
 
     def run_at(setpoint: float):
         path = discharge_from_table({**table, "setpoint": setpoint}, where=origin, base=base)
-        return run_stage(plan.stage, path.time_s, path.source_v, path.total_a)
+        return run_stage(stage, path.time_s, path.source_v, path.total_a)
 
     return max_safe_setpoint(passes_at(run_at), float(table["setpoint"]), str(table["mode"]).lower(), rel_tol=1e-2)
 

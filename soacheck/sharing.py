@@ -278,6 +278,23 @@ class SharingSpread:
     runaway_fraction: float
 
 
+def sharing_margins(part, device_a: float) -> dict[str, object]:
+    """The worst device's current against the continuous current rating, under the part's policy and at rating.
+
+    ``margin`` = 1 − I/(f·i_max) with f the policy's current fraction (1 without one),
+    ``margin_to_rating`` = 1 − I/i_max, and the policy as its JSON object.
+    """
+    from soacheck.policy import policy_of
+
+    policy = policy_of(part.policy)
+    rated = part.ratings.i_max_a
+    return {
+        "margin": 1.0 - device_a / (policy.current_factor * rated),
+        "margin_to_rating": 1.0 - device_a / rated,
+        "policy": policy.to_dict(),
+    }
+
+
 def sharing_monte_carlo(
     stage: Stage,
     total_a: float,

@@ -16,11 +16,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from soacheck.boundary import allowed_current
-from soacheck.derating import BreakdownDerating
+from soacheck.derating import BreakdownDerating, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.instability import instability_notes
 from soacheck.parts import Part
 from soacheck.points import overload_of
+from soacheck.policy import least_margin, policy_of
 from soacheck.quantities import check_memory
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.steady_state import HOG_START_K, TIP_V
@@ -54,6 +55,7 @@ class StageRun:
     runaway: bool
     assumptions: tuple[str, ...] = field(default_factory=tuple)
     stage_gain: np.ndarray | None = None
+    margin_to_rating: np.ndarray | None = None
 
     @property
     def inside(self) -> np.ndarray:
@@ -86,12 +88,15 @@ class StageRun:
         if limit is None:  # nothing failed: what bounds the current where the margin is least
             limit = str(self.limit[d, k])
         energy_wh = float(np.sum(np.diff(self.time_s) * (self.source_v * self.total_a)[:-1]) / 3600.0)
+        margin = float(worst) if np.isfinite(worst) else None
         return {
             "verdict": "pass" if self.passed else "fail",
             "first_violation_time": first,
             "limit": limit,
             "margin": float(worst) if np.isfinite(worst) else None,
             "overload": overload_of(float(worst)) if np.isfinite(worst) else None,
+            "margin_to_rating": margin if self.margin_to_rating is None else least_margin(self.margin_to_rating),
+            "policy": policy_of(self.stage.part.policy).to_dict(),
             "margin_time": float(self.time_s[k]),
             "device": int(d) + 1,
             "tj_peak": float(self.junction_c.max()),
@@ -182,6 +187,11 @@ def run_stage(
     runaway_at = unstable & ~hogging
     gain = stage.loop_gain(currents, vce, rth_diff, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, breakdown=breakdown)
+    to_rating = None
+    if part.policy is not None:  # the same currents and temperatures, judged against the absolute ratings
+        to_rating = check_devices(
+            stage.with_part(part.rated), vce, currents, case, tj, runaway_at, breakdown=breakdown
+        )[1]
     notes = [
         junction_note,
         f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: Q1 "
@@ -224,8 +234,9 @@ def run_stage(
         limit,
         gain,
         bool(runaway_at.any()),
-        tuple(notes),
+        (*notes, policy_note(part)),
         stage_gain,
+        to_rating,
     )
 
 

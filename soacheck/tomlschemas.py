@@ -50,6 +50,16 @@ class CoolingTable(_Table):
     ambient: Q(q.TEMPERATURE) = 25.0
 
 
+class PolicyTable(_Table):
+    """A design-margin policy file, or a ``[policy]`` table in a stage file or a plan; every key optional."""
+
+    name: Annotated[str, Field(min_length=1)] | None = None
+    tj_ceiling: Q(q.TJ_CEILING) | None = None
+    current_fraction: Q(q.DESIGN_FRACTION) | None = None
+    voltage_fraction: Q(q.DESIGN_FRACTION) | None = None
+    power_fraction: Q(q.DESIGN_FRACTION) | None = None
+
+
 class StageTable(_Table):
     """A stage file, or a ``[stage]`` table inline in a plan."""
 
@@ -62,6 +72,7 @@ class StageTable(_Table):
     case_temp: Q(q.TEMPERATURE) | None = None
     cooling: CoolingTable | None = None
     drive_limit: Q(q.CURRENT) | None = None
+    policy: PolicyTable | Annotated[str, Field(min_length=1)] | None = None
 
 
 class EnvelopeTable(_Table):

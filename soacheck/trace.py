@@ -22,13 +22,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
-from soacheck.derating import BreakdownDerating, breakdown_note
+from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
 from soacheck.instability import instability_line, instability_notes
 from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
 from soacheck.points import overload_of
+from soacheck.policy import NO_POLICY, policy_of
 from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
@@ -57,6 +58,8 @@ class TraceResult:
     excursions: int
     assumptions: tuple[str, ...]
     plot: dict[str, np.ndarray] = field(default_factory=dict)
+    margin_to_rating: float | None = None
+    policy: dict[str, object] = field(default_factory=lambda: NO_POLICY.to_dict())
 
     @property
     def verdict(self) -> str:
@@ -76,6 +79,8 @@ class TraceResult:
             "limit": self.limit,
             "margin": self.margin,
             "overload": overload_of(self.margin),
+            "margin_to_rating": self.margin_to_rating,
+            "policy": self.policy,
             "margin_time": self.margin_time_s,
             "time_outside": self.time_outside_s,
             "time_over_tj_max": self.time_over_tj_max_s,
@@ -195,6 +200,12 @@ class TraceChecker:
         # each bin keeps the samples of highest voltage, current and junction temperature and of least margin
         keys = 3 + (self.junction is not None)
         self.thinner = PeakThinner(plot_points // keys, names, keys) if plot_points >= keys else None
+        # under a policy, a twin judges the same samples against the absolute ratings
+        self.rated = (
+            None
+            if part.policy is None
+            else TraceChecker(part.rated, tc_c=tc_c, cooling=cooling, breakdown=breakdown, plot_points=0)
+        )
 
     # ----------------------------------------------------------------- evaluation
 
@@ -229,6 +240,8 @@ class TraceChecker:
         i = np.asarray(i_a, dtype=float)
         if t.size == 0:
             return
+        if self.rated is not None:
+            self.rated.feed(t, v, i)
         if self.last_t is not None and t[0] <= self.last_t:
             raise SoacheckError(f"time {t[0]:g} s does not rise after {self.last_t:g} s")
         if self.first_t is None:
@@ -463,6 +476,10 @@ class TraceChecker:
             excursions=self.excursions,
             assumptions=tuple(notes),
             plot=plot,
+            margin_to_rating=(worst if math.isfinite(worst) else None)
+            if self.rated is None
+            else self.rated.result().margin,
+            policy=policy_of(self.part.policy).to_dict(),
         )
 
     def _assumptions(self) -> list[str]:
@@ -470,6 +487,7 @@ class TraceChecker:
         notes = [
             "power held constant between samples (zero-order hold)",
             breakdown_note(part, self.breakdown),
+            policy_note(part),
         ]
         if self.cooling is not None:
             c = self.cooling

@@ -112,6 +112,16 @@ BreakdownOpt = Annotated[
         "constant-power limit), thermal (like the constant-power limit), none.",
     ),
 ]
+PolicyOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--policy",
+        metavar="FILE|none|bench",
+        help="Design margins to keep inside the ratings: a policy file (TOML: tj_ceiling, current_fraction, "
+        "voltage_fraction, power_fraction), bench (125 °C ceiling, 80 % current and voltage, 90 % power; common "
+        "practice) or none (the absolute ratings). Default: the stage file's [policy], else none.",
+    ),
+]
 PlotOpt = Annotated[Path | None, typer.Option("--plot", metavar="FILE", help="Write the plot (.png, .svg or .pdf).")]
 ForceOpt = Annotated[bool, typer.Option("--force", help="Overwrite existing output files.")]
 

@@ -15,6 +15,7 @@ from soacheck.cli.base import (
     JsonOpt,
     LibraryOpt,
     PlotOpt,
+    PolicyOpt,
     app,
     breakdown_option,
     console_for_output,
@@ -24,7 +25,15 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import Column, named_column, print_assumptions, print_table, quantity_table, verdict_cells
+from soacheck.cli.tables import (
+    Column,
+    named_column,
+    print_assumptions,
+    print_table,
+    quantity_table,
+    under_policy,
+    verdict_cells,
+)
 from soacheck.display import limit_text
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
@@ -49,6 +58,7 @@ def envelope(
     export: Annotated[Path | None, typer.Option("--export", help="Write the limit table: .csv, .json or .h.")] = None,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
@@ -58,7 +68,12 @@ def envelope(
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     console = console_for_output()
-    options = {"case_temp": case_temp, "breakdown": breakdown_option(breakdown_derating), "library": library}
+    options = {
+        "case_temp": case_temp,
+        "breakdown": breakdown_option(breakdown_derating),
+        "policy": policy,
+        "library": library,
+    }
     if check_file is not None:
         result = api.envelope(stage, check_file, **options)
         if plot is not None:
@@ -68,7 +83,7 @@ def envelope(
             echo_json(payload)
         else:
             loaded, env = result.check.stage, result.envelope
-            title = f"{loaded.part.id} × {loaded.count} against {env.label}"
+            title = f"{loaded.part.id} × {loaded.count} against {env.label}{under_policy(payload['policy'])}"
             console.print(quantity_table(title, payload, skip=("envelope", "part", "count")))
             if payload["outside"]:
                 stretches = payload["outside"]
@@ -109,7 +124,7 @@ def envelope(
     power = [math.floor(v * i * 10) / 10 for v, i in zip(table.voltage_v, table.max_current_a, strict=True)]
     print_table(
         console,
-        f"{loaded.part.id} × {loaded.count}: largest safe envelope",
+        f"{loaded.part.id} × {loaded.count}: largest safe envelope{under_policy(table.policy)}",
         [
             Column("source voltage (V)", [f"{v:.4g}" for v in table.voltage_v], essential=True),
             Column("max current (A)", [f"{i:.3f}" for i in table.max_current_a], essential=True),
@@ -138,6 +153,7 @@ def compare(
     stage: Annotated[Path | None, typer.Option("--stage", help="Stage each candidate takes its place in.")] = None,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
@@ -159,6 +175,7 @@ def compare(
             case_temp=case_temp,
             stage=stage,
             breakdown=breakdown_option(breakdown_derating),
+            policy=policy,
             library=library,
             progress=progress,
         )
@@ -175,6 +192,8 @@ def compare(
             Column("verdict", verdicts, essential=True, justify="left", styles=styles),
             named_column("margin", [c.margin for c in ranked], essential=True),
         ]
+        if under_policy(payload["policy"]):  # the margin to the absolute ratings beside the policy's
+            columns.append(named_column("margin_to_rating", [c.margin_to_rating for c in ranked], essential=True))
         if any(c.margin is not None and c.margin < 0 for c in ranked):
             columns.append(named_column("overload", [c.as_dict()["overload"] for c in ranked], essential=True))
         columns += [
@@ -182,5 +201,5 @@ def compare(
             named_column("min_count", [c.min_count for c in ranked], rank=2),
             named_column(headroom, [getattr(c, headroom) for c in ranked], rank=1),
         ]
-        print_table(console_for_output(), f"candidates for {label}", columns)
+        print_table(console_for_output(), f"candidates for {label}{under_policy(payload['policy'])}", columns)
     raise typer.Exit(0 if ranked and ranked[0].passes else 1)

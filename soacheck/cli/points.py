@@ -16,6 +16,7 @@ from soacheck.cli.base import (
     JsonOpt,
     LibraryOpt,
     PlotOpt,
+    PolicyOpt,
     app,
     breakdown_option,
     console_for_output,
@@ -58,7 +59,8 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
     """The points as a table that fits the terminal: verdict, margin, overload, limit and allowed always whole."""
     total = result.inside.size
     subset = not all_rows and total > TABLE_ROWS
-    title = f"{result.part_id}: operating points" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
+    under = "" if result.policy is None else f" under policy '{result.policy.name}'"
+    title = f"{result.part_id}: operating points{under}" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
     chosen = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
     frame = result.to_frame(chosen)
     rows = frame.to_dict(orient="records")
@@ -81,6 +83,8 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
         named_column("allowed_current", frame["allowed_current"], essential=True),
         named_column("margin", frame["margin"], essential=True),
     ]
+    if result.policy is not None:  # the margin to the absolute ratings beside the policy's
+        columns.append(named_column("margin_to_rating", frame["margin_to_rating"], essential=True))
     if outside:
         columns.append(named_column("overload", frame["overload"], essential=True))
     columns += [
@@ -144,6 +148,7 @@ def check(
     ] = 0.0,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     all_rows: Annotated[
@@ -166,6 +171,7 @@ def check(
         duty=duty,
         idle_current=idle_current,
         breakdown=breakdown_option(breakdown_derating),
+        policy=policy,
         library=library,
     )
     if plot is not None:

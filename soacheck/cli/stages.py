@@ -14,6 +14,7 @@ from soacheck.cli.base import (
     JsonOpt,
     LibraryOpt,
     PlotOpt,
+    PolicyOpt,
     app,
     breakdown_option,
     console_for_output,
@@ -22,7 +23,7 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import print_assumptions, quantity_table
+from soacheck.cli.tables import print_assumptions, quantity_table, under_policy
 from soacheck.filemarks import save_figure
 
 if TYPE_CHECKING:
@@ -37,7 +38,7 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, set
         echo_json(payload)
     else:
         console = console_for_output()
-        title = f"{run.stage.part.id} × {run.stage.count}: {label}"
+        title = f"{run.stage.part.id} × {run.stage.count}: {label}{under_policy(payload['policy'])}"
         units = {"max_safe_setpoint": setpoint_unit}
         console.print(quantity_table(title, payload, skip=("test",), span_s=payload.get("duration"), units=units))
         print_assumptions(console, payload["assumptions"])
@@ -64,6 +65,7 @@ def discharge(
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the trajectory.")] = 2000,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
@@ -84,6 +86,7 @@ def discharge(
         samples=samples,
         find_max=find_max,
         breakdown=breakdown_option(breakdown_derating),
+        policy=policy,
         library=library,
     )
     unit = {"cc": "A", "cp": "W", "cr": "Ω"}.get(mode.strip().lower(), "")
@@ -108,6 +111,7 @@ def sweep(
     samples: Annotated[int, typer.Option("--samples", help="Time samples of the ramp.")] = 2000,
     plot: PlotOpt = None,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
@@ -125,6 +129,7 @@ def sweep(
         time=ramp_time,
         samples=samples,
         breakdown=breakdown_option(breakdown_derating),
+        policy=policy,
         library=library,
     )
     _report_run(result, as_json=as_json, plot=plot)
@@ -139,6 +144,7 @@ def sharing(
     draws: Annotated[int, typer.Option("--draws", help="Monte Carlo draws of the V_BE offsets.")] = 10000,
     percentile: Annotated[float, typer.Option("--percentile", help="Percentile of the worst share to report.")] = 99.0,
     seed: Annotated[int, typer.Option("--seed", help="Random seed, for a repeatable answer.")] = 0,
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
@@ -153,6 +159,7 @@ def sharing(
             draws=draws,
             percentile=percentile,
             seed=seed,
+            policy=policy,
             library=library,
             progress=progress,
         )

@@ -132,6 +132,13 @@ def quantity_table(
     return table
 
 
+def under_policy(policy: dict | None) -> str:
+    """`` under policy 'NAME'`` for a title, from a result's policy object; empty without a policy."""
+    if not policy or policy.get("name") in (None, "none"):
+        return ""
+    return f" under policy '{policy['name']}'"
+
+
 def print_assumptions(console: Console, notes: Iterable[str]) -> None:
     """Each assumption on its own line, as written (no markup)."""
     for note in notes:

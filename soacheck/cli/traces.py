@@ -14,6 +14,7 @@ from soacheck.cli.base import (
     ForceOpt,
     JsonOpt,
     LibraryOpt,
+    PolicyOpt,
     app,
     breakdown_option,
     console_for_output,
@@ -22,7 +23,7 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import quantity_table
+from soacheck.cli.tables import quantity_table, under_policy
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
@@ -55,6 +56,7 @@ def trace(
     ] = None,
     chunk_rows: Annotated[int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")] = 1_000_000,
     breakdown_derating: BreakdownOpt = "auto",
+    policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
@@ -83,6 +85,7 @@ def trace(
             cooling=cooling,
             breakdown=breakdown_option(breakdown_derating),
             chunk_rows=chunk_rows,
+            policy=policy,
             library=library,
             progress=progress,
         )
@@ -97,7 +100,7 @@ def trace(
 
 def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> None:
     summary = result.summary()
-    title = f"{result.part_id}: trace of {result.samples} samples"
+    title = f"{result.part_id}: trace of {result.samples} samples{under_policy(result.policy)}"
     console.print(quantity_table(title, summary, skip=("part", "samples"), span_s=result.duration_s))
     for note in result.assumptions:
         console.print(f"  assumed: {note}", highlight=False, markup=False)
