@@ -107,6 +107,12 @@ _TERMS = [
         "absolute ratings",
     ),
     _t("limit", "", "what bounds the allowed current at that point, or why it fails (see the limits)"),
+    # the design-margin policy (in the policy object)
+    _t("tj_ceiling", "°C", "the policy's junction ceiling, in place of tj_max; null: tj_max", "tj ceiling"),
+    _t("current_fraction", "1", "the policy's fraction of the derated boundary's current; null: 1"),
+    _t("voltage_fraction", "1", "the policy's fraction of v_max above which nothing is allowed; null: 1"),
+    _t("power_fraction", "1", "the policy's fraction of the allowed power on constant-power lines; null: 1"),
+    _t("source", "", "where a policy's numbers come from: its file, or the note of a preset"),
     _t("assumptions", "", "every choice made where the data did not decide, conservative unless it says otherwise"),
     # an operating point
     _t("voltage", "V", "voltage across the device (V_CE or V_DS); for a stage or a limit table, the source voltage"),
