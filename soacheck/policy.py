@@ -145,6 +145,23 @@ PRESETS: dict[str, Policy] = {"none": NO_POLICY, "bench": BENCH}
 """The presets ``--policy`` and a plan's ``policy`` key accept by name."""
 
 
+def policy_lines(policy: dict[str, Any]) -> list[str]:
+    """A policy's JSON object (:meth:`Policy.to_dict`) as lines a report shows."""
+    if all(policy.get(key) is None for key in ("tj_ceiling", "current_fraction", "voltage_fraction", "power_fraction")):
+        return [f"{policy.get('name', 'none')}: no design margin; judged against the absolute ratings"]
+    lines = [f"{policy['name']} ({policy.get('source') or 'no source given'})"]
+    if policy.get("tj_ceiling") is not None:
+        lines.append(f"junction ceiling {policy['tj_ceiling']:g} °C, in place of tj_max")
+    if policy.get("power_fraction") is not None:
+        lines.append(f"{policy['power_fraction']:.0%} of the allowed power on constant-power lines")
+    if policy.get("current_fraction") is not None:
+        lines.append(f"{policy['current_fraction']:.0%} of the derated boundary's current")
+    if policy.get("voltage_fraction") is not None:
+        lines.append(f"nothing above {policy['voltage_fraction']:.0%} of v_max")
+    lines.append("margin and verdict against this policy; margin_to_rating against the absolute ratings")
+    return lines
+
+
 def policy_of(part_policy: Policy | None) -> Policy:
     """The policy a result was judged under: :data:`NO_POLICY` for a part without one."""
     return NO_POLICY if part_policy is None else part_policy

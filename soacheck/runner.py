@@ -19,7 +19,7 @@ from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, plot_stage_run, plot_trace
 from soacheck.points import check_points, overload_of
-from soacheck.policy import least_margin, policy_of
+from soacheck.policy import least_margin, policy_lines, policy_of
 from soacheck.search import max_safe_setpoint
 from soacheck.stage import Stage
 from soacheck.stage_run import passes_at, run_stage
@@ -54,6 +54,12 @@ class JobResult:
     @property
     def verdict(self) -> str:
         return "pass" if self.passed else "fail"
+
+    @property
+    def policy(self) -> list[str]:
+        """The design-margin policy the job was judged under, in lines for the report; empty when it names none."""
+        found = self.summary.get("policy")
+        return policy_lines(found) if isinstance(found, dict) else []
 
     def headline(self) -> str:
         """One line: what limits, and by how much."""

@@ -173,6 +173,7 @@ def test_a_plans_policy_reaches_every_job(tmp_path, ref_folder, policy_file):
     assert job.summary["policy"]["name"] == "example"
     assert job.summary["margin"] == pytest.approx(1 / 6, rel=REL)
     assert job.summary["margin_to_rating"] == pytest.approx(0.52, rel=REL)
+    assert "junction ceiling 125 °C, in place of tj_max" in job.policy  # the report's "Design policy" lines
     inline = tmp_path / "inline.toml"
     inline.write_text(plan.read_text().replace(f'policy = "{policy_file.name}"', "policy = { voltage_fracton = 1 }"))
     failed = invoke("run", inline, "-o", tmp_path / "out")
