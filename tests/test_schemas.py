@@ -81,11 +81,15 @@ def test_the_command_prints_the_installed_schema_and_refuses_an_unknown_command(
 CHECKED = {
     "part": "p",
     "verdict": "pass",
+    "policy": {
+        "name": "none", "tj_ceiling": None, "current_fraction": None, "voltage_fraction": None,
+        "power_fraction": None, "source": "absolute ratings",
+    },
     "points": [
         {
             "voltage": 20.0, "current": 3.0, "case_temp": 75.0, "pulse": "dc", "duty": None, "idle_current": 0.0,
-            "inside": True, "allowed_current": 3.75, "margin": 0.2, "overload": None, "limit": "power", "curve": "dc",
-            "extrapolated": False,
+            "inside": True, "allowed_current": 3.75, "margin": 0.2, "margin_to_rating": 0.2, "overload": None,
+            "limit": "power", "curve": "dc", "extrapolated": False,
         }
     ],
     "assumptions": [],
