@@ -16,6 +16,7 @@ import numpy as np
 from soacheck.bipolar import base_current, junctions
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
+from soacheck.quantities import DEVICE_COUNT, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
 from soacheck.sharing import VBE_TEMPCO_V_PER_K, loop_gain, share_current, stability_gain
 
 SETTLED_K = 1e-4
@@ -45,6 +46,15 @@ class Cooling:
     sink_ambient_k_per_w: float
     sink_j_per_k: float
     ambient_c: float = 25.0
+
+    def __post_init__(self) -> None:
+        for key, quantity, value in (
+            ("interface_rth", INTERFACE_RESISTANCE, self.case_sink_k_per_w),
+            ("heatsink_rth", THERMAL_RESISTANCE, self.sink_ambient_k_per_w),
+            ("heatsink_capacity", HEAT_CAPACITY, self.sink_j_per_k),
+            ("ambient", TEMPERATURE, self.ambient_c),
+        ):
+            quantity.check(value, key)
 
 
 @dataclass(frozen=True, eq=False)
@@ -87,8 +97,9 @@ class Stage:
     drive_limit_a: float | None = None
 
     def __post_init__(self) -> None:
-        if self.count < 1:
-            raise SoacheckError(f"{self.name}: count is {self.count}; a stage needs at least one device")
+        DEVICE_COUNT.check(self.count, f"{self.name}: count")
+        if self.case_temp_c is not None:
+            TEMPERATURE.check(self.case_temp_c, f"{self.name}: case_temp")
         for key, value in (
             ("ballast", self.ballast_ohm),
             ("series_resistance", self.series_ohm),

@@ -30,6 +30,7 @@ from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.policy import NO_POLICY, policy_of
+from soacheck.quantities import TEMPERATURE
 from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
@@ -138,6 +139,8 @@ class TraceChecker:
     ) -> None:
         if (tc_c is None) == (cooling is None):
             raise SoacheckError("give either a fixed case temperature or a heatsink, not both or neither")
+        if tc_c is not None:
+            tc_c = TEMPERATURE.check(tc_c, "case temperature")
         self.part, self.breakdown, self.cooling = part, breakdown, cooling
         self.model = thermal_model(part)
         if cooling is not None:
@@ -261,6 +264,14 @@ class TraceChecker:
             self._temperature(t, rise_j)
 
         excess = self._excess(self.dc, v, i, tc)
+        # fail safe: a sample that carries current but could not be evaluated is never inside
+        unevaluated = np.isnan(excess) & (i > 0)
+        if tc is not None:
+            unevaluated |= ~np.isfinite(tc)
+        if rise_j is not None:
+            unevaluated |= ~np.isfinite(rise_j)
+        if unevaluated.any():
+            self.worst.violation(float(t[int(np.argmax(unevaluated))]), None, "invalid")
         k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
         has_nan = bool(np.isnan(excess[k]))  # argmax finds a NaN first if there is one
         if excess[k] > 0 or np.isnan(excess[k]):

@@ -433,5 +433,5 @@ def test_unknown_chemistry_exits_2(tmp_path):
 
 
 def test_a_stage_needs_devices():
-    with pytest.raises(SoacheckError, match="at least one device"):
+    with pytest.raises(SoacheckError, match="count is 0; give a number of devices from 1"):
         Stage(read_part_from_bundle("demo-npn-to3-250w"), 0, case_temp_c=25.0)
