@@ -465,7 +465,9 @@ class TraceChecker:
             else:
                 at_c = start_tj if from_start else tc
                 limit = str(
-                    evaluate_lines(np.array([v]), self.part, self.lines[b], tc_c=at_c, breakdown=self.breakdown)[1][0]
+                    evaluate_lines(
+                        np.array([max(v, 1e-300)]), self.part, self.lines[b], tc_c=at_c, breakdown=self.breakdown
+                    )[1][0]  # 0 V: the boundary's left end (the current limit), as the check itself reads it
                 )
         violated = math.isfinite(self.worst.violation_time)
         worst = self.worst.margin
