@@ -174,3 +174,24 @@ def test_allowed_current_never_lies_above_the_digitized_curve(name, fractions, t
         digitized = np.exp(np.interp(np.log(v), lv, li))
         allowed = allowed_current(v, part, tc_c=tc, pulse_s=curve.pulse_s, use_model=False).current_a
         assert np.all(allowed <= digitized * (1 + 1e-9)), (curve.pulse_s, v, allowed, digitized)
+
+
+def test_the_margin_time_is_never_an_idle_sample(modelled_part):
+    """Idle samples (0 V, 0 A) carry no current: the least margin is at the one loaded sample, 1 ms."""
+    t = np.array([0.0, 1e-3, 2e-3, 3e-3])
+    checker = TraceChecker(modelled_part, tc_c=25.0)
+    checker.feed(t, np.array([0.0, 10.0, 0.0, 0.0]), np.array([0.0, 1.0, 0.0, 0.0]))
+    summary = checker.result().summary()
+    assert summary["margin_time"] == pytest.approx(1e-3)
+    # 1 A at 10 V against 15 A allowed (current limit to 8.33 V, then 125 W / 10 V = 12.5 A):
+    # margin 1 - 1/12.5 = 0.92 (conftest's constructed curve, closed form)
+    assert summary["margin"] == pytest.approx(0.92, rel=1e-3)
+
+
+def test_a_sample_that_cannot_be_evaluated_makes_the_trace_fail_as_invalid(modelled_part, monkeypatch):
+    checker = TraceChecker(modelled_part, tc_c=25.0)
+    monkeypatch.setattr(checker, "_excess", lambda index, v, i, tc: np.full(v.shape, np.nan))
+    checker.feed(np.array([0.0, 1e-3]), np.array([10.0, 10.0]), np.array([1.0, 1.0]))
+    result = checker.result()
+    assert not result.passed
+    assert result.limit == "invalid" and result.first_violation_time_s == 0.0
