@@ -222,7 +222,9 @@ _TERMS = [
     _t("rth_jc", "K/W", "junction-to-case thermal resistance", "Rth jc"),
     _t("findings", "", "what lint found in a part folder"),
     _t("severity", "", "error (the part cannot be trusted) or warning"),
-    _t("file", "", "the file a finding is in"),
+    _t("file", "", "the file a finding is in; for an archive of traces, the trace file"),
+    _t("files", "", "an archive of traces: one object per file, in the order given"),
+    _t("error", "", "why a file could not be read: the file, its row and the fix"),
     _t("row", "", "the data row of the file a finding is on, from 1"),
     _t("message", "", "the finding and its fix, in words"),
     # plans and reports

@@ -247,7 +247,32 @@ JOB_SUMMARY = _union(
 
 SCHEMAS: dict[str, Schema] = {
     "check": obj(PART, f("verdict", "verdict"), POLICY, f("points", array(POINT)), ASSUMPTIONS),
-    "trace": obj(*TRACE_FIELDS, ASSUMPTIONS),
+    "trace": {
+        "oneOf": [
+            obj(*TRACE_FIELDS, ASSUMPTIONS, text="one trace file"),
+            obj(
+                PART,
+                f("verdict", "verdict"),
+                f(
+                    "files",
+                    array(
+                        {
+                            "oneOf": [
+                                obj(f("file", "string"), *TRACE_FIELDS, ASSUMPTIONS, text="a file that was checked"),
+                                obj(
+                                    f("file", "string"),
+                                    f("verdict", "verdict"),
+                                    f("error", "string"),
+                                    text="a file that could not be read (verdict invalid)",
+                                ),
+                            ]
+                        }
+                    ),
+                ),
+                text="several trace files, each checked on its own",
+            ),
+        ]
+    },
     "discharge": obj(
         *STAGE_RUN_FIELDS,
         f("max_safe_setpoint", "number", null=True, optional=True),

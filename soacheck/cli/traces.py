@@ -35,8 +35,13 @@ from soacheck.trace import TraceResult
 @user_errors
 def trace(
     part: Annotated[str, typer.Argument(help="Part id or path of a part folder.")],
-    file: Annotated[
-        Path, typer.Argument(help="Trace: CSV (or Parquet with pyarrow) with columns time,voltage,current.")
+    files: Annotated[
+        list[str],
+        typer.Argument(
+            help="Traces: CSV (or Parquet) files with columns time,voltage,current; several files, folders or "
+            "glob patterns check a whole archive.",
+            metavar="FILES...",
+        ),
     ],
     case_temp: Annotated[
         float | None,
@@ -55,14 +60,27 @@ def trace(
         Path | None, typer.Option("--plot", help="Write the trajectory and Tj plot (.png, .svg, .pdf).")
     ] = None,
     chunk_rows: Annotated[int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")] = 1_000_000,
+    jobs: Annotated[
+        int | None,
+        typer.Option("--jobs", "-j", help="Files checked at once, each in its own process [default: the core count]."),
+    ] = None,
+    dask: Annotated[
+        str | None,
+        typer.Option("--dask", metavar="ADDRESS", help="Check the files on this Dask scheduler (soacheck[dask])."),
+    ] = None,
     breakdown_derating: BreakdownOpt = "auto",
     policy: PolicyOpt = None,
     library: LibraryOpt = None,
     force: ForceOpt = False,
     as_json: JsonOpt = False,
 ) -> None:
-    """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj."""
+    """Check a V–I waveform sample by sample: SOA at the case temperature, pulses, and Tj.
+
+    Several files (or a folder, or a glob) are checked each on its own, in parallel, into one
+    summary table; exit 2 if any file could not be read, else 1 if any failed.
+    """
     from soacheck import api
+    from soacheck.archive import expand_files
 
     cooling = None
     if heatsink_rth is not None or heatsink_capacity is not None:
@@ -77,6 +95,15 @@ def trace(
             TEMPERATURE.check(ambient, "--ambient"),
         )
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
+    if jobs is not None and jobs < 1:
+        raise SoacheckError(f"--jobs is {jobs}; give 1 or more files at a time")
+    paths = expand_files(files)
+    if len(files) > 1 or len(paths) != 1 or Path(files[0]).is_dir() or dask is not None:
+        if plot is not None:
+            raise SoacheckError("--plot draws one trace; give one file, or leave out --plot for an archive")
+        _archive(part, paths, case_temp, cooling, breakdown_derating, chunk_rows, jobs, dask, library, as_json)
+        return
+    file = paths[0]
     with progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress:
         result = api.trace(
             part,
@@ -96,6 +123,59 @@ def trace(
     else:
         _print_trace(console_for_output(), result.trace, plot)
     raise typer.Exit(0 if result.passed else 1)
+
+
+def _archive(part, paths, case_temp, cooling, breakdown_derating, chunk_rows, jobs, dask, library, as_json) -> None:
+    """Check every file of an archive and print one summary (a table, or one JSON object a line)."""
+    from soacheck.api import load_part
+    from soacheck.archive import check_archive
+
+    if not paths:
+        raise SoacheckError("no trace files: the folders hold no .csv or .parquet files")
+    loaded = load_part(part, library=library)
+    if case_temp is None and cooling is None:
+        case_temp = 25.0
+    with progress_bar("checking files", total=len(paths), quiet=as_json) as progress:
+        outcomes = check_archive(
+            loaded,
+            paths,
+            case_temp=case_temp,
+            cooling=cooling,
+            breakdown=breakdown_option(breakdown_derating),
+            chunk_rows=chunk_rows,
+            jobs=jobs,
+            dask_address=dask,
+            progress=progress,
+        )
+    verdicts = {o.verdict for o in outcomes}
+    if as_json:
+        overall = "invalid" if "invalid" in verdicts else "fail" if "fail" in verdicts else "pass"
+        echo_json({"part": loaded.id, "verdict": overall, "files": [o.to_dict() for o in outcomes]})
+    else:
+        _print_archive(console_for_output(), loaded.id, outcomes)
+    raise typer.Exit(2 if "invalid" in verdicts else 1 if "fail" in verdicts else 0)
+
+
+def _print_archive(console: Console, part_id: str, outcomes) -> None:
+    table = RichTable(title=escape(f"{part_id}: {len(outcomes)} trace files"), title_justify="left")
+    for name in ("file", "verdict", "first violation", "margin", "Tj peak"):
+        table.add_column(name, justify="left" if name in ("file", "verdict") else "right")
+    for o in outcomes:
+        s = o.summary or {}
+        if o.summary is None:
+            verdict, first, margin, peak = "[bold red]unreadable[/]", "see below", "", ""
+        else:
+            verdict = "[green]pass[/]" if o.verdict == "pass" else "[bold red]FAIL[/]"
+            first = "—" if s["first_violation_time"] is None else f"{s['first_violation_time']:.4g} s ({s['limit']})"
+            margin = "—" if s["margin"] is None else f"{s['margin']:+.1%}"
+            peak = "—" if s["tj_peak"] is None else f"{s['tj_peak']:.1f} °C"
+        table.add_row(escape(o.file), verdict, first, margin, peak)
+    console.print(table)
+    for o in outcomes:
+        if o.error is not None:
+            console.print(f"  unreadable: {o.error}", highlight=False, markup=False, soft_wrap=True)
+    counts = {v: sum(o.verdict == v for o in outcomes) for v in ("pass", "fail", "invalid")}
+    console.print(f"{counts['pass']} passed, {counts['fail']} failed, {counts['invalid']} unreadable", highlight=False)
 
 
 def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> None:
