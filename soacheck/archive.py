@@ -44,12 +44,23 @@ def expand_files(specs: Sequence[str | Path]) -> list[Path]:
     """The trace files named by paths, folders (their trace files, sorted) and glob patterns (sorted).
 
     A path that names nothing stays in the list, so that its check reports it as unreadable.
+
+    Raises
+    ------
+    SoacheckError
+        A folder that holds no trace file.
     """
     files: list[Path] = []
     for spec in specs:
         path = Path(spec)
         if path.is_dir():
-            files.extend(sorted(p for p in path.iterdir() if p.is_file() and p.suffix.lower() in TRACE_SUFFIXES))
+            found = sorted(p for p in path.iterdir() if p.is_file() and p.suffix.lower() in TRACE_SUFFIXES)
+            if not found:
+                raise SoacheckError(
+                    f"{path}: is a folder with no trace files ({', '.join(TRACE_SUFFIXES)}); give trace files or "
+                    "a folder that holds them"
+                )
+            files.extend(found)
         elif not path.exists() and glob.has_magic(str(spec)):
             matches = sorted(Path(p) for p in glob.glob(str(spec), recursive=True))
             files.extend(matches if matches else [path])

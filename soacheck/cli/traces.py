@@ -130,8 +130,6 @@ def _archive(part, paths, case_temp, cooling, breakdown_derating, chunk_rows, jo
     from soacheck.api import load_part
     from soacheck.archive import check_archive
 
-    if not paths:
-        raise SoacheckError("no trace files: the folders hold no .csv or .parquet files")
     loaded = load_part(part, library=library)
     if case_temp is None and cooling is None:
         case_temp = 25.0
