@@ -1,7 +1,7 @@
 """A lab's archive: several trace files checked each on its own, in parallel, one summary.
 
-The constructed reference part (methods.md §1-§2, see conftest) allows 125 W / 20 V = 6.25 A
-at 20 V and 25 °C case (by hand): a log at 3 A passes, one at 7 A fails from its first sample
+The constructed reference part of conftest (a 125 W constant-power line from 8.33 V to 40 V)
+allows 125 W / 20 V = 6.25 A at 20 V and 25 °C case (by hand): a log at 3 A passes, one at 7 A fails from its first sample
 with the limit ``power``.
 """
 
@@ -44,6 +44,7 @@ def test_a_folder_gives_one_row_per_file_and_an_unreadable_file_does_not_stop_th
     rows = [line for line in result.stdout.splitlines() if line.startswith("│")]
     assert len(rows) == 3 and "a-fine.csv" in rows[0] and "b-hot.csv" in rows[1] and "c-broken.csv" in rows[2]
     assert "pass" in rows[0] and "FAIL" in rows[1] and "(power)" in rows[1] and "unreadable" in rows[2]
+    assert "-12.0" in rows[1]  # margin 1 - 7/6.25, by hand
     assert "data row 2" in result.stdout  # the broken file's own message: its bad row
     assert "1 passed, 1 failed, 1 unreadable" in result.stdout
 

@@ -23,7 +23,7 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import quantity_table, under_policy
+from soacheck.cli.tables import Column, named_column, print_table, quantity_table, under_policy, verdict_cells
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
@@ -155,20 +155,22 @@ def _archive(part, paths, case_temp, cooling, breakdown_derating, chunk_rows, jo
 
 
 def _print_archive(console: Console, part_id: str, outcomes) -> None:
-    table = RichTable(title=escape(f"{part_id}: {len(outcomes)} trace files"), title_justify="left")
-    for name in ("file", "verdict", "first violation", "margin", "Tj peak"):
-        table.add_column(name, justify="left" if name in ("file", "verdict") else "right")
-    for o in outcomes:
-        s = o.summary or {}
-        if o.summary is None:
-            verdict, first, margin, peak = "[bold red]unreadable[/]", "see below", "", ""
-        else:
-            verdict = "[green]pass[/]" if o.verdict == "pass" else "[bold red]FAIL[/]"
-            first = "—" if s["first_violation_time"] is None else f"{s['first_violation_time']:.4g} s ({s['limit']})"
-            margin = "—" if s["margin"] is None else f"{s['margin']:+.1%}"
-            peak = "—" if s["tj_peak"] is None else f"{s['tj_peak']:.1f} °C"
-        table.add_row(escape(o.file), verdict, first, margin, peak)
-    console.print(table)
+    """One row per file: verdict, first violation and its limit, margin, Tj peak; then the unreadable files' messages."""
+    read = [o.summary or {} for o in outcomes]
+    verdicts, styles = verdict_cells(o.verdict == "pass" for o in outcomes)
+    verdicts = ["unreadable" if o.summary is None else v for o, v in zip(outcomes, verdicts, strict=True)]
+    first = [
+        "" if not s or s["first_violation_time"] is None else f"{s['first_violation_time']:.4g} s ({s['limit']})"
+        for s in read
+    ]
+    columns = [
+        Column("file", [o.file for o in outcomes], essential=True, justify="left"),
+        Column("verdict", verdicts, essential=True, justify="left", styles=styles),
+        Column("first violation", first, essential=True),
+        named_column("margin", [s.get("margin") for s in read], essential=True),
+        named_column("tj_peak", [s.get("tj_peak") for s in read], rank=1),
+    ]
+    print_table(console, f"{part_id}: {len(outcomes)} trace files", columns)
     for o in outcomes:
         if o.error is not None:
             console.print(f"  unreadable: {o.error}", highlight=False, markup=False, soft_wrap=True)
