@@ -194,6 +194,22 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
     return Candidate(part.id, passed, margin, limit, min_count, max_rth, None, worst_v, to_rating)
 
 
+def case_temps_in_stage(
+    parts: Sequence[Part], stage: Stage, envelope: Envelope, *, breakdown: BreakdownDerating = "auto"
+) -> dict[str, float]:
+    """Each candidate's hottest case temperature in the stage's place on the envelope. [°C]
+
+    The temperature its verdict used where its devices run hottest (the heatsink at the
+    steady state of the envelope's worst power), so a plot can draw each candidate's
+    boundary where its verdict was decided.
+    """
+    temps = {}
+    for part in parts:
+        placed, _ = stage_for(stage.with_part(part), envelope)
+        temps[part.id] = float(check_envelope(placed, envelope, breakdown=breakdown).state.case_c.max())
+    return temps
+
+
 def _thinned(job: TrajectoryJob, samples: int) -> TrajectoryJob:
     """The job on about ``samples`` evenly picked samples, for the searches over count."""
     path = job.trajectory

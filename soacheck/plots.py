@@ -7,11 +7,10 @@ needed; saving is left to the caller.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 import numpy as np
 from matplotlib.axes import Axes
-from matplotlib.colors import TwoSlopeNorm
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
@@ -22,19 +21,25 @@ from soacheck.instability import instability_line
 from soacheck.mechanisms import mechanism_lines
 from soacheck.mosfet import ztc_point
 from soacheck.parts import Part
+from soacheck.plotstyle import (
+    CURRENT_LABEL,
+    INSIDE,
+    MECHANISM_STYLES,
+    OUTSIDE,
+    VOLTAGE_LABEL,
+    device_label,
+    grid,
+    legend_outside,
+    mark_violation,
+    series_style,
+    time_axis,
+)
 from soacheck.points import PointCheck
 from soacheck.stage_run import StageRun
 from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration
 
-MECHANISM_STYLE: dict[str, dict] = {
-    "on_resistance": {"color": "#8c8c8c", "label": "on-resistance"},
-    "current": {"color": "#1f5fa8", "label": "current limit"},
-    "power": {"color": "#d1495b", "label": "power (constant power)"},
-    "second_breakdown": {"color": "#6a3d9a", "label": "second breakdown"},
-    "thermal_instability": {"color": "#6a3d9a", "label": "thermal instability"},
-    "unclassified": {"color": "#222222", "label": "unclassified slope"},
-}
+MECHANISM_STYLE = MECHANISM_STYLES  # one palette, defined in soacheck.plotstyle
 
 
 def new_axes(width_in: float = 8.0, height_in: float = 6.0) -> Axes:
@@ -86,6 +91,7 @@ def plot_soa(
                 np.exp(line.log_v),
                 np.exp(line.log_i),
                 color=style["color"],
+                linestyle=style["linestyle"],
                 lw=2.4 if curve.is_dc else 1.4,
                 solid_capstyle="round",
             )
@@ -98,7 +104,6 @@ def plot_soa(
             va="center",
         )
     _draw_instability(ax, part)
-    cmap_t = ["#e08214", "#b35806", "#7f3b08", "#542788"]
     for n, tc in enumerate(case_temps_c):
         poly = boundary_polyline(
             part, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
@@ -108,52 +113,42 @@ def plot_soa(
         ax.plot(
             poly.voltage_v,
             poly.current_a,
-            ls="--",
-            lw=1.6,
-            color=cmap_t[n % len(cmap_t)],
+            lw=1.8,
+            **{**series_style(n + 1), "color": ("#000000", "#56B4E9", "#E69F00", "#009E73")[n % 4]},
             label=f"{format_duration(pulse_s)} derated, Tc = {tc:.3g} °C",
         )
     if points is not None and points.voltage_v.size:
-        margin = np.where(np.isfinite(points.margin), points.margin, -1.0)
-        norm = TwoSlopeNorm(vmin=min(-0.5, margin.min()), vcenter=0.0, vmax=max(1.0, margin.max()))
-        ok = points.inside
-        shown = ax.scatter(
-            points.voltage_v[ok],
-            points.current_a[ok],
-            c=margin[ok],
-            cmap="RdYlGn",
-            norm=norm,
-            s=36,
-            edgecolors="k",
-            linewidths=0.5,
-            zorder=5,
-        )
-        ax.scatter(
-            points.voltage_v[~ok],
-            points.current_a[~ok],
-            c=margin[~ok],
-            cmap="RdYlGn",
-            norm=norm,
-            s=60,
-            marker="X",
-            edgecolors="k",
-            linewidths=0.5,
-            zorder=6,
-        )
-        ax.figure.colorbar(shown, ax=ax, label="margin  1 − I/I_allowed")
+        _draw_points(ax, points)
     ax.axvline(part.ratings.v_max_v, color="k", lw=0.8, ls=":")
     handles = [
-        Line2D([], [], color=MECHANISM_STYLE[m]["color"], lw=2, label=MECHANISM_STYLE[m]["label"])
-        for m in MECHANISM_STYLE
+        Line2D([], [], color=s["color"], linestyle=s["linestyle"], lw=2, label=s["label"])
+        for m, s in MECHANISM_STYLES.items()
         if m in used
     ]
     handles += ax.get_legend_handles_labels()[0]
-    ax.legend(handles=handles, fontsize=8, loc="lower left")
-    ax.set_xlabel("voltage V_CE / V_DS [V]")
-    ax.set_ylabel("current I_C / I_D [A]")
-    ax.set_title(f"{part.id}: SOA at 25 °C case (solid), derated (dashed)", fontsize=10)
-    ax.grid(True, which="both", lw=0.3, alpha=0.6)
+    legend_outside(ax, handles)
+    ax.set_xlabel(VOLTAGE_LABEL)
+    ax.set_ylabel(CURRENT_LABEL)
+    ax.set_title(f"{part.id}: SOA at 25 °C case (by mechanism), derated (markers)", fontsize=10)
+    grid(ax)
     return ax
+
+
+def _draw_points(ax: Axes, points: PointCheck) -> None:
+    """Checked points: circles inside, crosses outside, each pulse point labelled with its width; the
+    first point outside (in the file's order) ringed as the first violation."""
+    ok = points.inside
+    ax.scatter(points.voltage_v[ok], points.current_a[ok], color=INSIDE, edgecolors="k", linewidths=0.5, s=36,
+               zorder=5, label="point inside")  # fmt: skip
+    if (~ok).any():
+        ax.scatter(points.voltage_v[~ok], points.current_a[~ok], color=OUTSIDE, marker="X", edgecolors="k",
+                   linewidths=0.5, s=64, zorder=6, label="point outside")  # fmt: skip
+        k = int(np.argmax(~ok))
+        mark_violation(ax, float(points.voltage_v[k]), float(points.current_a[k]))
+    for v, i, tp, duty in zip(points.voltage_v, points.current_a, points.pulse_s, points.duty, strict=True):
+        if np.isfinite(tp):  # a pulse point sits above the DC lines: say which pulse it is
+            text = format_duration(float(tp)) + (f" at D = {duty:g}" if duty > 0 else " single")
+            ax.annotate(text, (v, i), xytext=(6, -10), textcoords="offset points", fontsize=7, gid="pulse-width")
 
 
 def _draw_instability(ax: Axes, part: Part) -> None:
@@ -201,92 +196,165 @@ def plot_point_check(
 
 
 def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating = "auto") -> Figure:
-    """Two panels: the trajectory on the part's SOA coloured by time, and Tj(t) with the margin.
+    """The trajectory on the part's SOA, and over time the junction temperature and the margin, each on its own axis.
 
-    The SOA panel shows the digitized curves and the DC boundary derated at the lowest
-    and the highest case temperature seen. Traces are thinned to about 20 000 samples
-    for drawing; the check itself used every sample.
+    The SOA panel is zoomed to the trajectory (the whole SOA in an inset) over the DC
+    boundary derated at the lowest and the highest case temperature seen. The margin panel
+    shows the margin to the DC boundary; samples above it belong to excursions, which the
+    check judges as pulses against the pulse curves, so a passing trace can dip below zero
+    there (the title gives the verdict and the least margin the check found). The first
+    violation is marked on every panel. Traces are thinned to about 20 000 samples for
+    drawing; the check itself used every sample.
     """
-    fig = Figure(figsize=(13, 5.5), layout="constrained")
-    ax_soa, ax_time = fig.subplots(1, 2, width_ratios=[1.1, 1])
+    fig = Figure(figsize=(14, 7), layout="constrained")
+    layout = fig.add_gridspec(2, 2, width_ratios=[1.1, 1])
+    ax_soa = fig.add_subplot(layout[:, 0])
+    ax_tj = fig.add_subplot(layout[0, 1])
+    ax_margin = fig.add_subplot(layout[1, 1], sharex=ax_tj)
     data = result.plot
     plot_soa(
         part, case_temps_c=sorted({float(data["case_temp"].min()), result.tc_peak_c}), breakdown=breakdown, ax=ax_soa
     )
     shown = data["current"] > 1e-3 * max(float(data["current"].max()), 1e-12)  # log axes: skip ~0 A
-    dots = ax_soa.scatter(
-        data["voltage"][shown], data["current"][shown], c=data["time"][shown], cmap="viridis", s=6, zorder=5
-    )
-    fig.colorbar(dots, ax=ax_soa, label="time [s]")
+    t, size_s = time_axis(ax_margin, data["time"])
+    dots = ax_soa.scatter(data["voltage"][shown], data["current"][shown], c=t[shown], cmap="viridis", s=6, zorder=5)
+    fig.colorbar(dots, ax=ax_soa, label=ax_margin.get_xlabel(), location="bottom", shrink=0.6)
+    _zoom(ax_soa, data["voltage"], data["current"])
+    _full_range_inset(ax_soa, part, [(data["voltage"], data["current"])])
+    margin = "—" if result.margin is None else f"{result.margin:+.1%}"
     ax_soa.set_title(f"{part.id}: trajectory ({result.verdict})", fontsize=10)
+    ax_tj.set_title(f"verdict {result.verdict}, margin {margin} (the least, as judged)", fontsize=9)
     if "tj" in data:
-        ax_time.plot(data["time"], data["tj"], color="#d1495b", lw=1.2, label="junction Tj")
-    ax_time.plot(data["time"], data["case_temp"], color="#e08214", lw=1.0, label="case Tc")
-    ax_time.axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
-    ax_time.set_xlabel("time [s]")
-    ax_time.set_ylabel("temperature [°C]")
-    margin_ax = ax_time.twinx()
-    margin_ax.plot(
-        data["time"], np.clip(data["margin"], -1, 1), color="#1f5fa8", lw=0.8, alpha=0.8, label="margin to DC boundary"
-    )
-    margin_ax.axhline(0, color="#1f5fa8", lw=0.5)
-    margin_ax.set_ylim(-1.05, 1.05)
-    margin_ax.set_ylabel("margin  1 − I/I_allowed (DC boundary)")
-    handles = ax_time.get_legend_handles_labels()[0] + margin_ax.get_legend_handles_labels()[0]
-    ax_time.legend(handles=handles, fontsize=8, loc="lower right")
-    ax_time.grid(True, lw=0.3, alpha=0.6)
+        ax_tj.plot(t, data["tj"], color=OKABE_JUNCTION, lw=1.2, label="junction Tj")
+    ax_tj.plot(t, data["case_temp"], color=OKABE_CASE, lw=1.0, linestyle="--", label="case Tc")
+    ax_tj.axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label="tj_max")
+    ax_tj.set_ylabel("temperature [°C]")
+    ax_margin.plot(t, 100 * np.clip(data["margin"], -1, 1), color=series_style(0)["color"], lw=0.8,
+                   label="margin to DC boundary")  # fmt: skip
+    ax_margin.axhline(0, color="k", lw=0.5)
+    ax_margin.set_ylim(-105, 105)
+    ax_margin.set_ylabel("margin [%]")
+    if result.first_violation_time_s is not None:
+        tv = result.first_violation_time_s / size_s
+        k = int(np.argmin(np.abs(data["time"] - result.first_violation_time_s)))
+        mark_violation(ax_soa, float(data["voltage"][k]), float(data["current"][k]))
+        mark_violation(ax_margin, float(tv), float(100 * np.clip(data["margin"][k], -1, 1)))
+        ax_tj.axvline(float(tv), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
+    _relegend(ax_soa)
+    for ax in (ax_tj, ax_margin):
+        grid(ax)
+        legend_outside(ax)
     return fig
 
 
-def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerating = "auto") -> Figure:
-    """The worst device's trajectory on its SOA, and the test over time.
+def _zoom(ax: Axes, v: np.ndarray, i: np.ndarray) -> None:
+    """Zoom log axes to the region a path occupies, with room around it for the boundary."""
+    shown = (v > 0) & (i > 0) & np.isfinite(v) & np.isfinite(i)
+    if not shown.any():
+        return
+    ax.set_xlim(float(v[shown].min()) / 2.5, float(v[shown].max()) * 2.5)
+    ax.set_ylim(float(i[shown].min()) / 3.0, float(i[shown].max()) * 3.0)
 
-    Left: the worst device's (V_CE, I_C) path coloured by time, over its SOA derated at the
-    case temperature at the start and at the hottest point. Right, over time: source voltage
-    and total current; each device's power; case, junction and heatsink temperatures; each
-    device's margin.
+
+def _full_range_inset(ax: Axes, part: Part, paths: Sequence[tuple[np.ndarray, np.ndarray]]) -> Axes:
+    """A small panel in the corner with the whole DC curve and the paths, to place the zoomed view."""
+    inset = ax.inset_axes((0.02, 0.02, 0.3, 0.3))
+    inset.set_xscale("log")
+    inset.set_yscale("log")
+    curve = part.dc_curve
+    inset.plot(curve.voltage_v, curve.current_a, color="k", lw=1.0)
+    for n, (v, i) in enumerate(paths):
+        shown = (v > 0) & (i > 0)
+        inset.plot(v[shown], i[shown], color=series_style(n)["color"], lw=1.2)
+    inset.tick_params(labelsize=6)
+    inset.set_title("full range", fontsize=6)
+    return inset
+
+
+def _relegend(ax: Axes) -> None:
+    """Redraw the legend outside with the mechanisms plot_soa listed plus everything labelled since."""
+    old = ax.get_legend()
+    handles = list(old.legend_handles) if old is not None else []
+    labels = {h.get_label() for h in handles}
+    handles += [h for h in ax.get_legend_handles_labels()[0] if h.get_label() not in labels]
+    legend_outside(ax, handles)
+
+
+def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerating = "auto") -> Figure:
+    """Every device's path on its SOA at its own hottest case temperature, and the test over time.
+
+    Left: each device's (V_CE, I_C) path, zoomed to the region it occupies, over the DC
+    boundary derated at that device's hottest case temperature (the temperature its verdict
+    used at its worst), with the whole SOA in an inset. Right, over time (in s, min or h as
+    fits): source voltage and total current; each device's power; junction, case and
+    heatsink temperatures; each device's margin. The first violation is marked on the SOA
+    and on every time panel.
     """
-    fig = Figure(figsize=(14, 8), layout="constrained")
-    grid = fig.add_gridspec(4, 2, width_ratios=[1.1, 1])
-    ax_soa = fig.add_subplot(grid[:, 0])
-    axes = [fig.add_subplot(grid[k, 1]) for k in range(4)]
+    fig = Figure(figsize=(15, 8.5), layout="constrained")
+    layout = fig.add_gridspec(4, 2, width_ratios=[1.15, 1])
+    ax_soa = fig.add_subplot(layout[:, 0])
+    axes = [fig.add_subplot(layout[k, 1]) for k in range(4)]
     for ax in axes[1:]:
         ax.sharex(axes[0])
     part = run.stage.part
     worst = run.worst_device
-    hottest = float(run.case_c[worst].max())
-    plot_soa(part, case_temps_c=sorted({float(run.case_c[worst, 0]), hottest}), breakdown=breakdown, ax=ax_soa)
-    shown = run.device_a[worst] > 1e-3 * max(float(run.device_a[worst].max()), 1e-12)  # log axes: skip ~0 A
-    path = ax_soa.scatter(
-        run.device_v[worst][shown], run.device_a[worst][shown], c=run.time_s[shown], cmap="viridis", s=8, zorder=6
-    )
-    fig.colorbar(path, ax=ax_soa, label="time [s]")
-    ax_soa.set_title(f"{title or part.id}: Q{worst + 1} (worst)", fontsize=10)
-    t = run.time_s
-    axes[0].plot(t, run.source_v, color="#1f5fa8", label="source V")
+    devices = range(run.device_a.shape[0])
+    hottest = [float(run.case_c[d].max()) for d in devices]
+    plot_soa(part, case_temps_c=sorted(set(hottest)), breakdown=breakdown, ax=ax_soa)
+    for d in devices:
+        shown = run.device_a[d] > 1e-3 * max(float(run.device_a[d].max()), 1e-12)  # log axes: skip ~0 A
+        label = f"{device_label(d)} path, hottest case {hottest[d]:.3g} °C"
+        style = series_style(d + 1, markers=False)
+        ax_soa.plot(run.device_v[d][shown], run.device_a[d][shown], lw=2.2 if d == worst else 1.4, zorder=6,
+                    label=label, **style)  # fmt: skip
+    bad = ~run.inside
+    first = None
+    if bad.any():
+        k = int(np.argmax(bad.any(axis=0)))
+        d = int(np.argmax(bad[:, k]))
+        first = (d, k)
+        mark_violation(ax_soa, float(run.device_v[d, k]), float(run.device_a[d, k]))
+    _zoom(ax_soa, run.device_v.ravel(), run.device_a.ravel())
+    _full_range_inset(ax_soa, part, [(run.device_v[d], run.device_a[d]) for d in devices])
+    _relegend(ax_soa)
+    ax_soa.set_title(f"{title or part.id}: {device_label(worst)} (worst)", fontsize=10)
+    t, _ = time_axis(axes[3], run.time_s)
+    axes[0].plot(t, run.source_v, color=series_style(0)["color"], label="source voltage [V]")
     axes[0].set_ylabel("V")
     current_ax = axes[0].twinx()
-    current_ax.plot(t, run.total_a, color="#d1495b", label="total I")
+    current_ax.plot(t, run.total_a, color=series_style(1)["color"], linestyle=series_style(1)["linestyle"],
+                    label="total current [A]")  # fmt: skip
     current_ax.set_ylabel("A")
-    for k in range(run.device_w.shape[0]):
-        axes[1].plot(t, run.device_w[k], lw=1.4 if k == worst else 0.8, label=f"Q{k + 1}")
+    for d in devices:
+        axes[1].plot(t, run.device_w[d], lw=1.4 if d == worst else 0.9, **series_style(d + 1, markers=False),
+                     label=device_label(d))  # fmt: skip
     axes[1].set_ylabel("device power [W]")
-    axes[2].plot(t, run.junction_c[worst], color="#d1495b", label="junction (worst)")
-    axes[2].plot(t, run.case_c[worst], color="#e08214", label="case (worst)")
-    axes[2].plot(t, run.sink_c, color="#6a3d9a", label="heatsink")
-    axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
+    axes[2].plot(t, run.junction_c[worst], color=OKABE_JUNCTION, label=f"junction {device_label(worst)}")
+    axes[2].plot(t, run.case_c[worst], color=OKABE_CASE, linestyle="--", label=f"case {device_label(worst)}")
+    axes[2].plot(t, run.sink_c, color="#000000", linestyle="-.", label="heatsink")
+    axes[2].axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label="tj_max")
     axes[2].set_ylabel("°C")
-    for k in range(run.margin.shape[0]):
-        axes[3].plot(t, np.clip(run.margin[k], -1, 1), lw=1.4 if k == worst else 0.8, label=f"Q{k + 1}")
+    for d in devices:
+        axes[3].plot(t, 100 * np.clip(run.margin[d], -1, 1), lw=1.4 if d == worst else 0.9,
+                     **series_style(d + 1, markers=False), label=device_label(d))  # fmt: skip
     axes[3].axhline(0, color="k", lw=0.6)
-    axes[3].set_ylabel("margin")
-    axes[3].set_xlabel("time [s]")
+    axes[3].set_ylabel("margin [%]")
+    if first is not None:
+        d, k = first
+        mark_violation(axes[3], float(t[k]), float(100 * np.clip(run.margin[d, k], -1, 1)))
+        for ax in axes[:3]:
+            ax.axvline(float(t[k]), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
     for ax in axes:
-        ax.grid(True, lw=0.3, alpha=0.6)
-        if ax.get_legend_handles_labels()[0]:
-            ax.legend(fontsize=7, loc="best")
-    current_ax.legend(fontsize=7, loc="lower right")
+        grid(ax)
+    handles = axes[0].get_legend_handles_labels()[0] + current_ax.get_legend_handles_labels()[0]
+    legend_outside(axes[0], handles)
+    for ax in axes[1:]:
+        legend_outside(ax)
     return fig
+
+
+OKABE_JUNCTION = "#D55E00"
+OKABE_CASE = "#E69F00"
 
 
 def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = "auto", most: int = 4) -> Figure:
@@ -315,39 +383,45 @@ def plot_compare(
     parts: Sequence[Part],
     envelope: Envelope,
     *,
-    case_temp_c: float,
+    case_temp_c: float | Mapping[str, float],
     count: int = 1,
     breakdown: BreakdownDerating = "auto",
     ax: Axes | None = None,
 ) -> Axes:
-    """Candidates' SOAs derated at one case temperature, overlaid, with the envelope's edge.
+    """Candidates' SOAs, each derated at the case temperature its verdict used, with the envelope's edge.
 
-    With ``count`` devices the edge is drawn at an even share, I/count per device, for
+    ``case_temp_c`` is one temperature for all (cases held at the envelope's case_temp), or
+    each candidate's own by part id (in a stage: its hottest case, from
+    :func:`soacheck.compare.case_temps_in_stage`); the legend gives each candidate's. With
+    ``count`` devices the edge is drawn at an even share, I/count per device, for
     orientation only: the verdicts include the uneven sharing and the resistor drops.
     """
-    ax = new_axes(9, 6.5) if ax is None else ax
+    ax = new_axes(10, 6.5) if ax is None else ax
     ax.set_xscale("log")
     ax.set_yscale("log")
-    colours = ["#1f5fa8", "#d1495b", "#2a9d8f", "#e08214", "#6a3d9a", "#8c564b", "#17becf", "#bcbd22"]
     for n, part in enumerate(parts):
+        tc = case_temp_c[part.id] if isinstance(case_temp_c, Mapping) else case_temp_c
         poly = boundary_polyline(
             part,
-            tc_c=case_temp_c,
+            tc_c=tc,
             pulse_s=envelope.pulse_s,
             duty=0.0 if np.isinf(envelope.pulse_s) else envelope.duty,
             breakdown=breakdown,
             v_min_v=min(envelope.v_min_v, part.dc_curve.voltage_v[0]),
         )
         if not poly.is_empty:
-            ax.plot(poly.voltage_v, poly.current_a, color=colours[n % len(colours)], lw=1.6, label=part.id)
+            ax.plot(poly.voltage_v, poly.current_a, lw=1.6, label=f"{part.id}, Tc = {tc:.3g} °C", **series_style(n))
     v, i = envelope.edge(400)
     i = i / count
     share = "" if count == 1 else f", even share of {count} devices"
     ax.fill_between(v, i, i.min() / 10, color="#999999", alpha=0.25, label=f"envelope: {envelope.label}{share}")
     ax.plot(v, i, color="k", lw=1.2)
-    ax.set_xlabel("voltage across one device [V]")
-    ax.set_ylabel("current through one device [A]")
-    ax.set_title(f"candidates derated at {case_temp_c:.3g} °C case", fontsize=10)
-    ax.grid(True, which="both", lw=0.3, alpha=0.6)
-    ax.legend(fontsize=7, loc="lower left")
+    ax.set_xlabel(r"voltage across one device $V_{CE}$ / $V_{DS}$ [V]")
+    ax.set_ylabel(r"current through one device $I_C$ / $I_D$ [A]")
+    if isinstance(case_temp_c, Mapping):
+        ax.set_title("candidates, each derated at its own hottest case temperature in the stage", fontsize=10)
+    else:
+        ax.set_title(f"candidates derated at {case_temp_c:.3g} °C case", fontsize=10)
+    grid(ax)
+    legend_outside(ax)
     return ax

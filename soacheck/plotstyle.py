@@ -38,7 +38,7 @@ OUTSIDE = OKABE_ITO["vermillion"]
 
 MECHANISM_STYLES: dict[str, dict[str, Any]] = {
     "current": {"color": OKABE_ITO["blue"], "linestyle": "-", "label": "current limit"},
-    "power": {"color": OKABE_ITO["vermillion"], "linestyle": (0, (6, 2)), "label": "constant power"},
+    "power": {"color": OKABE_ITO["vermillion"], "linestyle": (0, (6, 2)), "label": "power (constant power)"},
     "second_breakdown": {"color": OKABE_ITO["reddish_purple"], "linestyle": "-.", "label": "second breakdown"},
     "thermal_instability": {
         "color": OKABE_ITO["reddish_purple"],
@@ -78,9 +78,9 @@ def device_label(index: int) -> str:
 
 # --------------------------------------------------------------------------- axes
 
-VOLTAGE_LABEL = r"voltage $V_{CE}$ / $V_{DS}$ (V)"
-CURRENT_LABEL = r"current $I_C$ / $I_D$ (A)"
-MARGIN_LABEL = r"margin $1 - I/I_{allowed}$ (%)"
+VOLTAGE_LABEL = r"voltage $V_{CE}$ / $V_{DS}$ [V]"
+CURRENT_LABEL = r"current $I_C$ / $I_D$ [A]"
+MARGIN_LABEL = r"margin $1 - I/I_{allowed}$ [%]"
 TJ_MAX_LABEL = r"$T_{j,max}$"
 
 
@@ -89,7 +89,7 @@ def time_axis(ax: Axes, t_s: np.ndarray) -> tuple[np.ndarray, float]:
     t = np.asarray(t_s, dtype=float)
     span = float(t.max() - t.min()) if t.size else 0.0
     size_s, name = time_unit(span)
-    ax.set_xlabel(f"time ({name})")
+    ax.set_xlabel(f"time [{name}]")
     return t / size_s, size_s
 
 

@@ -707,11 +707,16 @@ class CompareResult(Result):
         SoacheckError
             For a trajectory job: the overlay needs an envelope.
         """
-        tc = self.plot_case_temp
+        tc: float | dict[str, float] = self.plot_case_temp
         by_id = {p.id: p for p in self.parts}
         assert self.envelope is not None
+        drawn = [by_id[c.part] for c in self.candidates if c.part in by_id]
+        if self.stage is not None and self.envelope.case_temp_c is None and self.stage.cooling is not None:
+            from soacheck.compare import case_temps_in_stage
+
+            tc = case_temps_in_stage(drawn, self.stage, self.envelope, breakdown=self.breakdown)
         return _plots().plot_compare(
-            [by_id[c.part] for c in self.candidates if c.part in by_id],
+            drawn,
             self.envelope,
             case_temp_c=tc,
             count=self.stage.count if self.stage is not None else 1,

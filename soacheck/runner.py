@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from soacheck.compare import TrajectoryJob, compare
+from soacheck.compare import TrajectoryJob, case_temps_in_stage, compare
 from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import discharge_from_table
@@ -173,8 +173,11 @@ def run_job(plan: Plan, job: Job) -> JobResult:
                 else (stage.case_temp_c if stage.case_temp_c is not None else target.ambient_c)
             )
             by_id = {p.id: p for p in d["parts"]}
+            drawn = [by_id[c.part] for c in ranked]
+            if d["use_stage"] and target.case_temp_c is None and stage.cooling is not None:
+                tc = case_temps_in_stage(drawn, stage, target)  # each where its verdict was decided
             figures["candidates"] = plot_compare(
-                [by_id[c.part] for c in ranked], target, case_temp_c=tc, count=stage.count if d["use_stage"] else 1
+                drawn, target, case_temp_c=tc, count=stage.count if d["use_stage"] else 1
             ).figure
         notes = (
             "each candidate in the stage's place" if d["use_stage"] else "each candidate alone",

@@ -216,7 +216,7 @@ def test_compare_cli_json_and_plot_by_hand(tmp_path):
     assert row["worst_voltage"] == pytest.approx(7.5, rel=1e-3)
     assert row["min_count"] == 2
     texts = svg_texts(plot)  # what the plot shows, read back
-    assert "ref-bjt" in texts and "candidates derated at 60 °C case" in texts
+    assert "ref-bjt, Tc = 60 °C" in texts and "candidates derated at 60 °C case" in texts
     assert any(t.startswith("envelope: 5–40 V, 20 A, 150 W") for t in texts)
 
 

@@ -1,0 +1,128 @@
+"""Plots agree with their verdicts: read back from the matplotlib objects what they drew.
+
+Temperatures in the legends, the first violation's mark and its coordinates, time axes in
+a unit that fits, pulse points labelled with their width, Tj on an axis of its own.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from soacheck import api
+from soacheck.jobfiles import read_envelope
+from soacheck.plots import plot_point_check, plot_stage_run, plot_trace
+from soacheck.plotstyle import VIOLATION_GID
+from soacheck.points import check_points
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+STAGE = EXAMPLES / "stage.toml"
+
+
+def legend_texts(ax) -> list[str]:
+    legend = ax.get_legend()
+    return [t.get_text() for t in legend.get_texts()] if legend is not None else []
+
+
+def violation_marks(ax) -> list[tuple[float, float]]:
+    return [
+        (float(line.get_xdata()[0]), float(line.get_ydata()[0])) for line in ax.lines if line.get_gid() == VIOLATION_GID
+    ]
+
+
+@pytest.fixture(scope="module")
+def failing_ramp():
+    """A current ramp to 20 A at 40 V through the example stage: far past 150 W, so it fails."""
+    return api.sweep(STAGE, ramp="current", start=0.1, stop=20, at=40, time="30s", samples=80).run
+
+
+def test_each_device_is_drawn_at_its_own_hottest_case_temperature(failing_ramp):
+    run = failing_ramp
+    fig = plot_stage_run(run, title="ramp")
+    texts = legend_texts(fig.axes[0])
+    for d in range(run.device_a.shape[0]):
+        hottest = float(run.case_c[d].max())
+        assert f"Q{d + 1} path, hottest case {hottest:.3g} °C" in texts, texts
+        assert f"dc derated, Tc = {hottest:.3g} °C" in texts, texts
+
+
+def test_the_first_violation_is_marked_where_the_run_first_leaves(failing_ramp):
+    """The mark sits on the first sample where any device is outside, found here from run.inside."""
+    run = failing_ramp
+    fig = plot_stage_run(run)
+    k = int(np.argmax((~run.inside).any(axis=0)))  # first time index with a device outside
+    d = int(np.argmax(~run.inside[:, k]))
+    (mark,) = violation_marks(fig.axes[0])
+    assert mark == pytest.approx((run.device_v[d, k], run.device_a[d, k]))
+    margin_axes = [ax for ax in fig.axes if ax.get_ylabel() == "margin [%]"]
+    (time_mark,) = violation_marks(margin_axes[0])
+    assert time_mark[0] == pytest.approx(run.time_s[k])  # a 30 s ramp: the axis is in seconds
+
+
+def test_time_axis_reads_hours_for_a_long_discharge():
+    """10 Ah at 4 A lasts about 2.5 h (capacity/current): the axis is in hours, not 9000 s."""
+    run = api.discharge(
+        STAGE, battery="nmc", cells=10, capacity=10, mode="cc", setpoint=4, internal_resistance=0.15, samples=60
+    ).run
+    fig = plot_stage_run(run)
+    labels = [ax.get_xlabel() for ax in fig.axes if ax.get_xlabel().startswith("time")]
+    assert labels == ["time [h]"]
+    longest = max(
+        float(np.max(line.get_xdata())) for ax in fig.axes[1:5] for line in ax.lines if len(line.get_xdata()) > 2
+    )
+    assert longest == pytest.approx(run.time_s[-1] / 3600.0)
+
+
+def test_legends_stand_outside_the_data(failing_ramp):
+    fig = plot_stage_run(failing_ramp)
+    for ax in fig.axes:
+        legend = ax.get_legend()
+        if legend is not None and ax.get_label() != "<colorbar>":
+            assert legend.get_bbox_to_anchor() is not None and legend._loc == 2  # upper left of the anchor
+            assert legend.get_bbox_to_anchor().x0 >= ax.get_window_extent().x1 - 1  # right of the axes
+
+
+def test_point_plot_marks_the_first_outside_point_and_labels_pulse_widths():
+    part = api.load_part("demo-npn-to3-250w")
+    checked = check_points([40, 60, 41], [3, 5, 8], part, tc_c=[60, 60, 35], pulse_s=[math.inf, math.inf, 0.01])
+    ax = plot_point_check(part, checked)
+    assert violation_marks(ax) == [(60.0, 5.0)]  # 60 V, 5 A at 60 °C is outside (power: 3.33 A allowed)
+    widths = [t.get_text() for t in ax.texts if t.get_gid() == "pulse-width"]
+    assert widths == ["10ms single"]
+    assert {"dc derated, Tc = 35 °C", "dc derated, Tc = 60 °C"} <= set(legend_texts(ax))
+
+
+def test_trace_shows_the_junction_on_its_own_axis():
+    part = api.load_part("demo-npn-to3-250w")
+    result = api.trace(part, EXAMPLES / "pulse-test.csv", case_temp=45)
+    fig = plot_trace(part, result.trace)
+    tj_axes = [ax for ax in fig.axes if ax.get_ylabel() == "temperature [°C]"]
+    margin_axes = [ax for ax in fig.axes if ax.get_ylabel() == "margin [%]"]
+    assert len(tj_axes) == 1 and len(margin_axes) == 1 and tj_axes[0] is not margin_axes[0]
+    tj = next(line for line in tj_axes[0].lines if line.get_label() == "junction Tj")
+    assert math.isclose(float(np.max(tj.get_ydata())), result.trace.tj_peak_c, rel_tol=0.02)  # thinned for drawing
+    assert "trajectory (pass)" in fig.axes[0].get_title()
+
+
+def test_compare_draws_each_candidate_at_its_case_temperature_in_the_stage_not_the_ambient():
+    """The example stage: heatsink 0.4 K/W at ambient 25 °C under up to 150 W of the envelope.
+
+    By hand: well over half of the 150 W reaches the heatsink (the resistors take a few
+    watts), so the heatsink alone sits above 25 + 0.5 · 150 · 0.4 = 55 °C and each case
+    above it; drawing the candidates at the 25 °C ambient was the old, misleading plot.
+    """
+    from soacheck.compare import case_temps_in_stage
+    from soacheck.plots import plot_compare
+
+    stage = api.load_stage(STAGE)
+    parts = [api.load_part("demo-npn-to3-250w"), api.load_part("demo-npn-to220-62w")]
+    envelope = read_envelope(EXAMPLES / "envelope.toml")
+    temps = case_temps_in_stage(parts, stage, envelope)
+    ax = plot_compare(parts, envelope, case_temp_c=temps, count=stage.count)
+    shown = {t.split(", Tc = ")[0]: float(t.split("Tc = ")[1].split(" °C")[0]) for t in legend_texts(ax) if "Tc =" in t}
+    assert set(shown) == {"demo-npn-to3-250w", "demo-npn-to220-62w"}
+    assert all(tc > 55.0 for tc in shown.values()), shown
+    assert "its own hottest case temperature" in ax.get_title()
