@@ -106,7 +106,7 @@ def plot_soa(
     _draw_instability(ax, part)
     for n, tc in enumerate(case_temps_c):
         poly = boundary_polyline(
-            part, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
+            part.rated, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
         )
         if poly.is_empty:
             continue
@@ -117,6 +117,7 @@ def plot_soa(
             **{**series_style(n + 1), "color": ("#000000", "#56B4E9", "#E69F00", "#009E73")[n % 4]},
             label=f"{format_duration(pulse_s)} derated, Tc = {tc:.3g} °C",
         )
+    draw_policy_boundary(ax, part, case_temps_c, pulse_s=pulse_s, breakdown=breakdown)
     if points is not None and points.voltage_v.size:
         _draw_points(ax, points)
     ax.axvline(part.ratings.v_max_v, color="k", lw=0.8, ls=":")
@@ -227,7 +228,7 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     if "tj" in data:
         ax_tj.plot(t, data["tj"], color=OKABE_JUNCTION, lw=1.2, label="junction Tj")
     ax_tj.plot(t, data["case_temp"], color=OKABE_CASE, lw=1.0, linestyle="--", label="case Tc")
-    ax_tj.axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label="tj_max")
+    ax_tj.axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label=part.tj_limit)
     ax_tj.set_ylabel("temperature [°C]")
     ax_margin.plot(t, 100 * np.clip(data["margin"], -1, 1), color=series_style(0)["color"], lw=0.8,
                    label="margin to DC boundary")  # fmt: skip
@@ -332,7 +333,9 @@ def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerati
     axes[2].plot(t, run.junction_c[worst], color=OKABE_JUNCTION, label=f"junction {device_label(worst)}")
     axes[2].plot(t, run.case_c[worst], color=OKABE_CASE, linestyle="--", label=f"case {device_label(worst)}")
     axes[2].plot(t, run.sink_c, color="#000000", linestyle="-.", label="heatsink")
-    axes[2].axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label="tj_max")
+    axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
+    if part.tj_limit == "tj_ceiling":
+        axes[2].axhline(part.tj_limit_c, **POLICY_STYLE, label=f"tj_ceiling, policy '{part.policy.name}'")
     axes[2].set_ylabel("°C")
     for d in devices:
         axes[3].plot(t, 100 * np.clip(run.margin[d], -1, 1), lw=1.4 if d == worst else 0.9,
@@ -425,3 +428,49 @@ def plot_compare(
     grid(ax)
     legend_outside(ax)
     return ax
+
+
+POLICY_GID = "policy-boundary"
+"""The ``gid`` of a policy boundary, by which a test or a reader of the SVG finds it."""
+
+POLICY_STYLE = {"color": "#CC79A7", "ls": (0, (1, 1.5)), "lw": 2.2}
+"""A design-margin policy's lines: dotted, reddish purple (Okabe & Ito 2008), unlike every rated line."""
+
+
+def draw_policy_boundary(
+    ax: Axes,
+    part: Part,
+    case_temps_c: Sequence[float],
+    *,
+    pulse_s: float = DC,
+    breakdown: BreakdownDerating = "auto",
+) -> list[Line2D]:
+    """Draw the boundary of the part's design-margin policy beside the rated one, and its voltage limit.
+
+    Nothing is drawn for a part without a policy. Each case temperature gets the policy's
+    boundary (:func:`~soacheck.boundary.boundary_polyline` of the part under its policy),
+    dotted and labelled with the policy's name; a policy voltage fraction adds a vertical
+    line at that fraction of v_max. Every line carries the gid :data:`POLICY_GID`.
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+        The lines drawn.
+    """
+    if part.policy is None:
+        return []
+    drawn = []
+    name = part.policy.name
+    for tc in case_temps_c:
+        poly = boundary_polyline(
+            part, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
+        )
+        if poly.is_empty:
+            continue
+        label = f"policy '{name}', {format_duration(pulse_s)}, Tc = {tc:.3g} °C"
+        drawn += ax.plot(poly.voltage_v, poly.current_a, **POLICY_STYLE, label=label, gid=POLICY_GID, zorder=4)
+    if part.v_limit == "policy_voltage":
+        drawn.append(
+            ax.axvline(part.v_limit_v, color=POLICY_STYLE["color"], ls=POLICY_STYLE["ls"], lw=1.0, gid=POLICY_GID)
+        )
+    return drawn

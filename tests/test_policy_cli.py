@@ -210,3 +210,32 @@ def test_envelope_and_compare_under_a_policy(tmp_path, ref_folder):
     assert compared["policy"]["name"] == "bench", ranked.output
     candidate = compared["candidates"][0]
     assert candidate["margin"] < candidate["margin_to_rating"]
+
+
+def test_every_soa_plot_draws_the_policy_beside_the_rating(tmp_path, ref_folder):
+    """check --plot under bench: the SVG holds the policy's boundary (gid policy-boundary) labelled
+    with its name beside the rated dashed boundary; without a policy there is none. The drawn policy
+    line at 25 °C has the hand-derived corners of test_policy: 6 V (current/power knee) and
+    4000/72 = 55.6 V (power/second breakdown), and ends at 80 V (80 % of v_max)."""
+    from matplotlib.figure import Figure
+
+    from soacheck.plots import POLICY_GID, draw_policy_boundary
+    from soacheck.policy import BENCH
+
+    svg = tmp_path / "bench.svg"
+    result = invoke("check", ref_folder, "-v", 20, "-i", 3, "--policy", "bench", "--plot", svg)
+    assert result.exit_code == 0, result.output
+    text = svg.read_text(encoding="utf-8")
+    assert f'id="{POLICY_GID}' in text and "policy 'bench'" in text
+    plain_svg = tmp_path / "plain.svg"
+    assert invoke("check", ref_folder, "-v", 20, "-i", 3, "--plot", plain_svg).exit_code == 0
+    assert POLICY_GID not in plain_svg.read_text(encoding="utf-8")
+    part = soacheck.load_part(ref_folder).under(BENCH)
+    ax = Figure().add_subplot()
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    line, vertical = draw_policy_boundary(ax, part, [25.0])
+    v = line.get_xdata()
+    assert v[-1] == pytest.approx(80.0, rel=1e-9)
+    assert v[1:-1] == pytest.approx([6.0, 4000 / 72], rel=REL)
+    assert vertical.get_xdata()[0] == pytest.approx(80.0)
