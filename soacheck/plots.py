@@ -363,8 +363,9 @@ OKABE_CASE = "#E69F00"
 def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = "auto", most: int = 4) -> Figure:
     """The envelope's edge, mapped to each device, over that device's SOA derated at its hottest case.
 
-    One panel per device (the ``most`` worst when there are more); the path is red where it
-    lies outside.
+    One panel per device (the ``most`` worst when there are more); the path is marked where
+    it lies outside (an "outside" entry only when something is), the first point outside
+    ringed, the view zoomed to the path with the whole SOA in an inset.
     """
     devices = np.argsort(np.min(check.margin, axis=1))[:most]
     fig = Figure(figsize=(6.5 * len(devices), 5.5), layout="constrained")
@@ -375,10 +376,15 @@ def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = 
         plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, breakdown=breakdown, ax=ax)
         v, i = check.state.device_v[d], check.state.device_a[d]
         ok = check.margin[d] >= 0
-        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label="envelope edge, this device")
-        ax.scatter(v[~ok], i[~ok], color="#c0392b", s=10, zorder=6, label="outside")
-        ax.legend(fontsize=7, loc="lower left")
-        ax.set_title(f"{check.stage.part.id}, Q{d + 1}: {env.label}", fontsize=9)
+        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label=f"envelope edge, {device_label(d)}")
+        if (~ok).any():
+            ax.scatter(v[~ok], i[~ok], color=OUTSIDE, marker="x", s=14, zorder=6, label="outside")
+            k = int(np.argmax(~ok))
+            mark_violation(ax, float(v[k]), float(i[k]))
+        _zoom(ax, v, i)
+        _full_range_inset(ax, check.stage.part, [(v, i)])
+        _relegend(ax)
+        ax.set_title(f"{check.stage.part.id}, {device_label(d)}: {env.label}", fontsize=9)
     return fig
 
 

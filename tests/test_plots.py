@@ -126,3 +126,16 @@ def test_compare_draws_each_candidate_at_its_case_temperature_in_the_stage_not_t
     assert set(shown) == {"demo-npn-to3-250w", "demo-npn-to220-62w"}
     assert all(tc > 55.0 for tc in shown.values()), shown
     assert "its own hottest case temperature" in ax.get_title()
+
+
+def test_a_passing_envelope_plot_shows_no_outside_entry_and_no_violation_mark():
+    """The example stage covers the example envelope (margin +31 %): nothing may look outside."""
+    from soacheck.envelope import check_envelope
+    from soacheck.plots import plot_envelope_check
+
+    stage = api.load_stage(STAGE)
+    check = check_envelope(stage, read_envelope(EXAMPLES / "envelope.toml"))
+    assert check.passed
+    fig = plot_envelope_check(check)
+    for ax in fig.axes:
+        assert "outside" not in legend_texts(ax) and violation_marks(ax) == []
