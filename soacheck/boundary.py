@@ -27,7 +27,7 @@ from soacheck.derating import BreakdownDerating, mechanism_factors
 from soacheck.instability import instability_line
 from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
-from soacheck.search import highest_each
+from soacheck.repeated import repeated_pulse_lines
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC
 
@@ -139,81 +139,6 @@ def _derated_lines(
         return np.stack([line(log_v) + (np.log(factors[line.mechanism]) if line.derated else 0.0) for line in lines])
 
 
-def repeated_pulse_lines(
-    voltage_v: np.ndarray,
-    tc_c: np.ndarray,
-    idle_current_a: np.ndarray,
-    part: Part,
-    bound: PulseLines,
-    pulse_s: float,
-    duty: float,
-    *,
-    breakdown: BreakdownDerating,
-) -> np.ndarray:
-    """ln I of every derated line of a modelled pulse condition, shape ``(lines, points)``.
-
-    Parameters
-    ----------
-    voltage_v, tc_c, idle_current_a
-        Voltage, case temperature and current standing between pulses, shape ``(n,)``. [V], [°C], [A]
-    bound
-        The pulse condition's lines (:func:`pulse_lines` with the thermal model).
-    pulse_s, duty
-        The pulse width and duty cycle (0 for a single pulse). [s], [1]
-
-    Notes
-    -----
-    The thermal network is linear, so with P_idle = V·I_idle standing between pulses of
-    power P the junction peaks, in the periodic steady state, at
-
-        Tj = Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D)
-
-    and starts each pulse at Tc + P_idle·Rth + (P − P_idle)·Z_start(tp, D) (superposition;
-    see :func:`~soacheck.thermal.pulse_train_zth_start`). The constant-power line
-    P = (tj_max − 25 °C)/Zth(tp, D) derated at Tc + P_idle·(Rth − Zth(tp, D)) gives exactly
-    the largest P with Tj ≤ tj_max (under a policy, its junction ceiling). Second-breakdown,
-    instability and unclassified lines hold for a junction that starts the pulse at the case
-    temperature (common practice, no source), so they are derated at the junction
-    temperature where each pulse starts, which rises with the pulse current itself: the
-    allowed current is the largest I with I ≤ I_line(V)·f(T_start(I)), found by bisection.
-    A single pulse with no standing current starts at Tc, which leaves these lines as they are.
-    """
-    model = thermal_model(part)
-    rth = model.foster.rth_k_per_w
-    z_peak = float(model.pulse_zth(pulse_s, duty))
-    z_start = float(model.pulse_zth_start(pulse_s, duty))
-    p_idle = voltage_v * idle_current_a
-    tc_power = tc_c + p_idle * (rth - z_peak)
-    start_base = tc_c + p_idle * (rth - z_start)
-    start_per_a = voltage_v * z_start
-    log_v = np.log(voltage_v)
-    stacked = []
-    for line in bound.lines:
-        log_i = line(log_v)
-        if not line.derated:
-            stacked.append(log_i)
-            continue
-        if line.mechanism in ("current", "on_resistance", "power"):
-            # the one place derating (and a policy) scales a line: mechanism_factors
-            at_c = tc_power if line.mechanism == "power" else tc_c
-            with np.errstate(divide="ignore"):
-                stacked.append(log_i + np.log(mechanism_factors(at_c, part, breakdown)[line.mechanism]))
-            continue
-
-        def factor(t_c: np.ndarray, name: str = line.mechanism) -> np.ndarray:
-            return mechanism_factors(t_c, part, breakdown)[name]
-
-        line_a = np.exp(log_i)
-        first = line_a * factor(start_base)
-        if z_start > 0:
-            first = highest_each(
-                lambda i, a=line_a: i <= a * factor(start_base + start_per_a * i), np.zeros_like(first), first
-            )
-        with np.errstate(divide="ignore"):
-            stacked.append(np.log(first))
-    return np.stack(stacked)
-
-
 def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The minimum over lines and the index of the line that gives it, each shape ``(points,)``."""
     which = np.argmin(stacked, axis=0)
@@ -296,8 +221,9 @@ def allowed_current(
     negative idle current, gives NaN with limit ``invalid``.
 
     Pulses repeated (a duty) or on a standing current, with a thermal model, follow
-    :func:`repeated_pulse_lines`; without a model a pulse on a standing current is judged
-    as DC (conservative). The standing current must itself lie inside the DC boundary.
+    :func:`~soacheck.repeated.repeated_pulse_lines`; without a model a pulse on a standing
+    current is judged as DC (conservative). The standing current must itself lie inside the
+    DC boundary.
     """
     v, tc, tp, d, idle = (
         np.ravel(a).astype(float) for a in np.broadcast_arrays(voltage_v, tc_c, pulse_s, duty, idle_current_a)
