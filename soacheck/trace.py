@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
-from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
+from soacheck.derating import BreakdownDerating, breakdown_note, mechanism_factors, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
 from soacheck.instability import instability_line, instability_notes
@@ -212,16 +212,33 @@ class TraceChecker:
 
     # ----------------------------------------------------------------- evaluation
 
-    def _excess(
-        self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None, *, exact: bool = False
+    def _excess_from_start(
+        self, index: int, v: np.ndarray, i: np.ndarray, start_c: np.ndarray, lengths: np.ndarray
     ) -> np.ndarray:
+        """ln(I / I_allowed) under pulse boundary ``index``, each run's lines derated where its junction started.
+
+        ``start_c`` holds one temperature per run, ``lengths`` the samples of each run in order;
+        the derating factors are computed once per run, the lines once per sample.
+        """
+        factors = mechanism_factors(start_c, self.part, self.breakdown)
+        log_v = np.log(np.maximum(v, 1e-300))
+        with np.errstate(divide="ignore"):
+            stacked = [
+                line(log_v) + (np.repeat(np.log(factors[line.mechanism]), lengths) if line.derated else 0.0)
+                for line in self.lines[index]
+            ]
+        blocked = (v > self.part.v_limit_v) | np.repeat(start_c >= self.part.tj_limit_c, lengths)
+        log_allowed = np.where(blocked, -np.inf, np.min(stacked, axis=0))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.log(i) - log_allowed
+
+    def _excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
         """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
 
         The margin is 1 − exp(excess); working in logs saves a pass over every sample.
-        ``tc`` is the temperature the lines are derated at; ``exact`` evaluates the lines at
-        it even where the fixed-case polylines would serve.
+        ``tc`` is the case temperature the lines are derated at (None: the fixed one).
         """
-        if self.polylines is not None and not exact:
+        if self.polylines is not None:
             log_allowed = self.polylines[index].log_current_at(v)
         else:
             allowed, _ = evaluate_lines(
@@ -331,7 +348,7 @@ class TraceChecker:
             if b == self.dc:
                 sub = excess[rows]
             elif tj is not None:
-                sub = self._excess(b, v[rows], i[rows], start_rows, exact=True)
+                sub = self._excess_from_start(b, v[rows], i[rows], start_tj, lengths)
             else:
                 sub = self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
             margins[b] = excess_margin(sub)
