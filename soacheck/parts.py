@@ -174,6 +174,7 @@ class Part:
         duty: float | None = None,
         *,
         breakdown: Literal["auto", "thermal", "none"] = "auto",
+        policy: Policy | str | Path | None = None,
     ) -> float | np.ndarray:
         """The highest current allowed at each voltage; see :func:`soacheck.allowed_current`.
 
@@ -189,16 +190,23 @@ class Part:
             Duty cycle of a pulse train in (0, 1]; None for DC or a single pulse. [1]
         breakdown
             Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+        policy
+            A design-margin policy (a :class:`~soacheck.policy.Policy`, ``"bench"``, ``"none"`` or a
+            policy file) to judge under instead of the part's own (:attr:`policy`); None keeps it.
 
         Returns
         -------
         float or numpy.ndarray
             The allowed current [A]: a float for scalars, else the broadcast shape; 0 above
-            ``v_max`` or at ``tj_max``; NaN where a point cannot be evaluated.
+            ``v_max`` or at ``tj_max`` (under a policy: above its voltage fraction, at its ceiling);
+            NaN where a point cannot be evaluated.
         """
         from soacheck.api import allowed_current  # the API sits above the part; imported when called
 
-        return allowed_current(self, voltage, case_temp=case_temp, pulse=pulse, duty=duty, breakdown=breakdown)
+        part = self if policy is None else self.rated
+        return allowed_current(
+            part, voltage, case_temp=case_temp, pulse=pulse, duty=duty, breakdown=breakdown, policy=policy
+        )
 
     def curve_index(self, pulse_s: np.ndarray | float) -> np.ndarray:
         """Index into :attr:`curves` of the curve :meth:`curve_for` picks, for any shape of widths. [s]"""

@@ -185,6 +185,10 @@ def test_the_api_takes_a_policy_keyword(ref_folder):
     125 W × (125 − 25)/(150 − 25) × 0.9 × 0.8 / 20 V = 3.6 A, the same numbers as the example policy."""
     assert soacheck.allowed_current(ref_folder, 20.0, policy="bench") == pytest.approx(3.6, rel=REL)
     assert soacheck.allowed_current(ref_folder, 20.0) == pytest.approx(6.25, rel=REL)
+    part = soacheck.load_part(ref_folder)
+    assert part.allowed_current(20.0, policy="bench") == pytest.approx(3.6, rel=REL)
+    assert part.under(BENCH).allowed_current(20.0) == pytest.approx(3.6, rel=REL)
+    assert part.under(BENCH).allowed_current(20.0, policy="none") == pytest.approx(6.25, rel=REL)
     result = soacheck.check(ref_folder, 20.0, 3.0, policy=BENCH)
     assert result.margin == pytest.approx(1 / 6, rel=REL)
     assert result.margin_to_rating == pytest.approx(0.52, rel=REL)
