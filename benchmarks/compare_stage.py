@@ -40,7 +40,7 @@ def main() -> None:
         profile.disable()
     wall, cpu = time.perf_counter() - wall, time.process_time() - cpu
     passing = sum(c.passes for c in ranked)
-    print(f"parts: {len(parts)}, passing: {passing}, best: {ranked[0].part} (margin {ranked[0].min_margin:.4f})")
+    print(f"parts: {len(parts)}, passing: {passing}, best: {ranked[0].part} (margin {ranked[0].margin:.4f})")
     print(f"compare with a stage: {wall:.2f} s wall (target under 5 s), {cpu:.2f} s CPU")
     print(f"per part: {wall / len(parts) * 1e3:.0f} ms wall, {cpu / len(parts) * 1e3:.0f} ms CPU")
     if profile:
