@@ -671,7 +671,7 @@ def discharge(
                 return run_stage(rated, path.time_s, path.source_v, path.total_a, breakdown=chosen)
 
             extra["max_setpoint_at_rating"] = max_safe_setpoint(passes_at(rated_run_at), setpoint, mode)
-    return StageRunResult(run, label, extra, chosen)
+    return StageRunResult(run, label, extra, chosen, SETPOINT[mode].unit)
 
 
 def sweep(

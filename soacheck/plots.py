@@ -281,7 +281,13 @@ def _relegend(ax: Axes) -> None:
     legend_outside(ax, handles)
 
 
-def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerating = "auto") -> Figure:
+def plot_stage_run(
+    run: StageRun,
+    *,
+    title: str = "",
+    breakdown: BreakdownDerating = "auto",
+    max_setpoint: tuple[float | None, str] | None = None,
+) -> Figure:
     """Every device's path on its SOA at its own hottest case temperature, and the test over time.
 
     Left: each device's (V_CE, I_C) path, zoomed to the region it occupies, over the DC
@@ -290,6 +296,11 @@ def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerati
     fits): source voltage and total current; each device's power; junction, case and
     heatsink temperatures; each device's margin. The first violation is marked on the SOA
     and on every time panel.
+
+    ``max_setpoint`` is the most demanding safe setpoint of a ``--find-max`` search and its
+    unit (``(7.2, "A")``; the value None when no setpoint is safe): a constant-current one is
+    drawn as a line on the current axis, any other stated in the top panel; both carry the
+    gid ``max-safe-setpoint``.
     """
     fig = Figure(figsize=(15, 8.5), layout="constrained")
     layout = fig.add_gridspec(4, 2, width_ratios=[1.15, 1])
@@ -326,6 +337,8 @@ def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerati
     current_ax.plot(t, run.total_a, color=series_style(1)["color"], linestyle=series_style(1)["linestyle"],
                     label="total current [A]")  # fmt: skip
     current_ax.set_ylabel("A")
+    if max_setpoint is not None:
+        _mark_max_setpoint(axes[0], current_ax, *max_setpoint, policy=part.policy)
     for d in devices:
         axes[1].plot(t, run.device_w[d], lw=1.4 if d == worst else 0.9, **series_style(d + 1, markers=False),
                      label=device_label(d))  # fmt: skip
@@ -354,6 +367,20 @@ def plot_stage_run(run: StageRun, *, title: str = "", breakdown: BreakdownDerati
     for ax in axes[1:]:
         legend_outside(ax)
     return fig
+
+
+def _mark_max_setpoint(ax: Axes, current_ax: Axes, value: float | None, unit: str, *, policy) -> None:
+    """Mark the most demanding safe setpoint: a line on the current axis for amperes, else a note."""
+    under = f" (policy '{policy.name}')" if policy is not None else ""
+    if value is None:
+        ax.text(0.01, 0.95, f"no safe setpoint found{under}", transform=ax.transAxes, va="top", fontsize=8,
+                color=OUTSIDE, gid="max-safe-setpoint")  # fmt: skip
+        return
+    text = f"max safe setpoint {value:.4g} {unit}{under}"
+    if unit == "A":
+        current_ax.axhline(value, color=OUTSIDE, lw=1.0, ls=(0, (1, 1)), label=text, gid="max-safe-setpoint")
+    else:
+        ax.text(0.01, 0.95, text, transform=ax.transAxes, va="top", fontsize=8, gid="max-safe-setpoint")
 
 
 OKABE_JUNCTION = "#D55E00"

@@ -301,12 +301,16 @@ class StageRunResult(Result):
         Further figures of the JSON, such as ``max_safe_setpoint``.
     breakdown
         The second-breakdown derating used, for the plot.
+    setpoint_unit
+        The unit of the discharge's setpoint (``A``, ``W`` or ``Ω``), for marking the most
+        demanding safe setpoint on the plot; empty for a sweep.
     """
 
     run: StageRun
     test: str
     extra: dict[str, Any] = field(default_factory=dict)
     breakdown: BreakdownDerating = "auto"
+    setpoint_unit: str = ""
 
     @property
     def passed(self) -> bool:
@@ -360,7 +364,9 @@ class StageRunResult(Result):
         """Without ``ax``: the worst device on its SOA beside the test over time; the SOA axes is
         returned. With ``ax``: the worst device's path on its SOA only."""
         if ax is None:
-            return _plots().plot_stage_run(self.run, title=self.test, breakdown=self.breakdown).axes[0]
+            found = (self.max_safe_setpoint, self.setpoint_unit) if "max_safe_setpoint" in self.extra else None
+            figure = _plots().plot_stage_run(self.run, title=self.test, breakdown=self.breakdown, max_setpoint=found)
+            return figure.axes[0]
         run = self.run
         d = run.worst_device
         temps = sorted({float(run.case_c[d, 0]), float(run.case_c[d].max())})

@@ -20,6 +20,7 @@ from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, plot_stage_run, plot_trace
 from soacheck.points import check_points, overload_of
 from soacheck.policy import least_margin, policy_lines, policy_of
+from soacheck.quantities import SETPOINT
 from soacheck.search import max_safe_setpoint
 from soacheck.stage import Stage
 from soacheck.stage_run import passes_at, run_stage
@@ -133,7 +134,10 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             summary["max_setpoint_at_rating"] = (
                 summary["max_safe_setpoint"] if plan.policy is None else _max_setpoint(plan, job, rated)
             )
-        figure = plot_stage_run(run, title=f"{job.name}: {path.label}")
+        found = None
+        if "max_safe_setpoint" in summary:
+            found = (summary["max_safe_setpoint"], SETPOINT[str(d["table"]["mode"]).lower()].unit)
+        figure = plot_stage_run(run, title=f"{job.name}: {path.label}", max_setpoint=found)
         return JobResult(job.name, job.kind, run.passed, summary, run.assumptions + path.notes, {"run": figure})
     if job.kind == "trace":
         part = d["part"]
