@@ -26,7 +26,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from soacheck.calibration import Seed, range_calibration  # noqa: E402
-from soacheck.files import read_image  # noqa: E402
+from soacheck.images import read_image  # noqa: E402
 from soacheck.picture import find_frame, grey_levels  # noqa: E402
 from soacheck.tracing import trace_curves  # noqa: E402
 from tests.pictures import CURVES, DC, PULSE_1MS, PULSE_10MS, X_RANGE, Y_RANGE, draw_sheet  # noqa: E402

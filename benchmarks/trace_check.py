@@ -28,10 +28,10 @@ import numpy as np
 from _timing import best_of
 
 from soacheck.boundary import allowed_current
-from soacheck.files import iter_trace
 from soacheck.library import bundled_library
 from soacheck.partfiles import read_part
 from soacheck.trace import TraceChecker
+from soacheck.tracefiles import iter_trace
 
 CASE_C = 40.0
 

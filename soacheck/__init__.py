@@ -4,7 +4,9 @@ The package is organised by domain concept:
 
 - :mod:`soacheck.units`    -- durations with SI suffixes, converted once at the edge
 - :mod:`soacheck.parts`    -- the part and its curves (frozen dataclasses, no I/O)
-- :mod:`soacheck.files`    -- CSV tables, TOML, traces and atomic writes, with clear errors
+- :mod:`soacheck.csvtables`, :mod:`soacheck.tomlfiles`, :mod:`soacheck.tracefiles`, :mod:`soacheck.images`
+  -- the user's CSV tables, TOML files, traces in chunks and pictures, read with clear errors
+- :mod:`soacheck.outputs`  -- output paths checked before computing; atomic writes
 - :mod:`soacheck.partfiles`, :mod:`soacheck.jobfiles` -- part folders; points, envelopes, discharges
 - :mod:`soacheck.library`  -- finding parts by id; stage files
 - :mod:`soacheck.derating` -- each mechanism's derating with case temperature
@@ -25,7 +27,8 @@ The package is organised by domain concept:
 - :mod:`soacheck.authoring`, :mod:`soacheck.lint` -- making parts from datasheets, checking them
 - :mod:`soacheck.plan`, :mod:`soacheck.runner`, :mod:`soacheck.report` -- plans, runs, reports
 - :mod:`soacheck.plots`    -- log-log SOA plots and time plots
-- :mod:`soacheck.api`, :mod:`soacheck.results` -- the public functions and their result objects
+- :mod:`soacheck.api`      -- the public functions, each beside the result object it returns, one
+  room per topic (points, traces, stages, envelopes, comparisons, plans, authoring)
 - :mod:`soacheck.cli`      -- the ``soacheck`` command, a thin layer over the API
 
 The public surface is what ``__all__`` lists below (see ``docs/python.md``); every other
@@ -41,36 +44,36 @@ __version__ = "0.1.0"
 # Each public name and the module it lives in. They load on first use (PEP 562), so that
 # ``import soacheck`` and the command stay quick until a job needs numpy, scipy or pandas.
 _PUBLIC = {
-    "allowed_current": "soacheck.api",
-    "check": "soacheck.api",
-    "compare": "soacheck.api",
-    "discharge": "soacheck.api",
-    "envelope": "soacheck.api",
-    "lint": "soacheck.api",
-    "load_part": "soacheck.api",
-    "load_stage": "soacheck.api",
-    "parts": "soacheck.api",
-    "run_plan": "soacheck.api",
-    "sharing": "soacheck.api",
-    "sweep": "soacheck.api",
-    "trace": "soacheck.api",
+    "LintResult": "soacheck.api.authoring",
+    "lint": "soacheck.api.authoring",
+    "Result": "soacheck.api.base",
+    "Verdict": "soacheck.api.base",
+    "CompareResult": "soacheck.api.comparisons",
+    "compare": "soacheck.api.comparisons",
+    "EnvelopeResult": "soacheck.api.envelopes",
+    "SafeEnvelopeResult": "soacheck.api.envelopes",
+    "envelope": "soacheck.api.envelopes",
+    "PlanResult": "soacheck.api.plans",
+    "run_plan": "soacheck.api.plans",
+    "CheckResult": "soacheck.api.points",
+    "allowed_current": "soacheck.api.points",
+    "check": "soacheck.api.points",
+    "load_part": "soacheck.api.points",
+    "parts": "soacheck.api.points",
+    "SharingResult": "soacheck.api.stages",
+    "StageRunResult": "soacheck.api.stages",
+    "discharge": "soacheck.api.stages",
+    "load_stage": "soacheck.api.stages",
+    "sharing": "soacheck.api.stages",
+    "sweep": "soacheck.api.stages",
+    "TraceCheckResult": "soacheck.api.traces",
+    "trace": "soacheck.api.traces",
     "Mode": "soacheck.battery",
     "SweepKind": "soacheck.battery",
     "BreakdownDerating": "soacheck.derating",
     "Envelope": "soacheck.envelope",
     "SoacheckError": "soacheck.errors",
     "Part": "soacheck.parts",
-    "CheckResult": "soacheck.results",
-    "CompareResult": "soacheck.results",
-    "EnvelopeResult": "soacheck.results",
-    "LintResult": "soacheck.results",
-    "PlanResult": "soacheck.results",
-    "Result": "soacheck.results",
-    "SafeEnvelopeResult": "soacheck.results",
-    "SharingResult": "soacheck.results",
-    "StageRunResult": "soacheck.results",
-    "TraceCheckResult": "soacheck.results",
-    "Verdict": "soacheck.results",
     "Cooling": "soacheck.stage",
     "Stage": "soacheck.stage",
 }
@@ -145,37 +148,17 @@ def __dir__() -> list[str]:
 
 
 if TYPE_CHECKING:  # what type checkers and editors see
-    from soacheck.api import (
-        allowed_current,
-        check,
-        compare,
-        discharge,
-        envelope,
-        lint,
-        load_part,
-        load_stage,
-        parts,
-        run_plan,
-        sharing,
-        sweep,
-        trace,
-    )
+    from soacheck.api.authoring import LintResult, lint
+    from soacheck.api.base import Result, Verdict
+    from soacheck.api.comparisons import CompareResult, compare
+    from soacheck.api.envelopes import EnvelopeResult, SafeEnvelopeResult, envelope
+    from soacheck.api.plans import PlanResult, run_plan
+    from soacheck.api.points import CheckResult, allowed_current, check, load_part, parts
+    from soacheck.api.stages import SharingResult, StageRunResult, discharge, load_stage, sharing, sweep
+    from soacheck.api.traces import TraceCheckResult, trace
     from soacheck.battery import Mode, SweepKind
     from soacheck.derating import BreakdownDerating
     from soacheck.envelope import Envelope
     from soacheck.errors import SoacheckError
     from soacheck.parts import Part
-    from soacheck.results import (
-        CheckResult,
-        CompareResult,
-        EnvelopeResult,
-        LintResult,
-        PlanResult,
-        Result,
-        SafeEnvelopeResult,
-        SharingResult,
-        StageRunResult,
-        TraceCheckResult,
-        Verdict,
-    )
     from soacheck.stage import Cooling, Stage

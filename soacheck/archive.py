@@ -78,7 +78,7 @@ def check_one(
     chunk_rows: int,
 ) -> FileOutcome:
     """Check one trace file; a file that cannot be read becomes an ``invalid`` outcome with its message."""
-    from soacheck.api import trace
+    from soacheck.api.traces import trace
 
     try:
         result = trace(

@@ -15,9 +15,9 @@ import numpy as np
 
 from soacheck.calibration import AxisCalibration, Seed
 from soacheck.errors import SoacheckError
-from soacheck.files import toml_string
 from soacheck.parts import KINDS
 from soacheck.quantities import TJ_MAX
+from soacheck.tomlfiles import toml_string
 from soacheck.units import parse_duration
 
 PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")

@@ -9,10 +9,11 @@ from typing import Any
 import numpy as np
 
 from soacheck.battery import MODES, Battery, Chemistry, Trajectory, chemistry, discharge
+from soacheck.csvtables import Table, read_table
 from soacheck.envelope import Envelope
 from soacheck.errors import SoacheckError, did_you_mean
-from soacheck.files import Table, read_table, read_toml
 from soacheck.quantities import CURRENT, IDLE_CURRENT, SETPOINT, TEMPERATURE, VOLTAGE
+from soacheck.tomlfiles import read_toml
 from soacheck.units import parse_duration
 
 

@@ -15,11 +15,11 @@ from typing import Any
 
 from soacheck.bipolar import VBE_TEMPCO_V_PER_K, junctions
 from soacheck.errors import SoacheckError, nearest
-from soacheck.files import read_toml
 from soacheck.partfiles import PART_FILE, read_part
 from soacheck.parts import Part
 from soacheck.policy import policy_from_value
 from soacheck.stage import Cooling, Stage
+from soacheck.tomlfiles import read_toml
 
 LIBRARY_ENV = "SOACHECK_LIBRARY"
 

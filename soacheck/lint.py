@@ -33,8 +33,8 @@ from typing import Literal
 import numpy as np
 
 from soacheck.boundary import allowed_current, model_consistency
+from soacheck.csvtables import read_table
 from soacheck.errors import SoacheckError
-from soacheck.files import read_table
 from soacheck.mechanisms import CURRENT_BAND, classify_slopes, mechanism_lines, segment_slopes
 from soacheck.mosfet import ztc_point
 from soacheck.partfiles import PART_FILE, SOA_FILE, TRANSFER_FILE, ZTH_FILE, read_part, read_part_toml

@@ -10,20 +10,13 @@ from typing import Any
 import numpy as np
 
 from soacheck.bipolar import Gain
+from soacheck.csvtables import read_table, significant
 from soacheck.errors import SoacheckError, did_you_mean
-from soacheck.files import (
-    check_keys,
-    read_table,
-    read_toml,
-    replace_text,
-    significant,
-    toml_number,
-    toml_text,
-    write_folder,
-)
 from soacheck.mosfet import TransferCurves
+from soacheck.outputs import replace_text, write_folder
 from soacheck.parts import BIPOLAR_KINDS, KINDS, Part, Ratings, SoaCurve
 from soacheck.quantities import CURRENT, DURATION, THERMAL_RESISTANCE, VOLTAGE, Quantity
+from soacheck.tomlfiles import check_keys, read_toml, toml_number, toml_text
 from soacheck.units import format_duration, parse_duration
 
 PART_FILE = "part.toml"

@@ -201,7 +201,7 @@ class Part:
             ``v_max`` or at ``tj_max`` (under a policy: above its voltage fraction, at its ceiling);
             NaN where a point cannot be evaluated.
         """
-        from soacheck.api import allowed_current  # the API sits above the part; imported when called
+        from soacheck.api.points import allowed_current  # the API sits above the part; imported when called
 
         part = self if policy is None else self.rated
         return allowed_current(

@@ -15,13 +15,13 @@ from typing import Any, Literal
 
 from soacheck.battery import sweep
 from soacheck.errors import SoacheckError, did_you_mean
-from soacheck.files import read_toml, read_trace
 from soacheck.jobfiles import discharge_from_table, envelope_from_table, read_points
 from soacheck.library import find_part, list_parts, read_stage, stage_from_table
 from soacheck.parts import Part
 from soacheck.policy import Policy, policy_from_value
 from soacheck.quantities import CURRENT, POWER, VOLTAGE
 from soacheck.stage import Stage
+from soacheck.tomlfiles import read_toml
 from soacheck.tomlschemas import (
     CompareJob,
     DischargeFileJob,
@@ -33,6 +33,7 @@ from soacheck.tomlschemas import (
     TraceJob,
     validate,
 )
+from soacheck.tracefiles import read_trace
 from soacheck.units import parse_duration
 
 JobKind = Literal["points", "envelope", "discharge", "sweep", "trace", "compare"]

@@ -240,7 +240,7 @@ def read_policy(path: str | Path) -> Policy:
     SoacheckError
         A missing file, invalid TOML, or a bad key or value (see :func:`policy_from_table`).
     """
-    from soacheck.files import read_toml  # file reading stays at the edge
+    from soacheck.tomlfiles import read_toml  # file reading stays at the edge
 
     path = Path(path)
     table = read_toml(path, "policy")

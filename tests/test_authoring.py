@@ -20,7 +20,7 @@ from typer.testing import CliRunner
 from soacheck.authoring import AxisCalibration, follow_colour, pixels_to_values, soa_from_ratings
 from soacheck.boundary import allowed_current
 from soacheck.cli import app
-from soacheck.files import read_image
+from soacheck.images import read_image
 from soacheck.library import bundled_library, list_parts
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from soacheck import api
+import soacheck
 from soacheck.jobfiles import read_envelope
 from soacheck.plots import plot_point_check, plot_stage_run, plot_trace
 from soacheck.plotstyle import VIOLATION_GID
@@ -36,7 +36,7 @@ def violation_marks(ax) -> list[tuple[float, float]]:
 @pytest.fixture(scope="module")
 def failing_ramp():
     """A current ramp to 20 A at 40 V through the example stage: far past 150 W, so it fails."""
-    return api.sweep(STAGE, ramp="current", start=0.1, stop=20, at=40, time="30s", samples=80).run
+    return soacheck.sweep(STAGE, ramp="current", start=0.1, stop=20, at=40, time="30s", samples=80).run
 
 
 def test_each_device_is_drawn_at_its_own_hottest_case_temperature(failing_ramp):
@@ -64,7 +64,7 @@ def test_the_first_violation_is_marked_where_the_run_first_leaves(failing_ramp):
 
 def test_time_axis_reads_hours_for_a_long_discharge():
     """10 Ah at 4 A lasts about 2.5 h (capacity/current): the axis is in hours, not 9000 s."""
-    run = api.discharge(
+    run = soacheck.discharge(
         STAGE, battery="nmc", cells=10, capacity=10, mode="cc", setpoint=4, internal_resistance=0.15, samples=60
     ).run
     fig = plot_stage_run(run)
@@ -86,7 +86,7 @@ def test_legends_stand_outside_the_data(failing_ramp):
 
 
 def test_point_plot_marks_the_first_outside_point_and_labels_pulse_widths():
-    part = api.load_part("demo-npn-to3-250w")
+    part = soacheck.load_part("demo-npn-to3-250w")
     checked = check_points([40, 60, 41], [3, 5, 8], part, tc_c=[60, 60, 35], pulse_s=[math.inf, math.inf, 0.01])
     ax = plot_point_check(part, checked)
     assert violation_marks(ax) == [(60.0, 5.0)]  # 60 V, 5 A at 60 °C is outside (power: 3.33 A allowed)
@@ -96,8 +96,8 @@ def test_point_plot_marks_the_first_outside_point_and_labels_pulse_widths():
 
 
 def test_trace_shows_the_junction_on_its_own_axis():
-    part = api.load_part("demo-npn-to3-250w")
-    result = api.trace(part, EXAMPLES / "pulse-test.csv", case_temp=45)
+    part = soacheck.load_part("demo-npn-to3-250w")
+    result = soacheck.trace(part, EXAMPLES / "pulse-test.csv", case_temp=45)
     fig = plot_trace(part, result.trace)
     tj_axes = [ax for ax in fig.axes if ax.get_ylabel() == "temperature [°C]"]
     margin_axes = [ax for ax in fig.axes if ax.get_ylabel() == "margin [%]"]
@@ -117,8 +117,8 @@ def test_compare_draws_each_candidate_at_its_case_temperature_in_the_stage_not_t
     from soacheck.compare import case_temps_in_stage
     from soacheck.plots import plot_compare
 
-    stage = api.load_stage(STAGE)
-    parts = [api.load_part("demo-npn-to3-250w"), api.load_part("demo-npn-to220-62w")]
+    stage = soacheck.load_stage(STAGE)
+    parts = [soacheck.load_part("demo-npn-to3-250w"), soacheck.load_part("demo-npn-to220-62w")]
     envelope = read_envelope(EXAMPLES / "envelope.toml")
     temps = case_temps_in_stage(parts, stage, envelope)
     ax = plot_compare(parts, envelope, case_temp_c=temps, count=stage.count)
@@ -133,7 +133,7 @@ def test_a_passing_envelope_plot_shows_no_outside_entry_and_no_violation_mark():
     from soacheck.envelope import check_envelope
     from soacheck.plots import plot_envelope_check
 
-    stage = api.load_stage(STAGE)
+    stage = soacheck.load_stage(STAGE)
     check = check_envelope(stage, read_envelope(EXAMPLES / "envelope.toml"))
     assert check.passed
     fig = plot_envelope_check(check)

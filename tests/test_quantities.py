@@ -16,7 +16,7 @@ from typer.testing import CliRunner
 
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
-from soacheck.files import check_output
+from soacheck.outputs import check_output
 from soacheck.quantities import (
     DEVICE_COUNT,
     DRAWS,
@@ -124,7 +124,7 @@ def test_a_bad_plot_path_stops_the_trace_before_the_trace_is_read(tmp_path):
 
 
 def test_an_export_with_a_wrong_suffix_stops_before_the_search(tmp_path, monkeypatch):
-    import soacheck.api as api  # the search runs there; the command only calls it
+    import soacheck.api.envelopes as api  # the search runs there; the command only calls it
 
     def never(*args, **kwargs):
         raise AssertionError("the search ran before the output was checked")
@@ -151,7 +151,7 @@ def test_a_report_folder_that_is_a_file_stops_the_run(tmp_path):
 
 
 def test_a_bug_exits_3_with_one_line_and_no_traceback(monkeypatch):
-    import soacheck.api as api  # `check` computes there; the command only calls it
+    import soacheck.api.points as api  # `check` computes there; the command only calls it
 
     def broken(*args, **kwargs):
         raise ZeroDivisionError("float division by zero")

@@ -10,9 +10,9 @@ from pathlib import Path
 
 import pytest
 
-from soacheck import files
+from soacheck import outputs
 from soacheck.errors import SoacheckError
-from soacheck.files import folder_lock, write_folder
+from soacheck.outputs import folder_lock, write_folder
 from soacheck.report import slug
 
 from .helpers import invoke
@@ -75,7 +75,7 @@ def test_a_run_that_loses_the_race_says_so_and_leaves_the_winners_report(tmp_pat
         [
             sys.executable,
             "-c",
-            "import sys, time; from pathlib import Path; from soacheck.files import folder_lock\n"
+            "import sys, time; from pathlib import Path; from soacheck.outputs import folder_lock\n"
             "with folder_lock(Path(sys.argv[1])):\n    print('held', flush=True); time.sleep(5)",
             str(tmp_path / "out"),
         ],
@@ -85,7 +85,7 @@ def test_a_run_that_loses_the_race_says_so_and_leaves_the_winners_report(tmp_pat
     )
     try:
         assert holder.stdout.readline().strip() == "held"
-        monkeypatch.setattr(files, "LOCK_WAIT_S", 0.5)
+        monkeypatch.setattr(outputs, "LOCK_WAIT_S", 0.5)
         started = time.monotonic()
         with pytest.raises(SoacheckError, match=rf"another soacheck run \(process {holder.pid}\) is writing"):
             write_folder(tmp_path / "out", {"report.html": "loser"}, marker=".soacheck-report")

@@ -15,9 +15,9 @@ import pytest
 from typer.testing import CliRunner
 
 from soacheck.cli import app
-from soacheck.files import iter_trace
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker
+from soacheck.tracefiles import iter_trace
 
 from .conftest import THERMAL, write_part
 from .helpers import svg_texts, zth_train_closed_form

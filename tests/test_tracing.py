@@ -19,7 +19,7 @@ from typer.testing import CliRunner
 
 from soacheck.calibration import AxisCalibration, decades_disagree
 from soacheck.cli import app
-from soacheck.files import read_image
+from soacheck.images import read_image
 from soacheck.lint import lint_part
 from soacheck.partfiles import read_part
 from soacheck.picture import decades_seen

@@ -27,7 +27,7 @@ from pathlib import Path
 
 import numpy as np
 
-from soacheck.files import significant
+from soacheck.csvtables import significant
 
 ROOT = Path(__file__).resolve().parents[1] / "curves"
 PULSES_S = {"100us": 1e-4, "1ms": 1e-3, "10ms": 1e-2}

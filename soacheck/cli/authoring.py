@@ -31,8 +31,9 @@ from soacheck.cli.base import (
     output_path,
     user_errors,
 )
+from soacheck.csvtables import read_table
 from soacheck.errors import SoacheckError
-from soacheck.files import read_image, read_table
+from soacheck.images import read_image
 from soacheck.partfiles import (
     PART_FILE,
     SOA_FILE,
@@ -225,9 +226,9 @@ def lint(
     as_json: JsonOpt = False,
 ) -> None:
     """Check a part folder for digitizing mistakes; each finding with its file, row and fix."""
-    from soacheck import api
+    import soacheck
 
-    result = api.lint(part, library=library)
+    result = soacheck.lint(part, library=library)
     folder, findings = result.folder, result.findings
     errors = sum(f.severity == "error" for f in findings)
     if as_json:

@@ -22,9 +22,9 @@ from typer.core import TyperGroup
 from soacheck import __version__
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, choose
-from soacheck.files import check_output
 from soacheck.jsonvalues import json_chunks
 from soacheck.library import find_part, library_folders
+from soacheck.outputs import check_output
 from soacheck.parts import Part
 from soacheck.quantities import Quantity
 
@@ -233,7 +233,7 @@ def output_path(
 ) -> Path | None:
     """Check an output path before any computation; the one output check of every command.
 
-    See :func:`soacheck.files.check_output` (suffix, file or folder, overwrite, writable
+    See :func:`soacheck.outputs.check_output` (suffix, file or folder, overwrite, writable
     parent, missing parents made); the message gains the option's name. None passes.
     """
     if path is None:

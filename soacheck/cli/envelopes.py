@@ -64,7 +64,7 @@ def envelope(
     as_json: JsonOpt = False,
 ) -> None:
     """What a stage can safely promise: check an envelope, or find the largest safe one and export it."""
-    from soacheck import api
+    import soacheck
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     console = console_for_output()
@@ -75,7 +75,7 @@ def envelope(
         "library": library,
     }
     if check_file is not None:
-        result = api.envelope(stage, check_file, **options)
+        result = soacheck.envelope(stage, check_file, **options)
         if plot is not None:
             save_figure(result.plot().figure, plot)
         payload = result.to_dict()
@@ -109,7 +109,7 @@ def envelope(
         output_path(export, "--export", force=force)
     grid = None if voltages is None else number_list(voltages, "--voltages", "10,20,40", VOLTAGE)
     with progress_bar("largest safe envelope: bisection", quiet=as_json) as progress:
-        found = api.envelope(
+        found = soacheck.envelope(
             stage, voltages=grid, pulse=pulse, duty=duty, idle_current=idle_current, progress=progress, **options
         )
     table = found.table
@@ -159,7 +159,7 @@ def compare(
     as_json: JsonOpt = False,
 ) -> None:
     """Rank candidate parts for a job: margin, limit, fewest devices, cooling headroom."""
-    from soacheck import api
+    import soacheck
 
     if all_parts and parts:
         raise SoacheckError("name the candidate parts, or give --all (not both)")
@@ -167,7 +167,7 @@ def compare(
     if plot is not None and envelope_file is None and (discharge_file or trace_file):
         raise SoacheckError("--plot draws the candidates over an envelope; use it with --envelope")
     with progress_bar("comparing candidates", quiet=as_json) as progress:
-        result = api.compare(
+        result = soacheck.compare(
             "all" if all_parts else (parts or []),
             envelope=envelope_file,
             discharge=discharge_file,

@@ -25,11 +25,11 @@ from soacheck.display import limit_text
 
 def _run_plan_into(plan_path: Path, out: Path, *, force: bool, as_json: bool, library: list[Path] | None) -> bool:
     """Read, run and report a plan into ``out``; the report appears whole or not at all."""
-    from soacheck import api
+    import soacheck
     from soacheck.runner import failures_first
 
     with progress_bar("jobs", quiet=as_json) as progress:
-        result = api.run_plan(plan_path, out, force=force, library=library, progress=progress)
+        result = soacheck.run_plan(plan_path, out, force=force, library=library, progress=progress)
     if as_json:
         echo_json(result.to_dict())
         return result.passed

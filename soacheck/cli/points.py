@@ -158,10 +158,10 @@ def check(
     as_json: JsonOpt = False,
 ) -> None:
     """Check operating points against a part's SOA derated at the case temperature."""
-    from soacheck import api
+    import soacheck
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    result = api.check(
+    result = soacheck.check(
         part,
         voltage,
         current,
@@ -187,9 +187,9 @@ def check(
 @user_errors
 def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     """List the parts in the libraries, first match of each id."""
-    from soacheck import api
+    import soacheck
 
-    rows = api.parts(library=library).to_dict(orient="records")
+    rows = soacheck.parts(library=library).to_dict(orient="records")
     if as_json:
         echo_json({"parts": rows})
         return
@@ -229,9 +229,9 @@ def show(
     output_path(output, "--plot", force=force, suffixes=PLOT_SUFFIXES)
     checked = None
     if points is not None:
-        from soacheck import api
+        import soacheck
 
-        checked = api.check(loaded, points=points, pulse=pulse, breakdown=breakdown).points
+        checked = soacheck.check(loaded, points=points, pulse=pulse, breakdown=breakdown).points
     from soacheck.plots import plot_soa  # matplotlib: only when plotting
 
     ax = plot_soa(

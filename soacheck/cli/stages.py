@@ -27,7 +27,7 @@ from soacheck.cli.tables import print_assumptions, quantity_table, under_policy
 from soacheck.filemarks import save_figure
 
 if TYPE_CHECKING:
-    from soacheck.results import StageRunResult
+    from soacheck.api.stages import StageRunResult
 
 
 def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, setpoint_unit: str = "") -> None:
@@ -71,10 +71,10 @@ def discharge(
     as_json: JsonOpt = False,
 ) -> None:
     """Discharge a battery through the stage and check every device all the way down."""
-    from soacheck import api
+    import soacheck
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    result = api.discharge(
+    result = soacheck.discharge(
         stage,
         battery=battery,
         cells=cells,
@@ -117,10 +117,10 @@ def sweep(
     as_json: JsonOpt = False,
 ) -> None:
     """Run a V–I sweep through the stage and check every device along it."""
-    from soacheck import api
+    import soacheck
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    result = api.sweep(
+    result = soacheck.sweep(
         stage,
         ramp=ramp,  # type: ignore[arg-type]
         start=start,
@@ -149,10 +149,10 @@ def sharing(
     as_json: JsonOpt = False,
 ) -> None:
     """How unevenly the devices share: the worst device's share over random V_BE spreads."""
-    from soacheck import api
+    import soacheck
 
     with progress_bar("Monte Carlo draws", total=draws, quiet=as_json) as progress:
-        result = api.sharing(
+        result = soacheck.sharing(
             stage,
             current=current,
             voltage=voltage,

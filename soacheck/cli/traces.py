@@ -79,7 +79,7 @@ def trace(
     Several files (or a folder, or a glob) are checked each on its own, in parallel, into one
     summary table; exit 2 if any file could not be read, else 1 if any failed.
     """
-    from soacheck import api
+    import soacheck
     from soacheck.archive import expand_files
 
     cooling = None
@@ -105,7 +105,7 @@ def trace(
         return
     file = paths[0]
     with progress_bar(f"checking {file.name}: samples", quiet=as_json) as progress:
-        result = api.trace(
+        result = soacheck.trace(
             part,
             file,
             case_temp=case_temp,
@@ -127,7 +127,7 @@ def trace(
 
 def _archive(part, paths, case_temp, cooling, breakdown_derating, chunk_rows, jobs, dask, library, as_json) -> None:
     """Check every file of an archive and print one summary (a table, or one JSON object a line)."""
-    from soacheck.api import load_part
+    from soacheck.api.points import load_part
     from soacheck.archive import check_archive
 
     loaded = load_part(part, library=library)

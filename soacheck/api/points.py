@@ -1,0 +1,363 @@
+"""Parts and operating points: ``load_part``, ``parts``, ``allowed_current`` and ``check`` with its result."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, overload
+
+import numpy as np
+
+from soacheck.api.base import Result, _least, _plots
+from soacheck.api.options import (
+    ArrayLike,
+    Library,
+    PartLike,
+    PathLike,
+    PolicyLike,
+    Pulse,
+    _breakdown,
+    _check_all,
+    _duty,
+    _folders,
+    _pulse_s,
+    _under,
+)
+from soacheck.boundary import allowed_current as boundary_allowed_current
+from soacheck.derating import BreakdownDerating
+from soacheck.errors import SoacheckError
+from soacheck.jobfiles import read_points
+from soacheck.jsonvalues import json_chunks, jsonable
+from soacheck.library import find_part, list_parts
+from soacheck.partfiles import read_part
+from soacheck.parts import Part
+from soacheck.points import PointCheck, check_points
+from soacheck.policy import least_margin, policy_of
+from soacheck.quantities import CURRENT, IDLE_CURRENT, TEMPERATURE, VOLTAGE
+
+if TYPE_CHECKING:  # pandas, matplotlib and the report load only when a table, a plot or a report is asked for
+    import pandas as pd
+    from matplotlib.axes import Axes
+
+
+def load_part(part: PartLike, *, library: Library = None) -> Part:
+    """Load a part by id or by the path of its folder.
+
+    Parameters
+    ----------
+    part
+        A part id, searched in ``library``, then ``SOACHECK_LIBRARY``, then the bundled demo
+        parts; or the path of a folder holding ``part.toml`` and ``soa.csv``. A
+        :class:`Part` is returned as it is.
+    library
+        A folder of part folders, or several; searched first, in order.
+
+    Returns
+    -------
+    Part
+        The part, its curves sorted shortest pulse first, DC last.
+
+    Raises
+    ------
+    SoacheckError
+        An unknown id (naming the nearest ids), a folder without ``part.toml``, or a
+        malformed part file (naming the file, row and fix).
+    """
+    if isinstance(part, Part):
+        return part
+    return find_part(str(part), _folders(library))
+
+
+def parts(*, library: Library = None) -> pd.DataFrame:
+    """Every part in the libraries (the first of each id), sorted by id.
+
+    Parameters
+    ----------
+    library
+        Folders of user part folders, searched before ``SOACHECK_LIBRARY`` and the bundled parts.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per part: ``id``, ``kind``, ``v_max`` [V], ``i_max`` [A], ``p_max`` [W],
+        ``tj_max`` [°C], ``rth_jc`` [K/W], ``curves`` (list of pulse labels, DC last),
+        ``description``, ``folder``. ``soacheck parts --json`` prints
+        ``{"parts": frame.to_dict(orient="records")}``.
+    """
+    import pandas as pd
+
+    loaded = [read_part(entry.folder) for entry in list_parts(_folders(library))]
+    columns = ["id", "kind", "v_max", "i_max", "p_max", "tj_max", "rth_jc", "curves", "description", "folder"]
+    return pd.DataFrame(
+        [
+            {
+                "id": p.id,
+                "kind": p.kind,
+                "v_max": p.ratings.v_max_v,
+                "i_max": p.ratings.i_max_a,
+                "p_max": p.ratings.p_max_w,
+                "tj_max": p.ratings.tj_max_c,
+                "rth_jc": p.ratings.rth_jc_k_per_w,
+                "curves": [c.label for c in p.curves],
+                "description": p.description,
+                "folder": str(p.folder),
+            }
+            for p in loaded
+        ],
+        columns=columns,
+    )
+
+
+@overload
+def allowed_current(
+    part: PartLike,
+    voltage: float,
+    *,
+    case_temp: float = ...,
+    pulse: Pulse = ...,
+    duty: float | None = ...,
+    breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
+    library: Library = ...,
+) -> float: ...
+@overload
+def allowed_current(
+    part: PartLike,
+    voltage: ArrayLike,
+    *,
+    case_temp: ArrayLike = ...,
+    pulse: Pulse = ...,
+    duty: float | None = ...,
+    breakdown: BreakdownDerating = ...,
+    policy: PolicyLike = ...,
+    library: Library = ...,
+) -> float | np.ndarray: ...
+def allowed_current(
+    part: PartLike,
+    voltage: ArrayLike,
+    *,
+    case_temp: ArrayLike = 25.0,
+    pulse: Pulse = "dc",
+    duty: float | None = None,
+    breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
+    library: Library = None,
+) -> float | np.ndarray:
+    """The highest current a part may carry at each voltage: its SOA derated at the case temperature.
+
+    Parameters
+    ----------
+    part
+        The part, its id or its folder.
+    voltage
+        Voltage across the device, any shape. [V]
+    case_temp
+        Case temperature, broadcast against ``voltage``. [°C]
+    pulse
+        ``"dc"``, or the width of a single pulse (``duty`` None) or of a pulse train.
+    duty
+        Duty cycle tp/T of a pulse train in (0, 1]; None for DC or a single pulse. [1]
+    breakdown
+        How second breakdown (or a FET's linear-mode instability) derates: ``auto`` (the
+        part's table, else like the constant-power limit), ``thermal``, ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
+    library
+        Folders of user part folders, for a part given by id.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        The allowed current [A]: a float for scalar inputs, otherwise an array of the
+        broadcast shape of ``voltage`` and ``case_temp``. 0 above ``v_max`` or with the case
+        at or above ``tj_max``; NaN where the point cannot be evaluated (a voltage not
+        above zero, a non-finite case temperature).
+
+    Notes
+    -----
+    Below the lowest digitized voltage the first segment extends, capped by the rated
+    current; a pulse width between two digitized curves takes the longer one (without a
+    thermal model). See :func:`check` for the limit and the margin of each point.
+    """
+    loaded = _under(load_part(part, library=library), policy)
+    pulse_s = _pulse_s(pulse)
+    shape = np.broadcast_shapes(np.shape(voltage), np.shape(case_temp))
+    found = boundary_allowed_current(
+        np.asarray(voltage, dtype=float),
+        loaded,
+        tc_c=np.asarray(case_temp, dtype=float),
+        pulse_s=pulse_s,
+        duty=_duty(duty, pulse_s),
+        breakdown=_breakdown(breakdown),
+    )
+    current = found.current_a.reshape(shape)
+    return float(current) if current.ndim == 0 else current
+
+
+def check(
+    part: PartLike,
+    voltage: ArrayLike | None = None,
+    current: ArrayLike | None = None,
+    *,
+    points: PathLike | pd.DataFrame | None = None,
+    case_temp: ArrayLike = 25.0,
+    pulse: Pulse = "dc",
+    duty: float | None = None,
+    idle_current: ArrayLike = 0.0,
+    breakdown: BreakdownDerating = "auto",
+    policy: PolicyLike = None,
+    library: Library = None,
+) -> CheckResult:
+    """Check operating points against a part's SOA derated at their case temperature (``soacheck check``).
+
+    Parameters
+    ----------
+    part
+        The part, its id or its folder.
+    voltage, current
+        Operating points, broadcast together, any shape (flattened to ``(n,)``). [V], [A]
+    points
+        Instead of ``voltage`` and ``current``: a CSV file or a DataFrame with columns
+        ``voltage,current`` and optional ``case_temp`` [°C], ``pulse`` (``dc``, ``1ms`` ...) and
+        ``duty``; where a column is absent the keyword below applies.
+    case_temp
+        Case temperature of the points, broadcast. [°C]
+    pulse, duty
+        ``"dc"``, or a pulse width; ``duty`` in (0, 1] for a pulse train, None for a single pulse.
+    idle_current
+        Current standing between pulses at the same voltage, broadcast; 0 for none. With a
+        thermal model the junction peak is the exact periodic steady state by superposition;
+        without one such a pulse is judged as DC. [A]
+    breakdown
+        Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
+    policy
+        Design margins to judge against: a :class:`~soacheck.policy.Policy`, a preset name
+        (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
+        else the absolute ratings. Verdict and ``margin`` are then the policy's and
+        ``margin_to_rating`` is the margin to the absolute ratings.
+    library
+        Folders of user part folders, for a part given by id.
+
+    Returns
+    -------
+    CheckResult
+        ``verdict`` ``pass`` when every point is inside (a point on the boundary is inside);
+        ``to_frame()`` one row per point with ``allowed_current``, ``margin`` and ``limit``.
+
+    Raises
+    ------
+    SoacheckError
+        Points given both ways or neither; a voltage or current not above zero; an unknown
+        part; a malformed points file (naming the row).
+    """
+    chosen = _breakdown(breakdown)
+    pulse_s = _pulse_s(pulse)
+    duty_value = _duty(duty, pulse_s)
+    _check_all(TEMPERATURE, case_temp, "--case-temp")
+    _check_all(IDLE_CURRENT, idle_current, "--idle-current")
+    if points is not None:
+        if voltage is not None or current is not None:
+            raise SoacheckError("give either --points FILE or --voltage and --current, not both")
+        frame = _points_frame(points)
+        v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
+        tc = frame["case_temp"].to_numpy() if "case_temp" in frame else np.asarray(case_temp, dtype=float)
+        tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
+        d = frame["duty"].to_numpy() if "duty" in frame else duty_value
+        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else np.asarray(idle_current, dtype=float)
+    else:
+        if voltage is None or current is None:
+            raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
+        _check_all(VOLTAGE, voltage, "--voltage")
+        _check_all(CURRENT, current, "--current")
+        v, i, tc, tp, d = voltage, current, np.asarray(case_temp, dtype=float), pulse_s, duty_value
+        idle = np.asarray(idle_current, dtype=float)
+    if points is not None and "idle_current" in frame:
+        IDLE_CURRENT.check_array(np.ravel(idle), lambda k: f"points row {k + 1}: idle_current")
+    loaded = _under(load_part(part, library=library), policy)
+    result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
+    return CheckResult(loaded, result, chosen)
+
+
+def _points_frame(points: PathLike | pd.DataFrame) -> pd.DataFrame:
+    if isinstance(points, str | Path):
+        return read_points(points).frame
+    frame = points.copy()
+    for name in ("voltage", "current"):
+        if name not in frame:
+            raise SoacheckError(f"points: missing column '{name}'; points have the columns voltage,current")
+        bad = np.flatnonzero(~(np.isfinite(frame[name].to_numpy(dtype=float)) & (frame[name].to_numpy() > 0)))
+        if bad.size:
+            raise SoacheckError(f"points row {int(bad[0]) + 1}: {name} must be a number above zero")
+    if "pulse" in frame:
+        frame["pulse_s"] = [_pulse_s(p, where=f"points row {k + 1}: pulse") for k, p in enumerate(frame["pulse"])]
+    return frame
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class CheckResult(Result):
+    """Operating points checked against a part's derated SOA (``soacheck check``).
+
+    Attributes
+    ----------
+    part
+        The part checked.
+    points
+        The per-point arrays (voltage, current, allowed current, margin, limit ...), each ``(n,)``.
+    breakdown
+        The second-breakdown derating used, for the plot.
+    """
+
+    part: Part
+    points: PointCheck
+    breakdown: BreakdownDerating = "auto"
+
+    @property
+    def passed(self) -> bool:
+        return self.points.passed
+
+    @property
+    def margin(self) -> float:
+        return _least(self.points.margin, self.points.limit)[0]
+
+    @property
+    def limit(self) -> str | None:
+        return _least(self.points.margin, self.points.limit)[1]
+
+    @property
+    def assumptions(self) -> tuple[str, ...]:
+        return tuple(self.points.assumptions)
+
+    @property
+    def margin_to_rating(self) -> float:
+        worst = least_margin(self.to_frame()["margin_to_rating"].to_numpy(dtype=float))
+        return -math.inf if worst is None else worst
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per point: voltage [V], current [A], case_temp [°C], pulse, duty, inside,
+        allowed_current [A], margin (fraction, NaN where nothing is allowed), limit, curve, extrapolated."""
+        return self.points.to_frame()
+
+    def _payload(self, points: Any) -> dict[str, Any]:
+        return {
+            "part": self.points.part_id,
+            "verdict": self.verdict,
+            "policy": policy_of(self.points.policy).to_dict(),
+            "points": points,
+            "assumptions": list(self.assumptions),
+        }
+
+    def to_dict(self) -> dict[str, Any]:
+        return jsonable(self._payload(self.to_frame().to_dict(orient="records")))
+
+    def json_chunks(self) -> Iterator[str]:
+        """The JSON text with the points streamed one compact row a line (a million in seconds)."""
+        return json_chunks(self._payload(self.to_frame()))
+
+    def plot(self, ax: Axes | None = None) -> Axes:
+        """The points over the boundary at the case temperatures and the pulse width they were checked at."""
+        return _plots().plot_point_check(self.part, self.points, breakdown=self.breakdown, ax=ax)

@@ -1,0 +1,195 @@
+"""CSV tables read with line-exact errors; digitized numbers written to their significant digits.
+
+The one place where a CSV table's text becomes numbers. Every problem is raised as a
+:class:`~soacheck.errors.SoacheckError` whose message names the file, the line and the fix.
+Part folders are :mod:`soacheck.partfiles`; envelopes, discharges, points and OCV tables
+are :mod:`soacheck.jobfiles`; traces are :mod:`soacheck.tracefiles`.
+"""
+
+from __future__ import annotations
+
+import csv
+import functools
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from soacheck.errors import SoacheckError, did_you_mean
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+
+@dataclass(frozen=True, eq=False)
+class Table:
+    """A CSV table with its columns checked and its numbers parsed.
+
+    ``frame`` holds one canonical column per requested name (numbers as float64,
+    text as str); ``line(i)`` gives the file line of row ``i`` for messages.
+    """
+
+    path: Path
+    frame: pd.DataFrame
+
+    @functools.cached_property
+    def lines(self) -> np.ndarray:
+        """File line (1-based) of every data row, blank lines skipped, shape ``(rows,)``."""
+        return np.array(_data_lines(self.path), dtype=int)
+
+    def line(self, row: int) -> int:
+        """File line (1-based, header is the first non-blank line) of data row ``row``."""
+        return int(self.lines[row])
+
+    def where(self, row: int) -> str:
+        return f"{self.path} line {self.line(row)}"
+
+
+def _data_lines(path: Path) -> list[int]:
+    with open(path, encoding="utf-8-sig", errors="replace") as handle:
+        lines = [n for n, text in enumerate(handle, start=1) if text.strip()]
+    return lines[1:]
+
+
+def _sniff(path: Path) -> tuple[str, list[str]]:
+    """Return the column separator and the header names of a CSV file."""
+    try:
+        with open(path, encoding="utf-8-sig") as handle:
+            header = next((text for text in handle if text.strip()), None)
+    except FileNotFoundError:
+        raise SoacheckError(f"{path}: no such file; check the path") from None
+    except IsADirectoryError:
+        raise SoacheckError(f"{path}: is a folder, not a CSV file") from None
+    except UnicodeDecodeError:
+        raise SoacheckError(f"{path}: is not a UTF-8 text file; save it as CSV (UTF-8)") from None
+    if header is None:
+        raise SoacheckError(f"{path}: the file is empty; it needs a header line naming the columns")
+    # Spreadsheets in locales with decimal commas export with ';' between columns.
+    sep = ";" if ";" in header else ("\t" if "\t" in header else ",")
+    # a quoted header ("time","voltage") is valid CSV (RFC 4180, section 2): read it as CSV, not by splitting
+    names = [name.strip().lower() for name in next(csv.reader([header.strip()], delimiter=sep))]
+    return sep, names
+
+
+def read_table(
+    path: str | Path,
+    *,
+    numeric: Sequence[str],
+    text: Sequence[str] = (),
+    optional: Sequence[str] = (),
+    positive: Sequence[str] = (),
+) -> Table:
+    """Read a CSV table whose columns are named in its header.
+
+    Parameters
+    ----------
+    path
+        The CSV file. Columns separated by ``,``; a header with ``;`` marks a spreadsheet
+        export with decimal commas, which is read as such; tab-separated files are read too.
+    numeric, text
+        Columns that hold numbers and text. All are required unless named in ``optional``.
+    optional
+        Columns that may be missing; they are absent from the frame then.
+    positive
+        Numeric columns whose values must be above zero (they go on log axes).
+
+    Raises
+    ------
+    SoacheckError
+        Empty file, missing or unknown columns (with the nearest known name), rows with
+        the wrong number of fields, cells that are not finite numbers, values not above
+        zero where required.
+    """
+    import pandas as pd  # deferred: a command that reads no table starts without it
+
+    path = Path(path)
+    sep, names = _sniff(path)
+    known = list(numeric) + list(text)
+    for name in names:
+        if name not in known:
+            raise SoacheckError(
+                f"{path}: unknown column '{name}'{did_you_mean(name, known)}; the columns are {', '.join(known)}"
+            )
+    if len(set(names)) != len(names):
+        raise SoacheckError(f"{path}: a column name appears twice in the header; keep one")
+    for name in known:
+        if name not in names and name not in optional:
+            needed = ", ".join(n for n in known if n not in optional)
+            raise SoacheckError(f"{path}: missing column '{name}'; the header must name {needed}")
+    try:
+        # numbers parsed by pandas' C reader; a column it cannot parse as plain numbers is
+        # read again as text below, to name the first bad cell
+        raw = pd.read_csv(
+            path,
+            sep=sep,
+            dtype={name: str for name in names if name not in numeric},
+            keep_default_na=False,
+            skipinitialspace=True,
+            decimal="," if sep == ";" else ".",
+            encoding="utf-8-sig",
+        )
+    except pd.errors.ParserError as err:
+        found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(err))
+        detail = (
+            f"line {found.group(2)} has {found.group(3)} fields where the header has {found.group(1)}"
+            if found
+            else "a row has more fields than the header"
+        )
+        hint = "; a spreadsheet export with decimal commas must separate columns with ';'" if sep == "," else ""
+        raise SoacheckError(f"{path}: {detail}{hint}") from None
+    raw.columns = [c.strip().lower() for c in raw.columns]
+    if raw.empty:
+        raise SoacheckError(f"{path}: the file has a header but no rows; add at least one row")
+
+    frame = pd.DataFrame(index=raw.index)
+    table = Table(path, frame)
+    for name in known:
+        if name not in raw.columns:
+            continue
+        if name in numeric and pd.api.types.is_numeric_dtype(raw[name]) and not pd.api.types.is_bool_dtype(raw[name]):
+            values = raw[name].to_numpy(float)
+            if np.all(np.isfinite(values)) and (name not in positive or np.all(values > 0)):
+                frame[name] = values
+                continue
+            raw[name] = _column_text(path, sep, name)  # name the bad cell as written
+        codes, distinct = pd.factorize(raw[name].astype(str))  # each distinct cell stripped once
+        cells = pd.Series(distinct.str.strip().to_numpy(object)[codes], index=raw.index)
+        if name in text:
+            empty = np.flatnonzero((cells == "").to_numpy())
+            if empty.size:
+                raise SoacheckError(f"{table.where(int(empty[0]))}: column '{name}' is empty; fill it in")
+            frame[name] = cells
+            continue
+        values = pd.to_numeric(cells.str.replace(",", ".", regex=False), errors="coerce").to_numpy(float)
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            row = int(bad[0])
+            cell = cells.iloc[row]
+            what = "is empty" if cell == "" else f"'{cell}' is not a finite number"
+            raise SoacheckError(f"{table.where(row)}: {name} {what}; write a plain number")
+        if name in positive:
+            low = np.flatnonzero(values <= 0)
+            if low.size:
+                row = int(low[0])
+                raise SoacheckError(
+                    f"{table.where(row)}: {name} is {values[row]:g}; it must be above zero (SOA axes are logarithmic)"
+                )
+        frame[name] = values
+    return table
+
+
+def _column_text(path: Path, sep: str, name: str):
+    """One column of a CSV file as the text written in it (for messages about bad cells)."""
+    import pandas as pd
+
+    raw = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=False, skipinitialspace=True, encoding="utf-8-sig")
+    raw.columns = [c.strip().lower() for c in raw.columns]
+    return raw[name]
+
+
+def significant(value: float, digits: int = 4) -> str:
+    """A digitized value written to ``digits`` significant digits (more would be false precision)."""
+    return f"{float(f'{value:.{digits}g}'):g}"

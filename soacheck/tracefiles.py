@@ -1,0 +1,156 @@
+"""V–I traces (CSV or Parquet) read and checked in chunks, so a trace larger than memory can be checked."""
+
+from __future__ import annotations
+
+import contextlib
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from soacheck.battery import Trajectory
+from soacheck.csvtables import _sniff
+from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+
+TRACE_COLUMNS = ("time", "voltage", "current")
+
+
+def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
+    """Read a V–I trace in chunks: columns ``time,voltage,current`` in s, V and A.
+
+    CSV (with the same separator rules as :func:`read_table`), or Parquet when pyarrow is
+    installed. Yields ``(time_s, voltage_v, current_a, first_row)`` arrays chunk by chunk,
+    so a trace larger than memory can be checked. Times must rise strictly, across chunk
+    borders too; voltage and current must be finite and not negative.
+    """
+    path = Path(path)
+    if path.suffix.lower() in (".parquet", ".pq"):
+        chunks = _parquet_chunks(path, chunk_rows)
+    else:
+        chunks = _csv_chunks(path, chunk_rows)
+    with contextlib.closing(chunks):
+        yield from _checked_chunks(path, chunks)
+
+
+def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: int = 1_000_000):
+    """A trace already in memory, columns ``time,voltage,current``, checked and yielded like :func:`iter_trace`.
+
+    ``where`` names the trace in messages (``trace data row 7: ...``).
+    """
+    missing = [name for name in TRACE_COLUMNS if name not in frame.columns]
+    if missing:
+        raise SoacheckError(f"{where}: missing column '{missing[0]}'; a trace has the columns time,voltage,current")
+    pieces = (frame.iloc[k : k + chunk_rows] for k in range(0, len(frame), max(chunk_rows, 1)))
+    yield from _checked_chunks(where, pieces)
+
+
+def _checked_chunks(path: Path | str, chunks):
+    last_t = None
+    first_row = 0
+    for frame in chunks:
+        t, v, i = (frame[name].to_numpy(dtype=float) for name in TRACE_COLUMNS)
+        if t.size == 0:
+            continue
+        for name, values in (("time", t), ("voltage", v), ("current", i)):
+            bad = np.flatnonzero(~np.isfinite(values))
+            if bad.size:
+                raise SoacheckError(
+                    f"{path} data row {first_row + int(bad[0]) + 1}: {name} is not a finite number; remove or fix "
+                    "the sample"
+                )
+        for name, values in (("voltage", v), ("current", i)):
+            bad = np.flatnonzero(values < 0)
+            if bad.size:
+                raise SoacheckError(
+                    f"{path} data row {first_row + int(bad[0]) + 1}: {name} {values[bad[0]]:g} is negative; "
+                    "soacheck checks forward operation (record the magnitude, or leave out reverse conduction)"
+                )
+        for quantity, name, values in (
+            (TIME, "time", t),
+            (SAMPLE_VOLTAGE, "voltage", v),
+            (SAMPLE_CURRENT, "current", i),
+        ):
+            quantity.check_array(values, lambda k, n=name, r=first_row: f"{path} data row {r + k + 1}: {n}")
+        previous = np.r_[last_t if last_t is not None else -np.inf, t[:-1]]
+        bad = np.flatnonzero(t <= previous)
+        if bad.size:
+            k = int(bad[0])
+            what = "repeats" if t[k] == previous[k] else "goes backwards"
+            raise SoacheckError(
+                f"{path} data row {first_row + k + 1}: time {t[k]:g} s {what} after {previous[k]:g} s; "
+                "time stamps must rise strictly"
+            )
+        yield t, v, i, first_row
+        last_t = float(t[-1])
+        first_row += t.size
+    if first_row == 0:
+        raise SoacheckError(f"{path}: the trace has a header but no samples")
+
+
+def _csv_chunks(path: Path, chunk_rows: int):
+    import pandas as pd  # deferred: a command that reads no table starts without it
+
+    sep, names = _sniff(path)
+    for name in names:
+        if name not in TRACE_COLUMNS:
+            raise SoacheckError(
+                f"{path}: unknown column '{name}'{did_you_mean(name, TRACE_COLUMNS)}; a trace has the columns "
+                "time,voltage,current"
+            )
+    for name in TRACE_COLUMNS:
+        if name not in names:
+            raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
+    decimal = "," if sep == ";" else "."
+    offset = 0
+    with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
+        for raw in reader:
+            raw.columns = [c.strip().lower() for c in raw.columns]
+            frame = raw.copy()
+            for name in TRACE_COLUMNS:
+                if pd.api.types.is_numeric_dtype(raw[name]):
+                    continue
+                frame[name] = pd.to_numeric(raw[name], errors="coerce")
+                bad = np.flatnonzero(frame[name].isna().to_numpy() & raw[name].notna().to_numpy())
+                if bad.size:
+                    k = int(bad[0])
+                    raise SoacheckError(
+                        f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; "
+                        "write a plain number"
+                    )
+            offset += len(frame)
+            yield frame
+
+
+def _parquet_chunks(path: Path, chunk_rows: int):
+    try:
+        import pyarrow.parquet as pq
+    except ImportError:
+        raise SoacheckError(
+            f"{path}: reading Parquet needs pyarrow; `pip install pyarrow`, or save the trace as CSV"
+        ) from None
+    try:
+        # without pre-buffering: the reader then holds only the batch being read, not every one
+        handle = pq.ParquetFile(path, pre_buffer=False, buffer_size=1 << 20)
+    except (OSError, ValueError) as err:
+        raise SoacheckError(f"{path}: not a readable Parquet file ({err})") from None
+    names = [n.lower() for n in handle.schema_arrow.names]
+    for name in TRACE_COLUMNS:
+        if name not in names:
+            raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
+    columns = [handle.schema_arrow.names[names.index(n)] for n in TRACE_COLUMNS]
+    for batch in handle.iter_batches(batch_size=chunk_rows, columns=columns):
+        frame = batch.to_pandas()
+        frame.columns = list(TRACE_COLUMNS)
+        yield frame
+
+
+def read_trace(path: str | Path) -> Trajectory:
+    """A whole trace in memory, as the load's trajectory (for comparisons and plans)."""
+    chunks = list(iter_trace(path))
+    t, v, i = (np.concatenate([c[k] for c in chunks]) for k in range(3))
+    return Trajectory(t, v, i, f"trace {Path(path).name}", (f"recorded trace {path}",))
