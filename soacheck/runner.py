@@ -21,9 +21,8 @@ from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, 
 from soacheck.points import check_points, overload_of
 from soacheck.policy import least_margin, policy_lines, policy_of
 from soacheck.quantities import SETPOINT
-from soacheck.search import max_safe_setpoint
 from soacheck.stage import Stage
-from soacheck.stage_run import passes_at, run_stage
+from soacheck.stage_run import run_stage, setpoint_limits
 from soacheck.trace import TraceChecker
 
 if TYPE_CHECKING:
@@ -129,11 +128,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
         run = run_stage(stage, path.time_s, path.source_v, path.total_a)
         summary = {"test": path.label, **run.summary()}
         if job.kind == "discharge" and d["find_max"]:
-            summary["max_safe_setpoint"] = _max_setpoint(plan, job, plan.stage)
-            rated = plan.stage.with_part(plan.stage.part.rated)
-            summary["max_setpoint_at_rating"] = (
-                summary["max_safe_setpoint"] if plan.policy is None else _max_setpoint(plan, job, rated)
-            )
+            summary.update(_setpoint_limits(job, plan.stage))
         found = None
         if "max_safe_setpoint" in summary:
             found = (summary["max_safe_setpoint"], SETPOINT[str(d["table"]["mode"]).lower()].unit)
@@ -191,14 +186,16 @@ def run_job(plan: Plan, job: Job) -> JobResult:
     raise SoacheckError(f"unknown job kind '{job.kind}'")
 
 
-def _max_setpoint(plan: Plan, job: Job, stage: Stage) -> float | None:
+def _setpoint_limits(job: Job, stage: Stage) -> dict[str, float | None]:
+    """The most demanding safe setpoint of a discharge job, under the plan's policy and at the ratings."""
     table, origin, base = job.data["table"], job.data["origin"], job.data["base"]
 
-    def run_at(setpoint: float):
+    def run_in(through: Stage, setpoint: float):
         path = discharge_from_table({**table, "setpoint": setpoint}, where=origin, base=base)
-        return run_stage(stage, path.time_s, path.source_v, path.total_a)
+        return run_stage(through, path.time_s, path.source_v, path.total_a)
 
-    return max_safe_setpoint(passes_at(run_at), float(table["setpoint"]), str(table["mode"]).lower(), rel_tol=1e-2)
+    mode = str(table["mode"]).lower()
+    return setpoint_limits(run_in, stage, float(table["setpoint"]), mode, rel_tol=1e-2)
 
 
 def run_plan(plan: Plan, *, progress: Callable[[int, int, str], None] | None = None) -> list[JobResult]:

@@ -23,6 +23,7 @@ from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.quantities import check_memory
+from soacheck.search import max_safe_setpoint
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.steady_state import HOG_START_K, TIP_V
 from soacheck.thermal import Foster
@@ -350,3 +351,20 @@ def passes_at(run_at: Callable[[float], StageRun]) -> Callable[[float], bool]:
             return False
 
     return passes
+
+
+def setpoint_limits(
+    run_at: Callable[[Stage, float], StageRun], stage: Stage, setpoint: float, mode: str, *, rel_tol: float = 1e-3
+) -> dict[str, float | None]:
+    """The most demanding safe setpoint under the stage's policy, and the same at the absolute ratings.
+
+    ``run_at(stage, x)`` runs the test at setpoint ``x`` through ``stage``. Returns
+    ``max_safe_setpoint`` (judged under the part's policy, if any) and ``max_setpoint_at_rating``
+    (the same search against the ratings; the same value when there is no policy). [A, W or Ω]
+    """
+    found = max_safe_setpoint(passes_at(lambda x: run_at(stage, x)), setpoint, mode, rel_tol=rel_tol)
+    at_rating = found
+    if stage.part.policy is not None:  # the same search against the absolute ratings, beside it
+        rated = stage.with_part(stage.part.rated)
+        at_rating = max_safe_setpoint(passes_at(lambda x: run_at(rated, x)), setpoint, mode, rel_tol=rel_tol)
+    return {"max_safe_setpoint": found, "max_setpoint_at_rating": at_rating}

@@ -45,10 +45,9 @@ from soacheck.quantities import (
     SETPOINT,
     VOLTAGE,
 )
-from soacheck.search import max_safe_setpoint
 from soacheck.sharing import SharingSpread, sharing_margins, sharing_monte_carlo
 from soacheck.stage import Stage
-from soacheck.stage_run import StageRun, passes_at, run_stage
+from soacheck.stage_run import StageRun, run_stage, setpoint_limits
 
 if TYPE_CHECKING:  # pandas, matplotlib and the report load only when a table, a plot or a report is asked for
     import pandas as pd
@@ -151,25 +150,14 @@ def discharge(
     loaded = _stage_under(load_stage(stage, library=library), policy)
     pack = battery_from(str(battery), cells, capacity, internal_resistance)
 
-    def run_at(value: float) -> StageRun:
+    def run_in(through: Stage, value: float) -> StageRun:
         path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
-        run = run_stage(loaded, path.time_s, path.source_v, path.total_a, breakdown=chosen)
+        run = run_stage(through, path.time_s, path.source_v, path.total_a, breakdown=chosen)
         return replace(run, assumptions=run.assumptions + path.notes)
 
-    run = run_at(setpoint)
+    run = run_in(loaded, setpoint)
     label = battery_discharge(pack, mode, setpoint, cutoff_v=cutoff, samples=10).label
-    extra: dict[str, Any] = {}
-    if find_max:
-        extra["max_safe_setpoint"] = max_safe_setpoint(passes_at(run_at), setpoint, mode)
-        extra["max_setpoint_at_rating"] = extra["max_safe_setpoint"]
-        if loaded.part.policy is not None:  # the same search against the absolute ratings, beside it
-            rated = loaded.with_part(loaded.part.rated)
-
-            def rated_run_at(value: float) -> StageRun:
-                path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
-                return run_stage(rated, path.time_s, path.source_v, path.total_a, breakdown=chosen)
-
-            extra["max_setpoint_at_rating"] = max_safe_setpoint(passes_at(rated_run_at), setpoint, mode)
+    extra: dict[str, Any] = setpoint_limits(run_in, loaded, setpoint, mode) if find_max else {}
     return StageRunResult(run, label, extra, chosen, SETPOINT[mode].unit)
 
 
