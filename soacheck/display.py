@@ -43,12 +43,16 @@ def device_name(number: int) -> str:
     return f"Q{number}"
 
 
-def value_text(name: str, value: Any, *, with_unit: bool = True, span_s: float | None = None) -> str:
+def value_text(
+    name: str, value: Any, *, with_unit: bool = True, span_s: float | None = None, own_unit: str | None = None
+) -> str:
     """``value`` of the JSON name ``name`` for a person: unit beside it (unless ``with_unit`` is False).
 
     None, NaN and infinities read ``—``; a margin reads ``+34.9 %``; an overload ``14.1``;
     a time in s, min or h as fits (``span_s``: the length of the test, so that all times of
     one test share a unit; without ``with_unit`` a time stays in seconds); a device ``Q2``.
+    ``own_unit`` is the unit of a name whose unit depends on the run (a setpoint in A, W
+    or Ω), in place of the glossary's.
     """
     if value is None:
         return "—"
@@ -69,7 +73,7 @@ def value_text(name: str, value: Any, *, with_unit: bool = True, span_s: float |
         return f"{number} %" if with_unit else number
     if name == "overload":
         return f"{value:.3g}"
-    quantity_unit = unit(name)
+    quantity_unit = own_unit or unit(name)
     if quantity_unit == "s" and with_unit:
         return format_time(float(value), span_s=span_s)
     number = f"{value:.4g}" if isinstance(value, float) else str(value)

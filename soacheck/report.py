@@ -61,9 +61,9 @@ pre.plan { background: #f1f3f5; border: 1px solid #dde1e6; padding: 10px 14px; f
 """
 
 
-def _cell(name: str, value: Any, *, span_s: float | None = None) -> str:
+def _cell(name: str, value: Any, *, span_s: float | None = None, own_unit: str | None = None) -> str:
     """One value for a table cell, escaped, with its unit (see :mod:`soacheck.display`)."""
-    return html.escape(value_text(name, value, span_s=span_s))
+    return html.escape(value_text(name, value, span_s=span_s, own_unit=own_unit))
 
 
 def svg_text(figure: Figure) -> str:
@@ -227,7 +227,8 @@ def _section(result: JobResult, figures: list[str]) -> str:
     span = s.get("duration") if isinstance(s.get("duration"), int | float) else None
 
     def row(k: str, v: Any) -> str:
-        return f'<tr><th>{e(words(k))}</th><td class="num">{_cell(k, v, span_s=span)}</td></tr>'
+        cell = _cell(k, v, span_s=span, own_unit=result.units.get(k))
+        return f'<tr><th>{e(words(k))}</th><td class="num">{cell}</td></tr>'
 
     answer = row("verdict", result.verdict) + "".join(row(k, s[k]) for k in _ANSWER[1:] if k in s)
     facts = "".join(row(k, v) for k, v in s.items() if k not in _ANSWER and not isinstance(v, list | dict))

@@ -50,6 +50,8 @@ class JobResult:
     assumptions: tuple[str, ...]
     figures: dict[str, Figure] = field(default_factory=dict)
     rows: list[dict[str, Any]] = field(default_factory=list)
+    units: dict[str, str] = field(default_factory=dict)
+    """The unit of a figure whose unit depends on the job (a setpoint in A, W or Ω), by its name."""
 
     @property
     def verdict(self) -> str:
@@ -129,11 +131,14 @@ def run_job(plan: Plan, job: Job) -> JobResult:
         summary = {"test": path.label, **run.summary()}
         if job.kind == "discharge" and d["find_max"]:
             summary.update(_setpoint_limits(job, plan.stage))
-        found = None
+        found, units = None, {}
         if "max_safe_setpoint" in summary:
-            found = (summary["max_safe_setpoint"], SETPOINT[str(d["table"]["mode"]).lower()].unit)
+            setpoint_unit = SETPOINT[str(d["table"]["mode"]).lower()].unit
+            found = (summary["max_safe_setpoint"], setpoint_unit)
+            units = {"max_safe_setpoint": setpoint_unit, "max_setpoint_at_rating": setpoint_unit}
         figure = plot_stage_run(run, title=f"{job.name}: {path.label}", max_setpoint=found)
-        return JobResult(job.name, job.kind, run.passed, summary, run.assumptions + path.notes, {"run": figure})
+        notes = run.assumptions + path.notes
+        return JobResult(job.name, job.kind, run.passed, summary, notes, {"run": figure}, units=units)
     if job.kind == "trace":
         part = d["part"]
         if d["case_temp"] is not None:

@@ -14,7 +14,7 @@ from soacheck.library import bundled_library, list_parts
 from soacheck.partfiles import read_part
 from soacheck.thermal import Foster
 
-from .helpers import check_json_output
+from .helpers import check_json_output, invoke
 
 
 @pytest.fixture(autouse=True, scope="session")
@@ -128,3 +128,12 @@ def unwritable(tmp_path, monkeypatch):
         monkeypatch.setattr(tempfile, "mkdtemp", refuse(real_mkdtemp))
     yield folder
     folder.chmod(0o755)
+
+
+@pytest.fixture(scope="session")
+def demo_report(tmp_path_factory):
+    """The bundled demo's report folder, written once for every test that reads it."""
+    out = tmp_path_factory.mktemp("demo") / "report"
+    result = invoke("demo", "--out", out)
+    assert result.exit_code == 0, result.output  # the demo fails one job on purpose, yet exits 0
+    return out

@@ -112,3 +112,74 @@ def exit_code_for(payload: dict) -> int:
     if payload.get("candidates"):
         return 0 if payload["candidates"][0]["verdict"] == "pass" else 1
     return 0
+
+
+# --------------------------------------------------------------------------- HTML read back
+
+
+class HtmlNode:
+    """An element of a parsed HTML page: tag, attributes, children (nodes and text), in document order."""
+
+    def __init__(self, tag: str, attrs: dict[str, str | None]):
+        self.tag = tag
+        self.attrs = attrs
+        self.children: list[HtmlNode | str] = []
+
+    @property
+    def classes(self) -> set[str]:
+        return set((self.attrs.get("class") or "").split())
+
+    def text(self) -> str:
+        """All text inside, entities decoded, as a browser shows it in the DOM."""
+        return "".join(c if isinstance(c, str) else c.text() for c in self.children)
+
+    def iter(self, tag: str | None = None):
+        """This node and every node below it (of ``tag`` when given), in document order."""
+        if tag is None or self.tag == tag:
+            yield self
+        for child in self.children:
+            if isinstance(child, HtmlNode):
+                yield from child.iter(tag)
+
+    def elements(self) -> list[HtmlNode]:
+        """The child elements, without the text between them."""
+        return [c for c in self.children if isinstance(c, HtmlNode)]
+
+
+_VOID = frozenset({"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source", "wbr"})
+
+
+def parse_html(text: str) -> HtmlNode:
+    """Parse a page with the standard library's tokenizer into a tree of :class:`HtmlNode` (the root is ``#root``).
+
+    Void elements (``meta``, ``img`` ...) and ``<x/>`` close themselves; an end tag closes
+    the nearest open element of its name, as a browser's parser does for well-nested pages.
+    """
+    from html.parser import HTMLParser
+
+    root = HtmlNode("#root", {})
+    stack = [root]
+
+    class Builder(HTMLParser):
+        def handle_starttag(self, tag, attrs):
+            node = HtmlNode(tag, dict(attrs))
+            stack[-1].children.append(node)
+            if tag not in _VOID:
+                stack.append(node)
+
+        def handle_startendtag(self, tag, attrs):
+            stack[-1].children.append(HtmlNode(tag, dict(attrs)))
+
+        def handle_endtag(self, tag):
+            for depth in range(len(stack) - 1, 0, -1):
+                if stack[depth].tag == tag:
+                    del stack[depth:]
+                    return
+
+        def handle_data(self, data):
+            stack[-1].children.append(data)
+
+    parser = Builder(convert_charrefs=True)
+    parser.feed(text)
+    parser.close()
+    return root

@@ -30,14 +30,6 @@ runner = CliRunner(env={"COLUMNS": "200"})
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 
 
-@pytest.fixture(scope="module")
-def demo_report(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo") / "report"
-    result = runner.invoke(app, ["demo", "--out", str(out)])
-    assert result.exit_code == 0, result.output
-    return out
-
-
 def test_demo_plan_runs_end_to_end_with_every_job_kind(demo_report):
     report = validate_output("run", (demo_report / "report.json").read_text())  # report.json is run --json
     kinds = {job["kind"] for job in report["jobs"]}

@@ -39,7 +39,7 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, set
     else:
         console = console_for_output()
         title = f"{run.stage.part.id} × {run.stage.count}: {label}{under_policy(payload['policy'])}"
-        units = {"max_safe_setpoint": setpoint_unit}
+        units = {"max_safe_setpoint": setpoint_unit, "max_setpoint_at_rating": setpoint_unit}
         console.print(quantity_table(title, payload, skip=("test",), span_s=payload.get("duration"), units=units))
         print_assumptions(console, payload["assumptions"])
         if plot is not None:
