@@ -2,8 +2,9 @@
 
 A plot carries it in the image's own metadata (PNG ``Software`` text chunk, SVG
 ``dc:creator``, PDF ``/Creator``); a CSV file begins with a ``#`` comment line and a C
-header with a ``/* */`` comment line. A file without the mark is the user's: it is never
-replaced without ``--force``.
+header with a ``/* */`` comment line. JSON has no comments, so a JSON file carries it in
+its data: its object's first key is ``written_by`` (:data:`JSON_MARK`), the program and
+its version. A file without the mark is the user's: it is never replaced without ``--force``.
 """
 
 from __future__ import annotations
@@ -18,10 +19,14 @@ from soacheck import __version__
 CREATOR = f"soacheck {__version__}"
 """The text of the mark: the program and its version."""
 
+JSON_MARK = "written_by"
+"""The key that marks a JSON object soacheck wrote; it comes first and its value is :data:`CREATOR`."""
+
 _PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 _SVG_CREATOR = re.compile(r"<dc:creator>\s*<cc:Agent>\s*<dc:title>soacheck[ <]")
 _PDF_CREATOR = re.compile(rb"/Creator\s*\(soacheck[ )]")
 _PDF_TAIL_BYTES = 16384
+_JSON_MARKED = re.compile(rf'^\ufeff?\s*\{{\s*"{JSON_MARK}"\s*:\s*"soacheck[ "]')
 
 
 def figure_metadata(path: str | Path) -> dict[str, Any]:
@@ -33,6 +38,11 @@ def figure_metadata(path: str | Path) -> dict[str, Any]:
 def save_figure(figure: Any, path: str | Path) -> None:
     """Save a matplotlib figure to ``path`` (.png, .svg or .pdf) with soacheck's mark."""
     figure.savefig(path, metadata=figure_metadata(path))
+
+
+def json_mark() -> dict[str, str]:
+    """The mark of a JSON object soacheck writes, to put first: ``{"written_by": "soacheck X.Y"}``."""
+    return {JSON_MARK: CREATOR}
 
 
 def first_line(suffix: str) -> str:
@@ -83,6 +93,8 @@ def written_by_soacheck(path: str | Path) -> bool:
         return bool(_SVG_CREATOR.search(head.decode("utf-8", errors="replace")))
     if suffix == ".pdf":
         return head.startswith(b"%PDF") and bool(_PDF_CREATOR.search(tail))
+    if suffix == ".json":  # the first key of the object; a user's file that merely mentions soacheck is not ours
+        return bool(_JSON_MARKED.match(head.decode("utf-8", errors="replace")))
     if suffix in (".csv", ".h", ".c"):
         line = head.split(b"\n", 1)[0].decode("utf-8", errors="replace").strip()
         return line in (first_line(".csv").strip(), first_line(".h").strip()) or line.startswith(

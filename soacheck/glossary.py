@@ -190,6 +190,12 @@ _TERMS = [
     _t("to_voltage", "V", "end of a stretch outside", "to"),
     _t("max_current", "A", "the largest safe total current at that source voltage, rounded down", "max current"),
     _t("current_resolution", "A", "the exported currents are multiples of this, rounded down"),
+    _t(
+        "written_by",
+        "",
+        "the program and version that wrote a JSON file (soacheck X.Y), its first key; a later run replaces a "
+        "file that carries it without --force, any other file only with --force",
+    ),
     # comparisons
     _t("job", "", "what the candidates are compared on, in words"),
     _t("candidates", "", "each candidate part's answer, passing first, then by margin"),

@@ -205,6 +205,7 @@ ENVELOPE_CHECK_FIELDS = (
 )
 
 LIMIT_TABLE = obj(
+    f("written_by", "string"),
     PART,
     f("count", "integer"),
     f("pulse", "string"),

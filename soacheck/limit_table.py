@@ -27,7 +27,7 @@ from decimal import ROUND_FLOOR, Decimal
 
 from soacheck.envelope import SafeEnvelope
 from soacheck.errors import SoacheckError
-from soacheck.filemarks import first_line
+from soacheck.filemarks import first_line, json_mark
 from soacheck.policy import NO_POLICY, policy_of
 from soacheck.units import format_duration
 
@@ -92,8 +92,13 @@ class LimitTable:
     policy: dict[str, object] = field(default_factory=lambda: NO_POLICY.to_dict())
 
     def to_dict(self) -> dict[str, object]:
-        """The table as the JSON object that ``envelope --json`` prints and ``--export x.json`` writes."""
+        """The table as the JSON object that ``envelope --json`` prints and ``--export x.json`` writes.
+
+        Its first key, ``written_by``, marks it as soacheck's (:mod:`soacheck.filemarks`), so a
+        later export replaces the file without ``--force``.
+        """
         return {
+            **json_mark(),
             "part": self.part,
             "count": self.count,
             "pulse": self.pulse,

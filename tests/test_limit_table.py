@@ -231,6 +231,28 @@ def test_an_export_replaces_its_own_earlier_file_but_not_a_users(tmp_path):
     assert forced.exit_code == 0, forced.output
 
 
+def test_a_json_export_replaces_its_own_earlier_file_without_force(tmp_path):
+    """JSON has no comments: soacheck's mark is the object's first key, written_by (glossary)."""
+    out = export(tmp_path, "limits.json")
+    first = json.loads(out.read_text(encoding="utf-8"))
+    assert next(iter(first)) == "written_by" and first["written_by"].startswith("soacheck ")
+    again = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", out)
+    assert again.exit_code == 0, again.output
+    assert [row["voltage"] for row in json.loads(out.read_text(encoding="utf-8"))["points"]] == [5, 20]
+
+
+def test_a_users_json_file_is_replaced_only_with_force(tmp_path):
+    mine = tmp_path / "mine.json"
+    text = '{"part": "my bench", "note": "limits checked with soacheck 0.1.0", "points": []}\n'
+    mine.write_bytes(text.encode("utf-8"))
+    refused = invoke("envelope", table_stage(tmp_path), "--voltages", "5,20", "--export", mine)
+    assert refused.exit_code == 2 and "--force" in refused.stderr, refused.output
+    assert mine.read_bytes() == text.encode("utf-8")  # byte for byte
+    forced = invoke("envelope", tmp_path / "stage.toml", "--voltages", "5,20", "--export", mine, "--force")
+    assert forced.exit_code == 0, forced.output
+    assert json.loads(mine.read_text(encoding="utf-8"))["written_by"].startswith("soacheck ")
+
+
 def test_an_unknown_export_suffix_is_refused_before_anything_is_written(tmp_path):
     result = invoke("envelope", table_stage(tmp_path), "--voltages", "5,20", "--export", tmp_path / "limits.txt")
     assert result.exit_code == 2, result.output

@@ -110,6 +110,25 @@ def test_text_files_are_marked_by_their_first_line(tmp_path, suffix):
     assert not written_by_soacheck(theirs)
 
 
+@pytest.mark.parametrize(
+    ("text", "ours"),
+    [
+        ('{\n  "written_by": "soacheck 0.1.0",\n  "part": "x"\n}\n', True),
+        ('\ufeff{"written_by":"soacheck 9.9", "points": []}', True),  # another version, a byte-order mark
+        ('{"part": "x", "written_by": "soacheck 0.1.0"}', False),  # not the first key: edited by someone else
+        ('{"written_by": "my own script"}', False),
+        ('{"note": "limits from soacheck 0.1.0"}', False),
+        ('[{"written_by": "soacheck 0.1.0"}]', False),  # not an object
+        ("", False),
+    ],
+)
+def test_json_files_are_marked_by_their_first_key(tmp_path, text, ours):
+    """JSON has no comments: the mark is the object's first key, written_by, naming soacheck."""
+    path = tmp_path / "limits.json"
+    path.write_text(text, encoding="utf-8")
+    assert written_by_soacheck(path) is ours
+
+
 def test_missing_files_folders_and_other_kinds_are_not_soachecks(tmp_path):
     (tmp_path / "notes.txt").write_text("# written by soacheck 0.1.0\n")
     assert not written_by_soacheck(tmp_path / "absent.png")
