@@ -165,6 +165,7 @@ class EnvelopeCheck:
             "margin_to_rating": least_margin(self.margin if self.margin_to_rating is None else self.margin_to_rating),
             "policy": policy_of(self.stage.part.policy).to_dict(),
             "limit": str(self.limit[d, k]),
+            "device": d + 1,
             "worst_voltage": float(self.source_v[k]),
             "worst_current": float(self.total_a[k]),
             "heatsink_temp": float(self.state.sink_c.max()),

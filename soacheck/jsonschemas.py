@@ -194,6 +194,7 @@ ENVELOPE_CHECK_FIELDS = (
     MARGIN_TO_RATING,
     POLICY,
     f("limit", "limit"),
+    f("device", "integer"),
     f("worst_voltage", "number"),
     f("worst_current", "number"),
     f("heatsink_temp", "number"),

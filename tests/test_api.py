@@ -281,6 +281,18 @@ def test_every_result_has_the_same_shape(files, case):
     assert isinstance(result.plot(), Axes)
 
 
+@pytest.mark.parametrize("case", ["discharge", "sweep", "envelope check"])
+def test_tables_and_plots_number_devices_as_the_json_does(files, case):
+    """The first device is Q1 (device 1) in the JSON, the frame and the plot's title alike."""
+    result = CASES[case][1]()
+    payload, frame = result.to_dict(), result.to_frame()
+    assert sorted(frame["device"].unique()) == [1, 2]  # the stage file's count = 2
+    least = frame.loc[frame["margin"].fillna(-math.inf).idxmin()]
+    assert least["device"] == payload["device"] and least["margin"] == pytest.approx(payload["margin"])
+    title = result.plot(ax=Figure().add_subplot()).get_title()
+    assert f"Q{payload['device']}" in title and "device 0" not in title, title
+
+
 def test_compare_plot_needs_an_envelope(files):
     trace_job = soacheck.compare(["ref-bjt"], trace="trace.csv", library="parts")
     with pytest.raises(soacheck.SoacheckError, match="use it with --envelope"):

@@ -27,6 +27,7 @@ from soacheck.api.options import (
 )
 from soacheck.api.stages import load_stage
 from soacheck.derating import BreakdownDerating
+from soacheck.display import device_name
 from soacheck.envelope import Envelope, EnvelopeCheck, SafeEnvelope, check_envelope, largest_safe_envelope
 from soacheck.jobfiles import read_envelope
 from soacheck.jsonvalues import jsonable
@@ -230,7 +231,7 @@ class EnvelopeResult(Result):
         if ax is None:
             return _plots().plot_envelope_check(self.check, breakdown=self.breakdown).axes[0]
         c = self.check
-        d = int(np.argmin(np.min(c.margin, axis=1)))
+        d = c.worst[0]  # the device of the JSON's least margin
         _plots().plot_soa(
             c.stage.part,
             case_temps_c=[float(c.state.case_c[d].max())],
@@ -243,7 +244,7 @@ class EnvelopeResult(Result):
         ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label="envelope edge, this device")
         ax.scatter(v[~ok], i[~ok], color="#c0392b", s=10, zorder=6, label="outside")
         ax.legend(fontsize=7, loc="lower left")
-        ax.set_title(f"{c.stage.part.id}, device {d}: {c.envelope.label}", fontsize=9)
+        ax.set_title(f"{c.stage.part.id}, {device_name(d + 1)}: {c.envelope.label}", fontsize=9)
         return ax
 
 

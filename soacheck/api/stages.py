@@ -28,6 +28,7 @@ from soacheck.battery import MODES, Mode
 from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
 from soacheck.derating import BreakdownDerating
+from soacheck.display import device_name
 from soacheck.errors import SoacheckError, choose
 from soacheck.jobfiles import battery_from
 from soacheck.jsonvalues import jsonable
@@ -355,7 +356,7 @@ class StageRunResult(Result):
         run = self.run
         d = run.worst_device
         temps = sorted({float(run.case_c[d, 0]), float(run.case_c[d].max())})
-        title = f"{self.test}: device {d} (worst)"
+        title = f"{self.test}: {device_name(d + 1)} (worst)"
         return _trajectory_on_soa(
             ax, run.stage.part, run.device_v[d], run.device_a[d], run.time_s, temps, self.breakdown, title
         )
