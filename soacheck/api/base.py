@@ -21,7 +21,7 @@ import math
 from abc import ABC, abstractmethod
 from collections.abc import Iterator
 from types import ModuleType
-from typing import TYPE_CHECKING, Any, Literal
+from typing import TYPE_CHECKING, Any, ClassVar, Literal
 
 import numpy as np
 
@@ -119,6 +119,39 @@ class Result(ABC):
     def __repr__(self) -> str:
         margin = "—" if not math.isfinite(self.margin) else f"{self.margin:+.1%}"
         return f"<{type(self).__name__} {self.verdict}, margin {margin}, limit {self.limit}>"
+
+
+class CheckedResult(Result):
+    """A result that reports what one domain object checked (a stage run, an envelope check).
+
+    The object, held in the attribute that ``_checked`` names, has ``passed``,
+    ``assumptions`` and arrays ``margin`` and ``limit`` of one shape; ``passed`` and
+    ``assumptions`` are its own, ``margin`` and ``limit`` are taken where its margin is least
+    (−inf where nothing is allowed or a point is not evaluated). A subclass overrides what differs.
+    """
+
+    _checked: ClassVar[str]
+    """The name of the attribute that holds the domain object."""
+
+    @property
+    def _found(self) -> Any:
+        return getattr(self, self._checked)
+
+    @property
+    def passed(self) -> bool:
+        return bool(self._found.passed)
+
+    @property
+    def margin(self) -> float:
+        return _least(self._found.margin, self._found.limit)[0]
+
+    @property
+    def limit(self) -> str | None:
+        return _least(self._found.margin, self._found.limit)[1]
+
+    @property
+    def assumptions(self) -> tuple[str, ...]:
+        return tuple(self._found.assumptions)
 
 
 def _trajectory_on_soa(

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any, overload
 
 import numpy as np
 
-from soacheck.api.base import Result, _least, _pd, _plots
+from soacheck.api.base import CheckedResult, Result, _pd, _plots
 from soacheck.api.options import (
     ArrayLike,
     Library,
@@ -167,7 +167,7 @@ def envelope(
 
 
 @dataclass(frozen=True, eq=False, repr=False)
-class EnvelopeResult(Result):
+class EnvelopeResult(CheckedResult):
     """A stage checked along an envelope's upper edge, every device (``envelope --check``).
 
     Attributes
@@ -179,28 +179,14 @@ class EnvelopeResult(Result):
         The second-breakdown derating used, for the plot.
     """
 
+    _checked = "check"
+
     check: EnvelopeCheck
     breakdown: BreakdownDerating = "auto"
 
     @property
     def envelope(self) -> Envelope:
         return self.check.envelope
-
-    @property
-    def passed(self) -> bool:
-        return self.check.passed
-
-    @property
-    def margin(self) -> float:
-        return _least(self.check.margin, self.check.limit)[0]
-
-    @property
-    def limit(self) -> str | None:
-        return _least(self.check.margin, self.check.limit)[1]
-
-    @property
-    def assumptions(self) -> tuple[str, ...]:
-        return tuple(self.check.assumptions)
 
     def to_dict(self) -> dict[str, Any]:
         return jsonable(self.check.summary())

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from soacheck.api.base import Result, _least, _pd, _plots, _trajectory_on_soa
+from soacheck.api.base import CheckedResult, Result, _pd, _plots, _trajectory_on_soa
 from soacheck.api.options import (
     Library,
     PolicyLike,
@@ -274,7 +274,7 @@ def sharing(
 
 
 @dataclass(frozen=True, eq=False, repr=False)
-class StageRunResult(Result):
+class StageRunResult(CheckedResult):
     """A discharge or a sweep through a stage, every device checked along it (``discharge``, ``sweep``).
 
     Attributes
@@ -292,6 +292,8 @@ class StageRunResult(Result):
         demanding safe setpoint on the plot; empty for a sweep.
     """
 
+    _checked = "run"
+
     run: StageRun
     test: str
     extra: dict[str, Any] = field(default_factory=dict)
@@ -299,20 +301,8 @@ class StageRunResult(Result):
     setpoint_unit: str = ""
 
     @property
-    def passed(self) -> bool:
-        return self.run.passed
-
-    @property
-    def margin(self) -> float:
-        return _least(self.run.margin, self.run.limit)[0]
-
-    @property
     def limit(self) -> str | None:
-        return self.run.summary()["limit"] or _least(self.run.margin, self.run.limit)[1]  # type: ignore[return-value]
-
-    @property
-    def assumptions(self) -> tuple[str, ...]:
-        return tuple(self.run.assumptions)
+        return self.run.summary()["limit"] or super().limit  # type: ignore[return-value]
 
     @property
     def max_safe_setpoint(self) -> float | None:
