@@ -426,6 +426,10 @@ def plot_compare(
 ) -> Axes:
     """Candidates' SOAs, each derated at the case temperature its verdict used, with the envelope's edge.
 
+    Each candidate's rated boundary is drawn in its own colour and, for a part under a
+    design-margin policy, the policy's boundary beside it (:func:`draw_policy_boundary`,
+    dotted, in the candidate's colour and named by its id).
+
     ``case_temp_c`` is one temperature for all (cases held at the envelope's case_temp), or
     each candidate's own by part id (in a stage: its hottest case, from
     :func:`soacheck.compare.case_temps_in_stage`); the legend gives each candidate's. With
@@ -437,16 +441,18 @@ def plot_compare(
     ax.set_yscale("log")
     for n, part in enumerate(parts):
         tc = case_temp_c[part.id] if isinstance(case_temp_c, Mapping) else case_temp_c
+        style = series_style(n)
+        duty = 0.0 if np.isinf(envelope.pulse_s) else envelope.duty
+        v_min_v = min(envelope.v_min_v, part.dc_curve.voltage_v[0])
         poly = boundary_polyline(
-            part,
-            tc_c=tc,
-            pulse_s=envelope.pulse_s,
-            duty=0.0 if np.isinf(envelope.pulse_s) else envelope.duty,
-            breakdown=breakdown,
-            v_min_v=min(envelope.v_min_v, part.dc_curve.voltage_v[0]),
+            part.rated, tc_c=tc, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown, v_min_v=v_min_v
         )
         if not poly.is_empty:
-            ax.plot(poly.voltage_v, poly.current_a, lw=1.6, label=f"{part.id}, Tc = {tc:.3g} °C", **series_style(n))
+            ax.plot(poly.voltage_v, poly.current_a, lw=1.6, label=f"{part.id}, Tc = {tc:.3g} °C", **style)
+        draw_policy_boundary(
+            ax, part, [tc], pulse_s=envelope.pulse_s, duty=duty, v_min_v=v_min_v, breakdown=breakdown,
+            color=style["color"], of=part.id,
+        )  # fmt: skip
     v, i = envelope.edge(400)
     i = i / count
     share = "" if count == 1 else f", even share of {count} devices"
@@ -476,14 +482,21 @@ def draw_policy_boundary(
     case_temps_c: Sequence[float],
     *,
     pulse_s: float = DC,
+    duty: float = 0.0,
+    v_min_v: float | None = None,
     breakdown: BreakdownDerating = "auto",
+    color: str | None = None,
+    of: str = "",
 ) -> list[Line2D]:
     """Draw the boundary of the part's design-margin policy beside the rated one, and its voltage limit.
 
     Nothing is drawn for a part without a policy. Each case temperature gets the policy's
-    boundary (:func:`~soacheck.boundary.boundary_polyline` of the part under its policy),
-    dotted and labelled with the policy's name; a policy voltage fraction adds a vertical
-    line at that fraction of v_max. Every line carries the gid :data:`POLICY_GID`.
+    boundary (:func:`~soacheck.boundary.boundary_polyline` of the part under its policy, for
+    pulses of ``pulse_s`` [s] repeated at ``duty`` [1], from ``v_min_v`` [V], by default the
+    curve's first voltage), dotted and labelled with the policy's name; a policy voltage
+    fraction adds a vertical line at that fraction of v_max. Every line carries the gid
+    :data:`POLICY_GID`. ``color`` replaces the policy's colour and ``of`` (a part id) heads
+    the label, where several parts share the axes.
 
     Returns
     -------
@@ -494,16 +507,14 @@ def draw_policy_boundary(
         return []
     drawn = []
     name = part.policy.name
+    style = {**POLICY_STYLE, "color": color or POLICY_STYLE["color"]}
+    v_min_v = part.curve_for(pulse_s).voltage_v[0] if v_min_v is None else v_min_v
     for tc in case_temps_c:
-        poly = boundary_polyline(
-            part, tc_c=tc, pulse_s=pulse_s, breakdown=breakdown, v_min_v=part.curve_for(pulse_s).voltage_v[0]
-        )
+        poly = boundary_polyline(part, tc_c=tc, pulse_s=pulse_s, duty=duty, breakdown=breakdown, v_min_v=v_min_v)
         if poly.is_empty:
             continue
-        label = f"policy '{name}', {format_duration(pulse_s)}, Tc = {tc:.3g} °C"
-        drawn += ax.plot(poly.voltage_v, poly.current_a, **POLICY_STYLE, label=label, gid=POLICY_GID, zorder=4)
+        label = f"{of + ': ' if of else ''}policy '{name}', {format_duration(pulse_s)}, Tc = {tc:.3g} °C"
+        drawn += ax.plot(poly.voltage_v, poly.current_a, **style, label=label, gid=POLICY_GID, zorder=4)
     if part.v_limit == "policy_voltage":
-        drawn.append(
-            ax.axvline(part.v_limit_v, color=POLICY_STYLE["color"], ls=POLICY_STYLE["ls"], lw=1.0, gid=POLICY_GID)
-        )
+        drawn.append(ax.axvline(part.v_limit_v, color=style["color"], ls=style["ls"], lw=1.0, gid=POLICY_GID))
     return drawn

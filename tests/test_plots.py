@@ -14,9 +14,10 @@ import pytest
 
 import soacheck
 from soacheck.jobfiles import read_envelope
-from soacheck.plots import plot_point_check, plot_stage_run, plot_trace
+from soacheck.plots import POLICY_GID, plot_point_check, plot_stage_run, plot_trace
 from soacheck.plotstyle import VIOLATION_GID
 from soacheck.points import check_points
+from soacheck.policy import BENCH, Policy
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 STAGE = EXAMPLES / "stage.toml"
@@ -126,6 +127,65 @@ def test_compare_draws_each_candidate_at_its_case_temperature_in_the_stage_not_t
     assert set(shown) == {"demo-npn-to3-250w", "demo-npn-to220-62w"}
     assert all(tc > 55.0 for tc in shown.values()), shown
     assert "its own hottest case temperature" in ax.get_title()
+
+
+CANDIDATES = ("demo-npn-to3-250w", "demo-npn-to220-62w")
+
+
+def drawn_line(ax, label: str):
+    """The one line of ``ax`` whose legend label starts with ``label``: (voltages, currents)."""
+    (line,) = [line for line in ax.lines if line.get_label().startswith(label)]
+    return np.asarray(line.get_xdata(), dtype=float), np.asarray(line.get_ydata(), dtype=float)
+
+
+def rated_over_policy(rated, policy) -> np.ndarray:
+    """Rated current over policy current at every vertex of either line within the policy's voltages.
+
+    Both lines are straight between vertices on log-log axes, so interpolating log i over
+    log v between them is exact.
+    """
+    (rv, ri), (pv, pi) = rated, policy
+    v = np.unique(np.concatenate([pv, rv[(rv >= pv[0]) & (rv <= pv[-1])]]))
+
+    def at(vv: np.ndarray, ii: np.ndarray) -> np.ndarray:
+        return 10 ** np.interp(np.log10(v), np.log10(vv), np.log10(ii))
+
+    return at(rv, ri) / at(pv, pi)
+
+
+@pytest.mark.parametrize(
+    "policy",
+    [Policy("current only", current_fraction=0.8), BENCH],
+    ids=["current-fraction", "bench"],
+)
+def test_compare_draws_each_candidate_rated_boundary_above_its_policy_boundary(tmp_path, policy):
+    """compare's plot draws, per candidate, the rated boundary and the policy's beside it (gid policy-boundary).
+
+    The policy's boundary is its current_fraction times the boundary derated to its junction
+    ceiling and power fraction (policy.py; P = (T_ceiling - Tc)/Rth on constant-power lines,
+    JEDEC JESD51-1), and a lower ceiling or power fraction only lowers it further. So the
+    rated line lies at or above the policy line by 1/current_fraction = 1/0.8 = 1.25 at every
+    voltage both cover, exactly 1.25 for a policy with a current fraction alone; the policy
+    line ends at voltage_fraction x v_max (bench: 0.8), the rated one at v_max. Cases held at
+    60 °C, below either part's tj_max and bench's 125 °C ceiling, so both lines are drawn.
+    """
+    envelope = tmp_path / "envelope.toml"
+    envelope.write_text('voltage = [5, 42]\ncurrent = 10\npower = 150\npulse = "dc"\ncase_temp = 60\n')
+    result = soacheck.compare(list(CANDIDATES), envelope=envelope, policy=policy)
+    ax = result.plot()
+    expected = 1.0 / policy.current_fraction
+    for part in result.parts:
+        rated = drawn_line(ax, f"{part.id}, Tc = 60 °C")
+        policy_line = drawn_line(ax, f"{part.id}: policy '{policy.name}'")
+        (policy_object,) = [line for line in ax.lines if line.get_label().startswith(f"{part.id}: policy")]
+        assert policy_object.get_gid() == POLICY_GID
+        ratio = rated_over_policy(rated, policy_line)
+        if policy.tj_ceiling_c is None and policy.power_fraction is None:
+            assert ratio == pytest.approx(expected, rel=1e-9), ratio  # the current fraction alone
+        else:
+            assert np.all(ratio >= expected * (1 - 1e-9)), ratio  # a lower ceiling lowers it further
+        assert rated[0][-1] == pytest.approx(part.ratings.v_max_v, rel=1e-9)
+        assert policy_line[0][-1] == pytest.approx(policy.voltage_factor * part.ratings.v_max_v, rel=1e-9)
 
 
 def test_a_passing_envelope_plot_shows_no_outside_entry_and_no_violation_mark():
