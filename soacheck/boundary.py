@@ -230,7 +230,14 @@ def allowed_current(
     )
     n = v.size
     allowed = np.full(n, np.nan)
-    limit = np.full(n, "invalid", dtype=object)
+    names = ["invalid"]  # each limit as a code into names: no array of a million Python strings
+
+    def code(name: str) -> int:
+        if name not in names:
+            names.append(name)
+        return names.index(name)
+
+    limit = np.zeros(n, dtype=np.intp)
     curve_pulse = np.full(n, np.nan)
     modelled = np.zeros(n, dtype=bool)
     below = np.zeros(n, dtype=bool)
@@ -264,7 +271,7 @@ def allowed_current(
                 stacked = _derated_lines(log_v[sel], tc[sel], part, bound.lines, breakdown)
             log_i, which = _lower_envelope(stacked)
             allowed[sel] = np.exp(log_i)
-            limit[sel] = np.array([line.mechanism for line in bound.lines], dtype=object)[which]
+            limit[sel] = np.array([code(line.mechanism) for line in bound.lines])[which]
             curve_pulse[sel] = bound.curve.pulse_s
             modelled[sel] = bound.modelled
             below[sel] = v[sel] < bound.curve.voltage_v[0] * (1 - 1e-9)
@@ -281,15 +288,16 @@ def allowed_current(
             beyond_case_k_per_w=beyond_case_k_per_w,
         )
         over = np.flatnonzero(standing)[idle[standing] > dc.current_a]
-        allowed[over], limit[over] = 0.0, dc.limit[idle[standing] > dc.current_a]
+        written, which = np.unique(dc.limit[idle[standing] > dc.current_a], return_inverse=True)
+        allowed[over], limit[over] = 0.0, np.array([code(name) for name in written.tolist()], dtype=np.intp)[which]
 
     too_hot = valid & (tc >= part.tj_limit_c)
     allowed[too_hot] = 0.0
-    limit[too_hot] = np.where(tc[too_hot] >= part.ratings.tj_max_c, "case_at_tj_max", part.tj_limit)
+    limit[too_hot] = np.where(tc[too_hot] >= part.ratings.tj_max_c, code("case_at_tj_max"), code(part.tj_limit))
     over_v = valid & (v > part.v_limit_v)
     allowed[over_v], above[over_v] = 0.0, False
-    limit[over_v] = np.where(v[over_v] > part.ratings.v_max_v, "voltage", part.v_limit)
-    return Allowed(allowed, limit.astype(str), curve_pulse, modelled, below, above)
+    limit[over_v] = np.where(v[over_v] > part.ratings.v_max_v, code("voltage"), code(part.v_limit))
+    return Allowed(allowed, np.array(names)[limit], curve_pulse, modelled, below, above)
 
 
 @dataclass(frozen=True, eq=False)

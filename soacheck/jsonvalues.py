@@ -9,8 +9,12 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    import numpy as np
 
 
 def jsonable(value: Any) -> Any:
@@ -35,38 +39,40 @@ def json_text(payload: dict[str, Any]) -> str:
     return json.dumps(jsonable(payload), indent=2, ensure_ascii=False)
 
 
-RECORDS_PER_CHUNK = 50_000
-"""Rows of a table turned into JSON text at a time when streaming (bounds the memory used)."""
-
-
 def json_chunks(payload: dict[str, Any]) -> Iterator[str]:
     """The JSON text of ``payload`` in pieces, with tables written row by row.
 
-    Like :func:`json_text`, except that a value that is a :class:`pandas.DataFrame` becomes an
-    array with one compact object per row, one row a line, produced ``RECORDS_PER_CHUNK``
-    rows at a time by orjson (the same numbers as :mod:`json`, shortest round-trip form;
-    NaN and infinities ``null``). A million rows are written in seconds and in bounded
-    memory, where one list of dicts through :mod:`json` takes minutes and gigabytes.
+    Like :func:`json_text`, except that a value that is a table, a
+    :class:`pandas.DataFrame` or a :class:`Columns`, becomes an array with one compact
+    object per row, one row a line, written by :func:`soacheck.jsonrows.json_rows` (the
+    same numbers as :mod:`json`, shortest round-trip form; NaN and infinities ``null``).
+    A million rows are written in a second or two and in bounded memory, where one list of
+    dicts through :mod:`json` takes minutes and gigabytes.
     """
-    import orjson
+    from soacheck.jsonrows import json_rows
 
-    tables = {key: value for key, value in payload.items() if hasattr(value, "to_json")}
+    tables = {key: value for key, value in payload.items() if isinstance(value, Columns) or hasattr(value, "to_json")}
     plain = {key: (None if key in tables else value) for key, value in payload.items()}
     text = json_text(plain)
-    for key, frame in tables.items():  # each placeholder is the only `"key": null` at the top level
+    for key, table in tables.items():  # each placeholder is the only `"key": null` at the top level
         marker = f"\n  {json.dumps(key, ensure_ascii=False)}: null"
         head, text = text.split(marker, 1)
         yield head + marker[:-4]
-        if len(frame) == 0:
+        arrays = table.arrays if isinstance(table, Columns) else {str(k): table[k].to_numpy() for k in table.columns}
+        rows = json_rows(arrays)
+        first = next(rows, None)
+        if first is None:
             yield "[]"
             continue
-        yield "[\n"
-        for start in range(0, len(frame), RECORDS_PER_CHUNK):
-            names = [str(name) for name in frame.columns]
-            columns = [frame[name].iloc[start : start + RECORDS_PER_CHUNK].tolist() for name in frame.columns]
-            lines = b",\n    ".join(
-                orjson.dumps(dict(zip(names, row, strict=True))) for row in zip(*columns, strict=True)
-            )
-            yield ("    " if start == 0 else ",\n    ") + lines.decode()
+        yield "[\n" + first.decode()
+        for piece in rows:
+            yield piece.decode()
         yield "\n  ]"
     yield text
+
+
+@dataclass(frozen=True, eq=False)
+class Columns:
+    """A table for :func:`json_chunks` as its columns: name → array ``(n,)``, in the order written."""
+
+    arrays: dict[str, np.ndarray]

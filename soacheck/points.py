@@ -71,40 +71,50 @@ class PointCheck:
         """
         import pandas as pd  # deferred: a command that prints no table starts without it
 
+        columns = self.columns(rows)
+        # None for DC and single pulses: a duty only means something for a pulse train
+        duty = columns["duty"]
+        columns["duty"] = pd.Series(np.where(np.isnan(duty), None, duty), dtype=object)
+        return pd.DataFrame(columns)
+
+    def columns(self, rows: np.ndarray | None = None) -> dict[str, np.ndarray]:
+        """The columns of :meth:`to_frame` as arrays ``(n,)``, in order; ``duty`` NaN where the frame has None.
+
+        What ``--json`` writes row by row (:func:`soacheck.jsonrows.json_rows`), without pandas.
+        """
         if rows is not None:
             arrays = {
                 f.name: getattr(self, f.name)[rows]
                 for f in fields(self)
                 if isinstance(getattr(self, f.name), np.ndarray)
             }
-            return replace(self, **arrays).to_frame()
-        frame = pd.DataFrame(
-            {
-                "voltage": self.voltage_v,
-                "current": self.current_a,
-                "case_temp": self.tc_c,
-                "pulse": _durations(self.pulse_s),
-                # null for DC and single pulses: a duty only means something for a pulse train
-                "duty": pd.Series(np.where((self.duty > 0) & np.isfinite(self.pulse_s), self.duty, None), dtype=object),
-                "idle_current": self.idle_current_a,
-                "inside": self.inside,
-                "allowed_current": self.allowed_current_a,
-                "margin": self.margin,
-                "overload": overload(self.margin),
-                "limit": self.limit,
-                "curve": _durations(self.curve_pulse_s),
-                "extrapolated": self.extrapolated,
-            }
-        )
-        to_rating = self.margin if self.margin_to_rating is None else self.margin_to_rating
-        frame.insert(frame.columns.get_loc("margin") + 1, "margin_to_rating", to_rating)
-        return frame
+            return replace(self, **arrays).columns()
+        train = (self.duty > 0) & np.isfinite(self.pulse_s)
+        return {
+            "voltage": self.voltage_v,
+            "current": self.current_a,
+            "case_temp": self.tc_c,
+            "pulse": _durations(self.pulse_s),
+            "duty": np.where(train, self.duty, np.nan),
+            "idle_current": self.idle_current_a,
+            "inside": self.inside,
+            "allowed_current": self.allowed_current_a,
+            "margin": self.margin,
+            "margin_to_rating": self.margin if self.margin_to_rating is None else self.margin_to_rating,
+            "overload": overload(self.margin),
+            "limit": self.limit,
+            "curve": _durations(self.curve_pulse_s),
+            "extrapolated": self.extrapolated,
+        }
 
 
 def _durations(seconds: np.ndarray) -> np.ndarray:
     """Each duration as written (``dc``, ``1ms``), "" for NaN; each distinct value formatted once. [s]"""
-    distinct, which = np.unique(seconds, return_inverse=True)
-    text = np.array([format_duration(t) if not math.isnan(t) else "" for t in distinct.tolist()], dtype=object)
+    if seconds.size and np.all(seconds == seconds[0]):  # the common case: one condition for every point
+        distinct, which = seconds[:1], np.zeros(seconds.size, dtype=np.intp)
+    else:
+        distinct, which = np.unique(seconds, return_inverse=True)
+    text = np.array([format_duration(t) if not math.isnan(t) else "" for t in distinct.tolist()], dtype=str)
     return text[np.ravel(which)]
 
 

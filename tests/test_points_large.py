@@ -115,3 +115,43 @@ def test_decimal_commas_read_as_before(tmp_path):
     result = runner.invoke(app, ["check", str(part), "--points", str(points), "--json"])
     assert result.exit_code == 0, result.output
     assert json.loads(result.stdout)["points"][0]["current"] == 3.5
+
+
+def _rows_one_by_one(columns: dict) -> bytes:
+    """The obvious writer: each row a dict, encoded by orjson, joined as json_rows joins them."""
+    import orjson
+
+    names = list(columns)
+    lists = [np.asarray(columns[name]).tolist() for name in names]
+    return b"    " + b",\n    ".join(
+        orjson.dumps(dict(zip(names, row, strict=True))) for row in zip(*lists, strict=True)
+    )
+
+
+@pytest.mark.parametrize("rows_per_chunk", [1, 7, 1000])
+def test_json_rows_equal_a_dict_per_row(rows_per_chunk):
+    """The column-at-once writer against the one-dict-a-row one, byte for byte, across chunk edges."""
+    import orjson
+
+    from soacheck.jsonrows import json_rows
+
+    rng = np.random.default_rng(7)
+    n = 120
+    edge = np.array([math.nan, math.inf, -math.inf, -0.0, 1e-300, 5e-324, 1e16, 1 / 3, 123456789.0, 0.1])
+    columns = {
+        "many": np.concatenate([edge, rng.normal(size=n - edge.size) * 10.0 ** rng.integers(-8, 8, n - edge.size)]),
+        "constant": np.full(n, 40.0),
+        "few": rng.choice([25.0, 60.0, math.nan], n),
+        "count": rng.integers(-5, 10**12, n),
+        "flag": rng.random(n) < 0.5,
+        "all_false": np.zeros(n, dtype=bool),
+        "limit": rng.choice(["power", "current", "second_breakdown", "°C", 'a"b'], n),
+        "names": np.array([f"row {k}" for k in range(n)]),  # more distinct texts than FEW_DISTINCT
+        "maybe": np.array([None if k % 3 else k / 7 for k in range(n)], dtype=object),
+        "single": np.float32(np.linspace(0.1, 2.0, n)),
+    }
+    fast = b"".join(json_rows(columns, rows_per_chunk=rows_per_chunk))
+    reference = {**columns, "single": columns["single"].astype(float)}  # float32 written as its float64 value
+    assert fast == _rows_one_by_one(reference)
+    assert [orjson.loads(line.rstrip(b",")) for line in fast.split(b"\n")][2]["count"] == columns["count"][2]
+    assert b"".join(json_rows({"x": np.array([])})) == b""
