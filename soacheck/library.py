@@ -66,6 +66,37 @@ def list_parts(folders: Sequence[Path]) -> list[LibraryEntry]:
     return sorted(seen.values(), key=lambda e: e.id)
 
 
+PART_COLUMNS = ("id", "kind", "v_max", "i_max", "p_max", "tj_max", "rth_jc", "curves", "description", "folder")
+"""The columns of :func:`part_rows` (and of :func:`soacheck.parts`), in order."""
+
+
+def part_rows(folders: Sequence[Path]) -> list[dict[str, Any]]:
+    """Every part in ``folders`` (the first of each id, sorted by id) as one plain dict a part.
+
+    Keys :data:`PART_COLUMNS`: ``v_max`` [V], ``i_max`` [A], ``p_max`` [W], ``tj_max`` [°C],
+    ``rth_jc`` [K/W], ``curves`` (pulse labels, DC last), ``folder`` as text. What
+    ``soacheck parts`` prints, without pandas.
+    """
+    rows = []
+    for entry in list_parts(folders):
+        p = read_part(entry.folder)
+        rows.append(
+            {
+                "id": p.id,
+                "kind": p.kind,
+                "v_max": p.ratings.v_max_v,
+                "i_max": p.ratings.i_max_a,
+                "p_max": p.ratings.p_max_w,
+                "tj_max": p.ratings.tj_max_c,
+                "rth_jc": p.ratings.rth_jc_k_per_w,
+                "curves": [c.label for c in p.curves],
+                "description": p.description,
+                "folder": str(p.folder),
+            }
+        )
+    return rows
+
+
 def find_part_folder(ref: str, folders: Sequence[Path]) -> Path:
     """The folder of a part given by id (searched in ``folders``) or by path, without reading it."""
     path = Path(ref)

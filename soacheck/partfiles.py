@@ -169,10 +169,7 @@ def read_transfer(path: Path) -> TransferCurves:
     voltage, with the current above zero and rising with the gate voltage.
     """
     table = read_table(path, numeric=("temp", "vgs", "current"), positive=("current",))
-    frame = table.frame
-    temp = frame["temp"].to_numpy()
-    vgs = frame["vgs"].to_numpy()
-    current = frame["current"].to_numpy()
+    temp, vgs, current = (table.columns[name] for name in ("temp", "vgs", "current"))
     temps = np.unique(temp)
     if temps.size < 2:
         raise SoacheckError(
@@ -227,17 +224,15 @@ def read_soa_curves(path: Path, *, kind: str, ratings: Ratings) -> tuple[SoaCurv
     within ±0.15 on log-log axes).
     """
     table = read_table(path, numeric=("voltage", "current"), text=("pulse",), positive=("voltage", "current"))
-    frame = table.frame
-    pulse_s = np.array([parse_duration(p, where=table.where(i) + ": pulse") for i, p in enumerate(frame["pulse"])])
-    voltage = frame["voltage"].to_numpy()
-    current = frame["current"].to_numpy()
+    pulse, voltage, current = (table.columns[name] for name in ("pulse", "voltage", "current"))
+    pulse_s = np.array([parse_duration(p, where=table.where(i) + ": pulse") for i, p in enumerate(pulse)])
     may_rise_at_start = kind not in ("npn", "pnp")
     file_lines = table.lines
     curves = []
     for width in np.unique(pulse_s):
         rows = np.flatnonzero(pulse_s == width)
         v, i = voltage[rows], current[rows]
-        label = frame["pulse"].iloc[rows[0]]
+        label = pulse[rows[0]]
         if rows.size < 2:
             raise SoacheckError(f"{table.where(int(rows[0]))}: curve '{label}' has one point; digitize at least two")
         dv = np.diff(v)
@@ -287,8 +282,7 @@ def read_zth(path: Path) -> tuple[np.ndarray, np.ndarray]:
     spreads further); both must be above zero.
     """
     table = read_table(path, numeric=("time", "zth"), positive=("time", "zth"))
-    t = table.frame["time"].to_numpy()
-    z = table.frame["zth"].to_numpy()
+    t, z = table.columns["time"], table.columns["zth"]
     if t.size < 2:
         raise SoacheckError(f"{path}: a Zth curve needs at least two points")
     step = np.flatnonzero(np.diff(t) <= 0)

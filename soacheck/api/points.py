@@ -29,9 +29,8 @@ from soacheck.boundary import allowed_current as boundary_allowed_current
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import read_points
-from soacheck.jsonvalues import json_chunks, jsonable
-from soacheck.library import find_part, list_parts
-from soacheck.partfiles import read_part
+from soacheck.jsonvalues import Columns, json_chunks, jsonable
+from soacheck.library import PART_COLUMNS, find_part, part_rows
 from soacheck.parts import Part
 from soacheck.points import PointCheck, check_points
 from soacheck.policy import least_margin, policy_of
@@ -88,26 +87,7 @@ def parts(*, library: Library = None) -> pd.DataFrame:
     """
     import pandas as pd
 
-    loaded = [read_part(entry.folder) for entry in list_parts(_folders(library))]
-    columns = ["id", "kind", "v_max", "i_max", "p_max", "tj_max", "rth_jc", "curves", "description", "folder"]
-    return pd.DataFrame(
-        [
-            {
-                "id": p.id,
-                "kind": p.kind,
-                "v_max": p.ratings.v_max_v,
-                "i_max": p.ratings.i_max_a,
-                "p_max": p.ratings.p_max_w,
-                "tj_max": p.ratings.tj_max_c,
-                "rth_jc": p.ratings.rth_jc_k_per_w,
-                "curves": [c.label for c in p.curves],
-                "description": p.description,
-                "folder": str(p.folder),
-            }
-            for p in loaded
-        ],
-        columns=columns,
-    )
+    return pd.DataFrame(part_rows(_folders(library)), columns=list(PART_COLUMNS))
 
 
 @overload
@@ -356,7 +336,7 @@ class CheckResult(Result):
 
     def json_chunks(self) -> Iterator[str]:
         """The JSON text with the points streamed one compact row a line (a million in seconds)."""
-        return json_chunks(self._payload(self.to_frame()))
+        return json_chunks(self._payload(Columns(self.points.columns())))
 
     def plot(self, ax: Axes | None = None) -> Axes:
         """The points over the boundary at the case temperatures and the pulse width they were checked at."""

@@ -4,23 +4,11 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
-import numpy as np
 import typer
 from rich.markup import escape
 
-from soacheck.authoring import (
-    check_part_id,
-    curve_rows,
-    follow_colour,
-    parse_colour,
-    parse_seed,
-    part_toml,
-    pixels_to_values,
-    soa_from_ratings,
-)
-from soacheck.calibration import AxisCalibration, parse_range
 from soacheck.cli.base import (
     ForceOpt,
     JsonOpt,
@@ -31,19 +19,12 @@ from soacheck.cli.base import (
     output_path,
     user_errors,
 )
-from soacheck.csvtables import read_table
 from soacheck.errors import SoacheckError
-from soacheck.images import read_image
-from soacheck.partfiles import (
-    PART_FILE,
-    SOA_FILE,
-    ZTH_FILE,
-    add_curve,
-    add_curves,
-    write_new_part,
-    write_output,
-    write_zth,
-)
+
+if TYPE_CHECKING:  # numpy and the domain modules load when a command runs, not for --help
+    import numpy as np
+
+    from soacheck.calibration import AxisCalibration
 
 
 @app.command()
@@ -95,6 +76,12 @@ def digitize(
     force: ForceOpt = False,
 ) -> None:
     """Turn a datasheet plot into soa.csv (or zth.csv) rows: trace its curves, follow a colour, or use picked pixels."""
+    from soacheck.authoring import follow_colour, parse_colour, pixels_to_values
+    from soacheck.calibration import AxisCalibration
+    from soacheck.csvtables import read_table
+    from soacheck.images import read_image
+    from soacheck.partfiles import SOA_FILE, ZTH_FILE, add_curve, write_zth
+
     target = output_path(into or Path(ZTH_FILE if zth else SOA_FILE), "--into", force=True, suffixes=(".csv",))
     if trace:
         if image is None:
@@ -136,6 +123,9 @@ def digitize(
 
 def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overlay, target, force) -> None:
     """Trace each seeded curve in the picture and add it to ``target``."""
+    from soacheck.authoring import parse_seed
+    from soacheck.images import read_image
+    from soacheck.partfiles import add_curves, write_zth
     from soacheck.picture import find_frame, grey_levels
     from soacheck.tracing import trace_curves
     from soacheck.vertices import SIMPLIFY_DECADES
@@ -174,6 +164,7 @@ def _trace(image, trace, x, y, x_range, y_range, linear_x, linear_y, zth, overla
 
 def _axis(ticks, value_range, option, grey, frame, *, vertical) -> AxisCalibration:
     """An axis from pixel ticks, or from its range put on the frame's edges and checked against the grid."""
+    from soacheck.calibration import AxisCalibration, parse_range
     from soacheck.tracing import framed_axis
 
     if ticks and value_range:
@@ -191,6 +182,7 @@ def _write_overlay(path: Path, picture: np.ndarray, curves) -> None:
     import io
 
     from soacheck.filemarks import figure_metadata
+    from soacheck.partfiles import write_output
     from soacheck.tracing import plot_overlay
 
     buffer = io.BytesIO()
@@ -206,6 +198,9 @@ def _pick_on_screen(image: Path) -> tuple[np.ndarray, np.ndarray]:
             "the picked pixels as a CSV with columns x,y and pass it as POINTS, or follow a curve with --colour"
         )
     import matplotlib.pyplot as plt
+    import numpy as np
+
+    from soacheck.images import read_image
 
     fig, ax = plt.subplots()
     ax.imshow(read_image(image))
@@ -269,6 +264,9 @@ def new_part(
     ] = False,
 ) -> None:
     """Write part.toml, and a DC curve synthesized from the ratings unless the folder already holds curves."""
+    from soacheck.authoring import check_part_id, curve_rows, part_toml, soa_from_ratings
+    from soacheck.partfiles import PART_FILE, SOA_FILE, write_new_part
+
     if library:
         raise SoacheckError("new-part: -L/--library is a search path; give the folder to write into with --into DIR")
     check_part_id(part_id)

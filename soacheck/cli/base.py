@@ -12,21 +12,23 @@ import os
 import sys
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import numpy as np
 import typer
 from rich.console import Console
 from typer.core import TyperGroup
 
 from soacheck import __version__
-from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, choose
 from soacheck.jsonvalues import json_chunks
-from soacheck.library import find_part, library_folders
 from soacheck.outputs import check_output
-from soacheck.parts import Part
-from soacheck.quantities import Quantity
+
+if TYPE_CHECKING:  # numpy and the domain modules load when a command runs, not for --help
+    import numpy as np
+
+    from soacheck.derating import BreakdownDerating
+    from soacheck.parts import Part
+    from soacheck.quantities import Quantity
 
 
 def _plain_metavar(param) -> str:
@@ -208,14 +210,20 @@ def breakdown_option(text: str) -> BreakdownDerating:
 
 
 def part_option(ref: str, library: list[Path] | None) -> Part:
+    from soacheck.library import find_part, library_folders
+
     return find_part(ref, library_folders(library or []))
 
 
 def echo_result_json(result: Any) -> None:
-    """Print a result's ``--json`` text as it is produced (a large result streams its rows)."""
+    """Print a result's ``--json`` text as it is produced (a large result streams its rows).
+
+    Written to stdout as it is: ``typer.echo`` would search every piece for colour codes.
+    """
+    out = sys.stdout
     for chunk in result.json_chunks():
-        typer.echo(chunk, nl=False)
-    typer.echo("")
+        out.write(chunk)
+    out.write("\n")
 
 
 def echo_json(payload: dict[str, Any]) -> None:
@@ -246,6 +254,8 @@ def output_path(
 
 def number_list(text: str, option: str, example: str, quantity: Quantity) -> np.ndarray:
     """Comma-separated values of one quantity from an option, such as ``25,75,125``; one clear error otherwise."""
+    import numpy as np
+
     try:
         values = np.array([float(x) for x in text.split(",") if x.strip()])
     except ValueError:

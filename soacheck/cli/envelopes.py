@@ -37,8 +37,6 @@ from soacheck.cli.tables import (
 from soacheck.display import limit_text
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.limit_table import export_writer
-from soacheck.quantities import VOLTAGE
 
 
 @app.command()
@@ -104,6 +102,9 @@ def envelope(
                 else "[bold red]FAIL[/]: part of the envelope lies outside"
             )
         raise typer.Exit(0 if result.passed else 1)
+    from soacheck.limit_table import export_writer
+    from soacheck.quantities import VOLTAGE
+
     if export is not None:
         export_writer(export.suffix)
         output_path(export, "--export", force=force)

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
-import numpy as np
 import typer
 from rich.console import Console
 
@@ -29,9 +29,12 @@ from soacheck.cli.base import (
 )
 from soacheck.cli.tables import Column, named_column, print_assumptions, print_table, verdict_cells
 from soacheck.filemarks import save_figure
-from soacheck.points import PointCheck
-from soacheck.quantities import TEMPERATURE
 from soacheck.units import parse_duration
+
+if TYPE_CHECKING:  # numpy and the domain modules load when a command runs, not for --help
+    import numpy as np
+
+    from soacheck.points import PointCheck
 
 TABLE_ROWS = 20
 """Rows a point table shows without ``--all-rows``: the worst ones."""
@@ -43,6 +46,8 @@ def worst_rows(result: PointCheck, count: int) -> np.ndarray:
     A point not evaluated (margin NaN) comes first among its kind; equal points keep the
     file's order. A partial sort: linear in the number of points.
     """
+    import numpy as np
+
     # outside: margin < 0, or -inf when nothing is allowed; inside: 10 + margin in [9, 11]
     key = np.where(
         result.inside, 10.0 + np.nan_to_num(result.margin, nan=-1.0), np.nan_to_num(result.margin, nan=-np.inf)
@@ -57,15 +62,18 @@ def worst_rows(result: PointCheck, count: int) -> np.ndarray:
 
 def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False) -> None:
     """The points as a table that fits the terminal: verdict, margin, overload, limit and allowed always whole."""
+    import numpy as np
+
     total = result.inside.size
     subset = not all_rows and total > TABLE_ROWS
     under = "" if result.policy is None else f" under policy '{result.policy.name}'"
     title = f"{result.part_id}: operating points{under}" + (f", the {TABLE_ROWS} worst of {total}" if subset else "")
     chosen = worst_rows(result, TABLE_ROWS) if subset else np.arange(total)
-    frame = result.to_frame(chosen)
-    rows = frame.to_dict(orient="records")
-    outside = not bool(frame["inside"].all())
-    limits = [r["limit"] + ("*" if r["extrapolated"] else "") for r in rows]
+    frame = {name: values.tolist() for name, values in result.columns(chosen).items()}  # no pandas for a table
+    outside = not all(frame["inside"])
+    limits = [
+        limit + ("*" if beyond else "") for limit, beyond in zip(frame["limit"], frame["extrapolated"], strict=True)
+    ]
     point, styles = verdict_cells(frame["inside"], inside=True)
     columns = [Column("#", [str(k + 1) for k in chosen], essential=True)] if subset else []
     columns += [
@@ -74,9 +82,9 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
         named_column("case_temp", frame["case_temp"], rank=4),
         Column("pulse", list(frame["pulse"]), rank=3, justify="left"),
     ]
-    if frame["duty"].notna().any():  # duty only means something for pulse trains
+    if not all(math.isnan(duty) for duty in frame["duty"]):  # duty only means something for pulse trains
         columns.append(named_column("duty", frame["duty"], rank=2))
-    if (frame["idle_current"] > 0).any():
+    if any(idle > 0 for idle in frame["idle_current"]):
         columns.append(named_column("idle_current", frame["idle_current"], rank=1))
     columns += [
         Column("curve", list(frame["curve"]), rank=0, justify="left"),
@@ -92,7 +100,7 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
         Column("point", point, essential=True, justify="left", styles=styles),
     ]
     print_table(console, title, columns)
-    if any(r["extrapolated"] for r in rows):
+    if any(frame["extrapolated"]):
         console.print("  * beyond the digitized voltage range (conservative)", highlight=False, markup=False)
     if subset:
         _print_summary(console, result)
@@ -107,6 +115,8 @@ def _print_check(console: Console, result: PointCheck, *, all_rows: bool = False
 
 def _print_summary(console: Console, result: PointCheck) -> None:
     """All points in a few lines: how many are outside, by limit, and the least margin."""
+    import numpy as np
+
     outside = ~result.inside
     limits, counts = np.unique(result.limit[outside], return_counts=True)
     ranked = np.argsort(-counts, kind="stable")
@@ -187,9 +197,9 @@ def check(
 @user_errors
 def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     """List the parts in the libraries, first match of each id."""
-    import soacheck
+    from soacheck.library import library_folders, part_rows  # soacheck.parts() without its DataFrame
 
-    rows = soacheck.parts(library=library).to_dict(orient="records")
+    rows = part_rows(library_folders(library or []))
     if as_json:
         echo_json({"parts": rows})
         return
@@ -233,6 +243,7 @@ def show(
 
         checked = soacheck.check(loaded, points=points, pulse=pulse, breakdown=breakdown).points
     from soacheck.plots import plot_soa  # matplotlib: only when plotting
+    from soacheck.quantities import TEMPERATURE
 
     ax = plot_soa(
         loaded,

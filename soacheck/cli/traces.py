@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.console import Console
@@ -26,9 +26,9 @@ from soacheck.cli.base import (
 from soacheck.cli.tables import Column, named_column, print_table, quantity_table, under_policy, verdict_cells
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
-from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
-from soacheck.stage import Cooling
-from soacheck.trace import TraceResult
+
+if TYPE_CHECKING:  # the domain modules load when a command runs, not for --help
+    from soacheck.trace import TraceResult
 
 
 @app.command()
@@ -88,6 +88,9 @@ def trace(
             raise SoacheckError("a heatsink needs both --heatsink-rth (K/W) and --heatsink-capacity (J/K)")
         if case_temp is not None:
             raise SoacheckError("give either --case-temp or a heatsink, not both")
+        from soacheck.quantities import HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
+        from soacheck.stage import Cooling
+
         cooling = Cooling(
             INTERFACE_RESISTANCE.check(interface_rth, "--interface-rth"),
             THERMAL_RESISTANCE.check(heatsink_rth, "--heatsink-rth"),
