@@ -91,3 +91,25 @@ def test_a_plain_number_reads_to_the_correctly_rounded_float(tmp_path):
     assert columns is not None
     np.testing.assert_array_equal(columns["voltage"], [0.1, 123456789012345.0])
     np.testing.assert_array_equal(columns["current"], [30.0, 0.5])
+
+
+@pytest.mark.parametrize(("json_flag", "rows"), [(["--json"], 20_000), ([], 2_000)], ids=["json", "table"])
+def test_a_reader_that_stops_early_ends_the_command_quietly(tmp_path, json_flag, rows):
+    """``soacheck check ... | head -1`` through a real pipe: no traceback, no "internal error", exit 141.
+
+    141 = 128 + SIGPIPE (13), what a shell reports for a Unix tool stopped by a closed pipe
+    (POSIX shell, "Exit Status for Commands"); common practice, no source for the choice.
+    """
+    points = tmp_path / "points.csv"
+    points.write_text("voltage,current\n" + "20,1\n" * rows)  # more text than a pipe's buffer (64 kB)
+    command = [sys.executable, "-m", "soacheck", "check", "demo-npn-to3-250w", "--points", str(points), "--all-rows"]
+    env = {**os.environ, "COLUMNS": "100", "PYTHONPATH": str(ROOT), "SOACHECK_LIBRARY": ""}
+    with subprocess.Popen(
+        [*command, *json_flag], cwd=ROOT, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE
+    ) as child:
+        assert child.stdout is not None and child.stderr is not None
+        child.stdout.readline()
+        child.stdout.close()  # the reader goes away, as head does
+        errors = child.stderr.read().decode()
+        assert child.wait(timeout=120) == 141, errors
+    assert errors == ""

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import contextlib
 import functools
+import io
 import os
 import sys
 from collections.abc import Callable, Iterator, Sequence
@@ -147,6 +148,8 @@ def user_errors(command):
         except SoacheckError as err:
             typer.echo(f"soacheck: error: {err}", err=True)
             raise typer.Exit(2) from None
+        except BrokenPipeError:  # the reader went away (`soacheck ... --json | head -1`): not a bug
+            raise typer.Exit(_closed_pipe()) from None
         except (typer.Exit, typer.Abort, typer.TyperException, KeyboardInterrupt, SystemExit):
             # typer's own exits and usage errors (TyperException is the base of its bundled click's errors)
             raise
@@ -161,8 +164,35 @@ def user_errors(command):
     return wrapper
 
 
+CLOSED_PIPE_EXIT = 141
+"""Exit code when stdout's reader closed the pipe: 128 + SIGPIPE (13), what a shell reports for any
+Unix tool stopped that way (``yes | head -1``). Not 1: that is soacheck's "unsafe"."""
+
+
+def _closed_pipe() -> int:
+    """Stop writing quietly after the reader closed stdout; the exit code to end with.
+
+    Python's own advice for SIGPIPE (the ``signal`` module's documentation, "Note on
+    SIGPIPE"): point stdout at devnull, so that the flush at exit cannot fail again.
+    """
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError, io.UnsupportedOperation):  # no file behind stdout (a test runner)
+        pass
+    return CLOSED_PIPE_EXIT
+
+
+class _Console(Console):
+    """rich's console, ending with :data:`CLOSED_PIPE_EXIT` when stdout's reader goes away (rich's own exit is 1)."""
+
+    def on_broken_pipe(self) -> None:  # noqa: D102
+        self.quiet = True
+        raise typer.Exit(_closed_pipe())
+
+
 def console_for_output() -> Console:
-    return Console(width=int(os.environ.get("COLUMNS", "120")), soft_wrap=False)
+    return _Console(width=int(os.environ.get("COLUMNS", "120")), soft_wrap=False)
 
 
 def stderr_is_terminal() -> bool:
@@ -267,4 +297,11 @@ def number_list(text: str, option: str, example: str, quantity: Quantity) -> np.
 
 def main() -> None:
     """Entry point of the ``soacheck`` console script."""
-    app()
+    try:
+        app()
+    except SystemExit:
+        try:
+            sys.stdout.flush()  # what is still buffered, now, where a closed pipe can still be told apart
+        except BrokenPipeError:
+            raise SystemExit(_closed_pipe()) from None
+        raise
