@@ -134,6 +134,8 @@ def _derated_lines(
     log_v: np.ndarray, tc_c: np.ndarray, part: Part, lines: tuple[MechanismLine, ...], breakdown: BreakdownDerating
 ) -> np.ndarray:
     """ln I of every derated mechanism line at every point, shape ``(lines, points)``."""
+    if tc_c.size > 1 and tc_c.min() == tc_c.max():  # one case temperature for every point: derate once
+        tc_c = tc_c[:1]
     factors = mechanism_factors(tc_c, part, breakdown)
     with np.errstate(divide="ignore"):
         return np.stack([line(log_v) + (np.log(factors[line.mechanism]) if line.derated else 0.0) for line in lines])

@@ -49,6 +49,11 @@ def json_chunks(payload: dict[str, Any]) -> Iterator[str]:
     A million rows are written in a second or two and in bounded memory, where one list of
     dicts through :mod:`json` takes minutes and gigabytes.
     """
+    return (piece.decode() for piece in json_bytes(payload))
+
+
+def json_bytes(payload: dict[str, Any]) -> Iterator[bytes]:
+    """:func:`json_chunks` as UTF-8 bytes, the rows as they come from the writer (no decoding)."""
     from soacheck.jsonrows import json_rows
 
     tables = {key: value for key, value in payload.items() if isinstance(value, Columns) or hasattr(value, "to_json")}
@@ -57,18 +62,17 @@ def json_chunks(payload: dict[str, Any]) -> Iterator[str]:
     for key, table in tables.items():  # each placeholder is the only `"key": null` at the top level
         marker = f"\n  {json.dumps(key, ensure_ascii=False)}: null"
         head, text = text.split(marker, 1)
-        yield head + marker[:-4]
+        yield (head + marker[:-4]).encode()
         arrays = table.arrays if isinstance(table, Columns) else {str(k): table[k].to_numpy() for k in table.columns}
         rows = json_rows(arrays)
         first = next(rows, None)
         if first is None:
-            yield "[]"
+            yield b"[]"
             continue
-        yield "[\n" + first.decode()
-        for piece in rows:
-            yield piece.decode()
-        yield "\n  ]"
-    yield text
+        yield b"[\n" + first
+        yield from rows
+        yield b"\n  ]"
+    yield text.encode()
 
 
 @dataclass(frozen=True, eq=False)

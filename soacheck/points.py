@@ -240,8 +240,12 @@ def _assumptions(
     shortest = part.pulse_widths_s[0]
     standing = (idle > 0) & np.isfinite(tp) & (d < 1)
     used_any = ~np.isnan(result.curve_pulse_s)  # the points not evaluated get no note here
-    keys = np.column_stack([tp, d, standing, result.curve_pulse_s, result.modelled])[used_any].astype(float)
-    for asked, duty, on_idle, used, modelled in distinct_rows(keys)[0].tolist():
+    columns = [tp, d, standing, result.curve_pulse_s, result.modelled]
+    if used_any.size and used_any.all() and all(c.min() == c.max() for c in columns):  # one condition for all
+        conditions = [[float(c[0]) for c in columns]]
+    else:
+        conditions = distinct_rows(np.column_stack(columns)[used_any].astype(float))[0].tolist()
+    for asked, duty, on_idle, used, modelled in conditions:
         if math.isinf(asked) and duty == 0:
             continue
         label = format_duration(asked) + (f" pulses at duty {duty:g}" if duty > 0 else " pulse")

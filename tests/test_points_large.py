@@ -150,6 +150,7 @@ def test_json_rows_equal_a_dict_per_row(rows_per_chunk):
         "maybe": np.array([None if k % 3 else k / 7 for k in range(n)], dtype=object),
         "single": np.float32(np.linspace(0.1, 2.0, n)),
     }
+    columns["again"] = columns["many"]  # one array under two names, as margin and margin_to_rating
     fast = b"".join(json_rows(columns, rows_per_chunk=rows_per_chunk))
     reference = {**columns, "single": columns["single"].astype(float)}  # float32 written as its float64 value
     assert fast == _rows_one_by_one(reference)

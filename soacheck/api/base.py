@@ -116,6 +116,10 @@ class Result(ABC):
         """``to_json()`` in pieces, as the command prints it; results with many rows stream them."""
         yield json_text(self.to_dict())
 
+    def json_bytes(self) -> Iterator[bytes]:
+        """:meth:`json_chunks` as UTF-8 bytes (what the command writes)."""
+        return (chunk.encode() for chunk in self.json_chunks())
+
     def __repr__(self) -> str:
         margin = "—" if not math.isfinite(self.margin) else f"{self.margin:+.1%}"
         return f"<{type(self).__name__} {self.verdict}, margin {margin}, limit {self.limit}>"

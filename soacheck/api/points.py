@@ -29,7 +29,7 @@ from soacheck.boundary import allowed_current as boundary_allowed_current
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import read_points
-from soacheck.jsonvalues import Columns, json_chunks, jsonable
+from soacheck.jsonvalues import Columns, json_bytes, json_chunks, jsonable
 from soacheck.library import PART_COLUMNS, find_part, part_rows
 from soacheck.parts import Part
 from soacheck.points import PointCheck, check_points
@@ -337,6 +337,10 @@ class CheckResult(Result):
     def json_chunks(self) -> Iterator[str]:
         """The JSON text with the points streamed one compact row a line (a million in seconds)."""
         return json_chunks(self._payload(Columns(self.points.columns())))
+
+    def json_bytes(self) -> Iterator[bytes]:
+        """:meth:`json_chunks` as UTF-8 bytes, the rows written without decoding."""
+        return json_bytes(self._payload(Columns(self.points.columns())))
 
     def plot(self, ax: Axes | None = None) -> Axes:
         """The points over the boundary at the case temperatures and the pulse width they were checked at."""

@@ -248,12 +248,20 @@ def part_option(ref: str, library: list[Path] | None) -> Part:
 def echo_result_json(result: Any) -> None:
     """Print a result's ``--json`` text as it is produced (a large result streams its rows).
 
-    Written to stdout as it is: ``typer.echo`` would search every piece for colour codes.
+    The bytes go to stdout's buffer as they are: ``typer.echo`` would search every piece
+    for colour codes, and text would be decoded and encoded again.
     """
-    out = sys.stdout
-    for chunk in result.json_chunks():
-        out.write(chunk)
-    out.write("\n")
+    out = getattr(sys.stdout, "buffer", None)
+    if out is None:  # a text-only stdout (StringIO)
+        for chunk in result.json_chunks():
+            sys.stdout.write(chunk)
+        sys.stdout.write("\n")
+        return
+    sys.stdout.flush()
+    for piece in result.json_bytes():
+        out.write(piece)
+    out.write(b"\n")
+    out.flush()
 
 
 def echo_json(payload: dict[str, Any]) -> None:
