@@ -97,15 +97,11 @@ def share_current(
 
     import scipy.special  # deferred: scipy costs start-up time to commands that never use it
 
-    # identical devices (same offset and temperature at every sample) are one unknown, counted;
-    # a loop over devices (at most a few hundred), not samples
-    seen: dict[bytes, int] = {}
-    rows = np.concatenate([shift, tj_c], axis=1) if by_curves else shift
-    which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in rows])
-    keep = np.unique(which, return_index=True)[1]
+    # identical devices (same offset and temperature at every sample) are one unknown, counted
+    which, keep, count = _groups(np.concatenate([shift, tj_c], axis=1) if by_curves else shift)
     shift = shift[keep]
     tj_kept = tj_c[keep]
-    weight = np.bincount(which).astype(float)[:, None]
+    weight = count.astype(float)[:, None]
 
     def drive(i_a: np.ndarray, rows: np.ndarray | slice) -> np.ndarray:
         """The base (gate) voltage at which kept devices ``rows`` carry ``i_a``, less their shift."""
@@ -244,6 +240,15 @@ def stability_gain(
     the per-device :func:`loop_gain`; at an unequal split it lies between the devices'
     gains, so a device's gain alone flags runaway too early. One device alone cannot
     redistribute a held current: 0.
+
+    With a_l = g_l·∂P_l/∂I_l, c_j = φ_j g_j/Σg and d_l = a_l φ_l (g = 1/r), J = (z_self·a +
+    z_shared·Σa)cᵀ − z_shared·1dᵀ − z_self·diag(d): a diagonal plus rank two. Devices alike
+    at every point (all but Q1 in a worst-case stage) form groups: a difference between
+    two devices of a group is an eigenvector with eigenvalue −z_self·d_b, and on vectors
+    constant over each group J acts as the groups' reduced matrix
+    J_ab = k_b·[(z_self·a_a + z_shared·Σa)c_b − z_shared·d_b] − δ_ab·z_self·d_a (k_b devices
+    in group b), so only that small matrix is handed to the eigenvalue solver (elementary
+    linear algebra).
     """
     n, m = current_a.shape
     if n == 1:
@@ -258,12 +263,33 @@ def stability_gain(
         junctions=junctions,
     )
     g = 1.0 / np.maximum(r, 1e-12)  # (n, m)
-    moves = g[:, None, :] * ((phi * g) / g.sum(axis=0))[None, :, :]  # ∂I_l/∂T_j, (l, j, m)
-    moves[np.arange(n), np.arange(n), :] -= g * phi
-    dp = np.maximum(vce_v, 0.0) - current_a * ballast_ohm  # ∂P_l/∂I_l, (n, m)
-    weighted = dp[:, None, :] * moves  # (l, j, m)
-    jac = z_self_k_per_w * weighted + z_shared_k_per_w * weighted.sum(axis=0, keepdims=True)
-    return np.linalg.eigvals(np.moveaxis(jac, 2, 0)).real.max(axis=1)
+    a = (np.maximum(vce_v, 0.0) - current_a * ballast_ohm) * g  # ∂P_l/∂I_l · g_l
+    c = phi * g / g.sum(axis=0)  # (n, m)
+    d = a * phi
+    # devices with the same slopes and power slope at every point form a group, solved once (see Notes)
+    which, keep, count = _groups(np.concatenate([g, phi, a], axis=1))
+    a, c, d, k = a[keep], c[keep], d[keep], count[:, None]
+    total = (k * a).sum(axis=0)  # Σ_l a_l over every device, (m,)
+    rows = z_self_k_per_w * a + z_shared_k_per_w * total  # (groups, m)
+    reduced = k[None, :, :] * (rows[:, None, :] * c[None, :, :] - z_shared_k_per_w * d[None, :, :])  # (a, b, m)
+    groups = keep.size
+    reduced[np.arange(groups), np.arange(groups), :] -= z_self_k_per_w * d
+    gain = np.linalg.eigvals(np.moveaxis(reduced, 2, 0)).real.max(axis=1)
+    within = (count > 1)[:, None]
+    if within.any():  # the differences between a group's devices: −z_self·d_b each
+        gain = np.maximum(gain, np.where(within, -z_self_k_per_w * d, -np.inf).max(axis=0))
+    return gain
+
+
+def _groups(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Identical rows of ``rows`` ``(n, ...)``: each row's group, one row index per group, the group sizes.
+
+    A loop over rows (devices, at most a few hundred), not samples.
+    """
+    seen: dict[bytes, int] = {}
+    which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in rows])
+    keep = np.unique(which, return_index=True)[1]
+    return which, keep, np.bincount(which)
 
 
 @dataclass(frozen=True)
