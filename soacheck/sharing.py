@@ -250,9 +250,42 @@ def stability_gain(
     in group b), so only that small matrix is handed to the eigenvalue solver (elementary
     linear algebra).
     """
+    law = {
+        "ballast_ohm": ballast_ohm,
+        "bipolar": bipolar,
+        "tempco_v_per_k": tempco_v_per_k,
+        "transfer": transfer,
+        "junctions": junctions,
+    }
+    eigenvalues = jacobian_eigenvalues(
+        current_a, vce_v, tj_c, z_self_k_per_w=z_self_k_per_w, z_shared_k_per_w=z_shared_k_per_w, **law
+    )
+    return eigenvalues.real.max(axis=1)
+
+
+def jacobian_eigenvalues(
+    current_a: np.ndarray,
+    vce_v: np.ndarray,
+    tj_c: np.ndarray,
+    *,
+    z_self_k_per_w: float,
+    z_shared_k_per_w: float = 0.0,
+    ballast_ohm: float,
+    bipolar: bool,
+    tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
+    transfer: TransferCurves | None = None,
+    junctions: int = 1,
+) -> np.ndarray:
+    """The distinct eigenvalues of the electro-thermal Jacobian of :func:`stability_gain`, ``(m, k)``, complex.
+
+    One per group of alike devices from the groups' reduced matrix, and one for the
+    differences within each group of two or more (see :func:`stability_gain`, Notes); a
+    single device: 0. The fixed point's relaxation converges near a state where every
+    eigenvalue lies inside the unit circle.
+    """
     n, m = current_a.shape
     if n == 1:
-        return np.zeros(m)
+        return np.zeros((m, 1), dtype=complex)
     r, phi = drive_slopes(
         current_a,
         tj_c,
@@ -267,18 +300,16 @@ def stability_gain(
     c = phi * g / g.sum(axis=0)  # (n, m)
     d = a * phi
     # devices with the same slopes and power slope at every point form a group, solved once (see Notes)
-    which, keep, count = _groups(np.concatenate([g, phi, a], axis=1))
+    _, keep, count = _groups(np.concatenate([g, phi, a], axis=1))
     a, c, d, k = a[keep], c[keep], d[keep], count[:, None]
     total = (k * a).sum(axis=0)  # Σ_l a_l over every device, (m,)
     rows = z_self_k_per_w * a + z_shared_k_per_w * total  # (groups, m)
     reduced = k[None, :, :] * (rows[:, None, :] * c[None, :, :] - z_shared_k_per_w * d[None, :, :])  # (a, b, m)
     groups = keep.size
     reduced[np.arange(groups), np.arange(groups), :] -= z_self_k_per_w * d
-    gain = np.linalg.eigvals(np.moveaxis(reduced, 2, 0)).real.max(axis=1)
-    within = (count > 1)[:, None]
-    if within.any():  # the differences between a group's devices: −z_self·d_b each
-        gain = np.maximum(gain, np.where(within, -z_self_k_per_w * d, -np.inf).max(axis=0))
-    return gain
+    eigenvalues = np.linalg.eigvals(np.moveaxis(reduced, 2, 0)).astype(complex)  # (m, groups)
+    within = count > 1  # the differences between a group's devices: −z_self·d_b each
+    return np.concatenate([eigenvalues, (-z_self_k_per_w * d[within]).T.astype(complex)], axis=1)
 
 
 def _groups(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

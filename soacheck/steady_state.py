@@ -9,11 +9,13 @@ when it is itself stable; otherwise the point is runaway.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
 
+from soacheck.fixed_point import anderson
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC
@@ -99,23 +101,44 @@ def steady_state(
     z_shared = cooling.sink_ambient_k_per_w * average if cooling and sink == "each" else 0.0
     start_c = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
 
-    def solve(tj0: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
-        state, ok = _settle(
-            stage, src, total, idle_total, tj0, z=z, rth=rth, average=average, sink=sink, iterations=max_iterations
-        )
-        currents, vce, _, _, tj, _ = state
-        return state, ok, stage.stability_gain(currents, vce, tj, z_self_k_per_w=z_self, z_shared_k_per_w=z_shared)
+    law = {"z": z, "rth": rth, "average": average, "sink": sink}
+    gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared}
 
-    state, settled, stage_gain = solve(start_c)
-    unstable = (stage_gain >= 1.0) | ~settled if n > 1 else np.zeros(m, dtype=bool)
-    hogging = np.zeros(m, dtype=bool)
-    if unstable.any():
-        hot = start_c.copy()
-        hot[0] += HOG_START_K
-        other, other_settled, other_gain = solve(hot)
-        hogging = unstable & other_settled & (other_gain < 1.0)
-        state = tuple(np.where(hogging, b, a) for a, b in zip(state, other, strict=True))
-        stage_gain = np.where(hogging, other_gain, stage_gain)
+    def fast(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
+        """Accelerated; settled only where plain relaxation converges too (every eigenvalue inside the unit circle)."""
+        state, ok = _settle_fast(stage, src[cols], total[cols], idle_total[cols], tj0, **law)
+        currents, vce, _, _, tj, _ = state
+        radius = stage.jacobian_radius(currents, vce, tj, **gains)
+        return state, ok & (radius < 1.0), stage.stability_gain(currents, vce, tj, **gains)
+
+    def slow(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
+        state, ok = _settle(stage, src[cols], total[cols], idle_total[cols], tj0, iterations=max_iterations, **law)
+        currents, vce, _, _, tj, _ = state
+        return state, ok, stage.stability_gain(currents, vce, tj, **gains)
+
+    def shared_or_hog(solve, cols: np.ndarray):
+        """The shared state from equal temperatures; where unstable, the state with Q1 taking the current."""
+        start = start_c[:, cols]
+        state, settled, stage_gain = solve(start, cols)
+        unstable = (stage_gain >= 1.0) | ~settled if n > 1 else np.zeros(start.shape[1], dtype=bool)
+        hogging = np.zeros(start.shape[1], dtype=bool)
+        if unstable.any():
+            hot = start.copy()
+            hot[0] += HOG_START_K
+            other, other_settled, other_gain = solve(hot, cols)
+            hogging = unstable & other_settled & (other_gain < 1.0)
+            state = tuple(np.where(hogging, b, a) for a, b in zip(state, other, strict=True))
+            stage_gain = np.where(hogging, other_gain, stage_gain)
+        return (*state, stage_gain, unstable, hogging)
+
+    every = np.ones(m, dtype=bool)
+    found = shared_or_hog(fast, every)
+    left = found[-2] & ~found[-1]  # neither state found stable by the fast path: relax plainly, as always
+    if left.any():
+        if sink == "worst":  # one heatsink for all points: every point again
+            left = every
+        found = tuple(_put(a, b, left) for a, b in zip(found, shared_or_hog(slow, left), strict=True))
+    *state, stage_gain, unstable, hogging = found
     currents, vce, power, case, tj, sink_c = state
     gain = stage.loop_gain(currents, vce, z_self, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     idle = _idle_share(idle_total, currents, total)
@@ -129,28 +152,35 @@ def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray)
     return idle_total[None, :] * fraction
 
 
-def _settle(
+def _put(whole: np.ndarray, part: np.ndarray, columns: np.ndarray) -> np.ndarray:
+    """``whole`` with its last axis' ``columns`` replaced by ``part``."""
+    out = np.array(whole, copy=True)
+    out[..., columns] = part
+    return out
+
+
+def _relaxation_step(
     stage: Stage,
     src: np.ndarray,
     total: np.ndarray,
     idle_total: np.ndarray,
-    tj0: np.ndarray,
     *,
     z: float,
     rth: float,
     average: float,
     sink: str,
-    iterations: int,
-) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
-    """The fixed point from junction temperatures ``tj0``: (currents, V, P, case, Tj, sink) and where it settled."""
+) -> Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]:
+    """One step of the fixed point: junction temperatures ``(n, m)`` to new ones, and (currents, V, P, case, Tj, sink).
+
+    Each step's sharing starts Newton from the previous step's currents.
+    """
     cooling = stage.cooling
-    n, m = tj0.shape
-    tj = tj0
-    settled = np.zeros(m, dtype=bool)
-    gone = np.zeros(m, dtype=bool)
-    currents = None
-    for _ in range(iterations):
-        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
+    n, m = stage.count, src.size
+    last: list[np.ndarray | None] = [None]
+
+    def step(tj: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, ...]]:
+        currents = stage.share(total, tj, start_a=last[0])
+        last[0] = currents
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
         idle = _idle_share(idle_total, currents, total)
@@ -167,9 +197,76 @@ def _settle(
             case = np.broadcast_to(sink_c, (n, m)).copy()
         peak = case + idle_w * rth + (power - idle_w) * z
         tj_new = np.minimum(peak, 2 * RUNAWAY_C)  # a point that runs away stops here
+        return tj_new, (currents, vce, power, case, tj_new, sink_c)
+
+    return step
+
+
+def _settle(
+    stage: Stage,
+    src: np.ndarray,
+    total: np.ndarray,
+    idle_total: np.ndarray,
+    tj0: np.ndarray,
+    *,
+    z: float,
+    rth: float,
+    average: float,
+    sink: str,
+    iterations: int,
+) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
+    """The fixed point by plain relaxation from junction temperatures ``tj0``; the state and where it settled.
+
+    Each step moves every junction by the loop gain times its last move: hundreds of steps
+    near runaway. The reference the fast path (:func:`_settle_fast`) is checked against, and
+    its fallback where that path might not reach the state this one does.
+    """
+    step = _relaxation_step(stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink)
+    m = tj0.shape[1]
+    tj = tj0
+    settled = np.zeros(m, dtype=bool)
+    gone = np.zeros(m, dtype=bool)
+    state: tuple[np.ndarray, ...] = ()
+    for _ in range(iterations):
+        tj_new, state = step(tj)
         settled = np.max(np.abs(tj_new - tj), axis=0) < SETTLED_K
         tj = tj_new
         gone = (tj >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
         if np.all(settled | gone):
             break
-    return (currents, vce, power, case, tj, sink_c), settled & ~gone
+    return state, settled & ~gone
+
+
+FAST_STEPS = 30
+"""Steps the accelerated fixed point takes at most before the plain relaxation takes over."""
+
+
+def _settle_fast(
+    stage: Stage,
+    src: np.ndarray,
+    total: np.ndarray,
+    idle_total: np.ndarray,
+    tj0: np.ndarray,
+    *,
+    z: float,
+    rth: float,
+    average: float,
+    sink: str,
+) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
+    """The same fixed point by Anderson mixing (:func:`soacheck.fixed_point.anderson`), settled to 1e-3·SETTLED_K.
+
+    Each point is mixed on its own; a point that has not settled within :data:`FAST_STEPS`
+    steps or runs away is reported as not settled (the caller relaxes it plainly).
+    """
+    step = _relaxation_step(stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink)
+    found = anderson(
+        step,
+        tj0,
+        tol=1e-3 * SETTLED_K,
+        max_steps=FAST_STEPS,
+        lower=float(np.min(tj0)),
+        upper=2 * RUNAWAY_C,
+        give_up=lambda tj: (tj >= RUNAWAY_C).any(axis=0),
+    )
+    gone = (found.x >= RUNAWAY_C).any(axis=0)
+    return found.state, found.settled & ~gone

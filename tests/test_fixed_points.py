@@ -3,15 +3,25 @@
 References, all outside soacheck: the bipolar law V_BE = V_T ln(I/I_S) + φ(T − 25 °C) with
 φ = −2 mV/K (Sedra & Smith, *Microelectronic Circuits*, from memory); the electro-thermal
 Jacobian of parallel devices with a common drive and a held total current, derived by hand in
-the docstrings (elementary derivation) and handed whole to ``numpy.linalg.eigvals``.
+the docstrings (elementary derivation) and handed whole to ``numpy.linalg.eigvals``; the
+steady state's equations written out here and solved by ``scipy.optimize.fsolve``.
 """
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
+import scipy.optimize
 
+from soacheck.fixed_point import anderson
+from soacheck.partfiles import read_part
 from soacheck.sharing import stability_gain
+from soacheck.stage import Cooling, Stage
+from soacheck.steady_state import steady_state
+
+from .conftest import write_part
 
 VT = 0.02569  # V, kT/q at 25 °C (Sedra & Smith, from memory)
 PHI = -0.002  # V/K, dV_BE/dT at constant current (Sedra & Smith, from memory)
@@ -66,3 +76,93 @@ def test_the_stage_gain_of_all_different_devices_is_the_whole_jacobians():
     law = {"ballast_ohm": 0.05, "bipolar": True, "tempco_v_per_k": PHI, "junctions": 1}
     got = stability_gain(current, vce, np.full((5, 4), 60.0), z_self_k_per_w=1.2, z_shared_k_per_w=0.5, **law)
     np.testing.assert_allclose(got, full_jacobian_gain(current, vce, 0.05, 1.2, 0.5), rtol=1e-12, atol=1e-12)
+
+
+# --------------------------------------------------------------------------- the steady state against fsolve
+
+R_E, R_SERIES, SPREAD = 0.1, 0.02, 0.005  # Ω, Ω, V: an invented stage
+R_CS, R_SA, AMBIENT = 0.3, 0.8, 25.0  # K/W, K/W, °C
+RTH_JC = 1.0  # K/W, the reference part of conftest (constructed)
+
+
+@pytest.fixture
+def pair(tmp_path):
+    """Two reference bipolars (rth_jc 1.0 K/W, no thermal model) on one heatsink, Q1 5 mV low."""
+    part = read_part(write_part(tmp_path / "bjt"))
+    cooling = Cooling(R_CS, R_SA, 500.0, AMBIENT)
+    return Stage(
+        part, 2, ballast_ohm=R_E, series_ohm=R_SERIES, vbe_spread_v=SPREAD, vbe_tempco_v_per_k=PHI, cooling=cooling
+    )
+
+
+def pair_residual(x, source_v, total_a, sink_c=None):
+    """The pair's equations at one point, unknowns (I₁, T₁, T₂); the sink at its own steady state, or given.
+
+    Common drive: V_T ln(I₁/I₂) + (I₁ − I₂)R_E − ΔV + φ(T₁ − T₂) = 0 with I₂ = I − I₁ (Sedra & Smith,
+    from memory); V_k = V − I·R_series − I_k R_E, P_k = V_k I_k; sink = T_a + R_sa(P₁ + P₂);
+    T_k = sink + P_k(R_cs + rth_jc) (elementary heat flow).
+    """
+    i1, t1, t2 = x
+    i2 = total_a - i1
+    p1 = (source_v - total_a * R_SERIES - i1 * R_E) * i1
+    p2 = (source_v - total_a * R_SERIES - i2 * R_E) * i2
+    sink = AMBIENT + R_SA * (p1 + p2) if sink_c is None else sink_c
+    return [
+        VT * math.log(i1 / i2) + (i1 - i2) * R_E - SPREAD + PHI * (t1 - t2),
+        t1 - (sink + p1 * (R_CS + RTH_JC)),
+        t2 - (sink + p2 * (R_CS + RTH_JC)),
+    ]
+
+
+def test_the_settled_pair_solves_its_equations(pair):
+    """Three points up to a stage gain above 0.9, where plain relaxation needs a hundred steps: each
+    device's current and junction agree with fsolve on the equations written above (1e-7 A, 1e-5 K: the
+    solver stops when no junction moves 1e-7 K in a step, and a gain of 0.9 multiplies that by about 10)."""
+    source = np.array([10.0, 30.0, 46.0])
+    total = np.full(3, 2.0)
+    state = steady_state(pair, source, total)
+    assert state.stage_gain.max() > 0.9 and not state.runaway_at.any()
+    for k in range(3):
+        ref = scipy.optimize.fsolve(pair_residual, [1.0, 100.0, 100.0], args=(source[k], total[k]), xtol=1e-13)
+        assert state.device_a[:, k] == pytest.approx([ref[0], total[k] - ref[0]], abs=1e-7)
+        assert state.junction_c[:, k] == pytest.approx(ref[1:], abs=1e-5)
+
+
+def test_the_worst_sink_is_the_hottest_points(pair):
+    """sink="worst": every point with the heatsink of the point of most power (here 20 V, 3 A). Reference:
+    fsolve on both points' equations with the sink an unknown set by the 20 V point's power."""
+    source, total = np.array([8.0, 20.0]), np.array([2.0, 3.0])
+    state = steady_state(pair, source, total, sink="worst")
+
+    def both(x):
+        sink = x[6]
+        i1, i2 = x[3], total[1] - x[3]
+        p_hot = (source[1] - total[1] * R_SERIES - i1 * R_E) * i1 + (source[1] - total[1] * R_SERIES - i2 * R_E) * i2
+        return [
+            *pair_residual(x[:3], source[0], total[0], sink),
+            *pair_residual(x[3:6], source[1], total[1], sink),
+            sink - (AMBIENT + R_SA * p_hot),
+        ]
+
+    ref = scipy.optimize.fsolve(both, [1.0, 80.0, 80.0, 1.5, 90.0, 90.0, 70.0], xtol=1e-13)
+    assert state.sink_c == pytest.approx([ref[6], ref[6]], abs=1e-5)
+    assert state.device_a[0] == pytest.approx([ref[0], ref[3]], abs=1e-7)
+    assert state.junction_c[:, 0] == pytest.approx(ref[1:3], abs=1e-5)
+    assert state.junction_c[:, 1] == pytest.approx(ref[4:6], abs=1e-5)
+
+
+def test_anderson_mixing_solves_linear_fixed_points_column_by_column():
+    """x = A_k x + b_k in each column, A_k = S_k·D_k with S_k symmetric positive definite and D_k a positive
+    diagonal (the shape of the electro-thermal Jacobian, thermal resistances times power slopes: real
+    eigenvalues, here scaled to a largest of 0.95): against numpy's direct solve of (1 − A)x = b."""
+    rng = np.random.default_rng(3)
+    n, m = 3, 5
+    root = rng.uniform(-1.0, 1.0, (m, n, n))
+    a = (root @ root.transpose(0, 2, 1) + 0.1 * np.eye(n)) * rng.uniform(0.2, 1.0, (m, 1, n))
+    a *= 0.95 / np.abs(np.linalg.eigvals(a)).max(axis=1)[:, None, None]
+    b = rng.uniform(0.0, 10.0, (n, m))
+    found = anderson(lambda x: (np.einsum("mij,jm->im", a, x) + b, None), np.zeros((n, m)), tol=1e-12, max_steps=50)
+    expected = np.stack([np.linalg.solve(np.eye(n) - a[k], b[:, k]) for k in range(m)], axis=1)
+    assert found.settled.all()
+    assert found.steps < 20  # plain relaxation at a gain of 0.95 needs about 500 steps to 1e-12
+    np.testing.assert_allclose(found.x, expected, atol=1e-10)
