@@ -85,6 +85,8 @@ def fewest(passes: Callable[[int], bool], start: int) -> int | None:
     while not passes(hi):
         lo, hi = hi, hi * 2
         if hi > MAX_COUNT:
+            if lo >= MAX_COUNT:  # MAX_COUNT itself just failed: not asked again
+                return None
             return None if not passes(MAX_COUNT) else bisect_count(passes, lo, MAX_COUNT)
     return bisect_count(passes, lo, hi)
 
