@@ -354,17 +354,45 @@ def passes_at(run_at: Callable[[float], StageRun]) -> Callable[[float], bool]:
 
 
 def setpoint_limits(
-    run_at: Callable[[Stage, float], StageRun], stage: Stage, setpoint: float, mode: str, *, rel_tol: float = 1e-3
+    run_at: Callable[[Stage, float], StageRun],
+    stage: Stage,
+    setpoint: float,
+    mode: str,
+    *,
+    rel_tol: float = 1e-3,
+    progress: Callable[[int, int | None], None] | None = None,
 ) -> dict[str, float | None]:
     """The most demanding safe setpoint under the stage's policy, and the same at the absolute ratings.
 
     ``run_at(stage, x)`` runs the test at setpoint ``x`` through ``stage``. Returns
     ``max_safe_setpoint`` (judged under the part's policy, if any) and ``max_setpoint_at_rating``
     (the same search against the ratings; the same value when there is no policy). [A, W or Ω]
+    A policy only ever takes margin away, so every setpoint at or below the one found under it
+    (for ``cr``: at or above) passes at the ratings too and is not run again.
+    ``progress(runs done, None)`` is called after each run (how many a search takes is not
+    known beforehand).
     """
-    found = max_safe_setpoint(passes_at(lambda x: run_at(stage, x)), setpoint, mode, rel_tol=rel_tol)
+    done = 0
+
+    def counted(through: Stage, x: float) -> StageRun:
+        nonlocal done
+        try:
+            return run_at(through, x)
+        finally:
+            done += 1
+            if progress is not None:
+                progress(done, None)
+
+    found = max_safe_setpoint(passes_at(lambda x: counted(stage, x)), setpoint, mode, rel_tol=rel_tol)
     at_rating = found
     if stage.part.policy is not None:  # the same search against the absolute ratings, beside it
         rated = stage.with_part(stage.part.rated)
-        at_rating = max_safe_setpoint(passes_at(lambda x: run_at(rated, x)), setpoint, mode, rel_tol=rel_tol)
+        at_ratings = passes_at(lambda x: counted(rated, x))
+
+        def passes_rated(x: float) -> bool:
+            if found is not None and (x >= found if mode == "cr" else x <= found):
+                return True
+            return at_ratings(x)
+
+        at_rating = max_safe_setpoint(passes_rated, setpoint, mode, rel_tol=rel_tol)
     return {"max_safe_setpoint": found, "max_setpoint_at_rating": at_rating}

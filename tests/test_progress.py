@@ -8,10 +8,12 @@ pipe stays clean.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
 
+import soacheck
 import soacheck.cli.base
 from soacheck.cli import app
 
@@ -47,3 +49,64 @@ def test_a_pipe_gets_no_bar(small_trace):
     result = runner.invoke(app, ["trace", PART, str(small_trace)])
     assert result.exit_code == 0, result.output
     assert result.stderr == ""
+
+
+FIND_MAX = [
+    "discharge",
+    "examples/stage.toml",
+    "--battery",
+    "nmc",
+    "--cells",
+    "10",
+    "--capacity",
+    "10",
+    "--mode",
+    "cc",
+    "--setpoint",
+    "4",
+    "--internal-resistance",
+    "0.15",
+    "--samples",
+    "200",
+    "--find-max",
+]
+
+
+def test_find_max_shows_its_search_on_a_terminal(monkeypatch):
+    """The invented example stage and pack of the README: a search of several runs, shown on stderr."""
+    monkeypatch.setattr(soacheck.cli.base, "stderr_is_terminal", lambda: True)
+    monkeypatch.chdir(Path(__file__).resolve().parent.parent)
+    result = runner.invoke(app, FIND_MAX)
+    assert result.exit_code in (0, 1), result.output
+    assert "most demanding safe setpoint" in result.stderr
+    assert "most demanding safe setpoint: runs" not in result.stdout
+
+
+def test_find_max_with_json_gets_no_bar(monkeypatch):
+    monkeypatch.setattr(soacheck.cli.base, "stderr_is_terminal", lambda: True)
+    monkeypatch.chdir(Path(__file__).resolve().parent.parent)
+    result = runner.invoke(app, [*FIND_MAX, "--json"])
+    assert result.exit_code in (0, 1), result.output
+    assert result.stderr == ""
+    assert json.loads(result.stdout)["max_safe_setpoint"] > 0
+
+
+def test_find_max_reports_each_run_to_its_progress_callback():
+    """The library side: one call per run of the search, counting up from 1, the total unknown (None)."""
+    calls = []
+    root = Path(__file__).resolve().parent.parent
+    found = soacheck.discharge(
+        root / "examples" / "stage.toml",
+        battery="nmc",
+        cells=10,
+        capacity=10,
+        mode="cc",
+        setpoint=4.0,
+        internal_resistance=0.15,
+        samples=200,
+        find_max=True,
+        progress=lambda done, total: calls.append((done, total)),
+    )
+    assert found.max_safe_setpoint is not None
+    assert len(calls) > 5
+    assert calls == [(k + 1, None) for k in range(len(calls))]

@@ -95,6 +95,7 @@ def discharge(
     breakdown: BreakdownDerating = "auto",
     policy: PolicyLike = None,
     library: Library = None,
+    progress: Callable[[int, int | None], None] | None = None,
 ) -> StageRunResult:
     """Discharge a battery through the stage and check every device all the way down (``soacheck discharge``).
 
@@ -127,6 +128,8 @@ def discharge(
         (``"none"``, ``"bench"``) or a policy file; None: the stage file's own ``[policy]``,
         else the absolute ratings. Verdict and ``margin`` are then the policy's and
         ``margin_to_rating`` is the margin to the absolute ratings.
+    progress
+        With ``find_max``, called as ``progress(runs done, None)`` after each run of the search.
 
     Returns
     -------
@@ -151,14 +154,18 @@ def discharge(
     loaded = _stage_under(load_stage(stage, library=library), policy)
     pack = battery_from(str(battery), cells, capacity, internal_resistance)
 
+    runs: dict[tuple[Stage, float], StageRun] = {}  # the search starts where the run below was made
+
     def run_in(through: Stage, value: float) -> StageRun:
-        path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
-        run = run_stage(through, path.time_s, path.source_v, path.total_a, breakdown=chosen)
-        return replace(run, assumptions=run.assumptions + path.notes)
+        if (through, value) not in runs:
+            path = battery_discharge(pack, mode, value, cutoff_v=cutoff, samples=samples)
+            run = run_stage(through, path.time_s, path.source_v, path.total_a, breakdown=chosen)
+            runs[through, value] = replace(run, assumptions=run.assumptions + path.notes)
+        return runs[through, value]
 
     run = run_in(loaded, setpoint)
     label = battery_discharge(pack, mode, setpoint, cutoff_v=cutoff, samples=10).label
-    extra: dict[str, Any] = setpoint_limits(run_in, loaded, setpoint, mode) if find_max else {}
+    extra: dict[str, Any] = setpoint_limits(run_in, loaded, setpoint, mode, progress=progress) if find_max else {}
     return StageRunResult(run, label, extra, chosen, SETPOINT[mode].unit)
 
 

@@ -74,21 +74,23 @@ def discharge(
     import soacheck
 
     output_path(plot, "--plot", force=force, suffixes=PLOT_SUFFIXES)
-    result = soacheck.discharge(
-        stage,
-        battery=battery,
-        cells=cells,
-        capacity=capacity,
-        mode=mode,  # type: ignore[arg-type]
-        setpoint=setpoint,
-        cutoff=cutoff,
-        internal_resistance=internal_resistance,
-        samples=samples,
-        find_max=find_max,
-        breakdown=breakdown_option(breakdown_derating),
-        policy=policy,
-        library=library,
-    )
+    with progress_bar("most demanding safe setpoint: runs", quiet=as_json or not find_max) as progress:
+        result = soacheck.discharge(
+            stage,
+            battery=battery,
+            cells=cells,
+            capacity=capacity,
+            mode=mode,  # type: ignore[arg-type]
+            setpoint=setpoint,
+            cutoff=cutoff,
+            internal_resistance=internal_resistance,
+            samples=samples,
+            find_max=find_max,
+            breakdown=breakdown_option(breakdown_derating),
+            policy=policy,
+            library=library,
+            progress=progress,
+        )
     unit = {"cc": "A", "cp": "W", "cr": "Ω"}.get(mode.strip().lower(), "")
     _report_run(result, as_json=as_json, plot=plot, setpoint_unit=unit)
 
