@@ -25,7 +25,7 @@ from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.policy import Policy, least_margin
-from soacheck.search import MAX_COUNT, fewest, highest, highest_linear
+from soacheck.search import MAX_COUNT, fewest, fewest_guided, highest, highest_linear
 from soacheck.stage import Stage
 from soacheck.stage_run import run_stage
 from soacheck.trace import TraceChecker
@@ -182,7 +182,12 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
     passed, margin, limit, worst_v, to_rating = _rate(job, placed, breakdown, points)
     coarse = min(points, SEARCH_POINTS)
     rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
-    min_count = fewest(lambda n: _rate(rough, replace(placed, count=n), breakdown, coarse)[0], placed.count)
+
+    def count_score(n: int) -> tuple[bool, float | None]:
+        passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse)
+        return passed, None if limit in ("runaway", "drive", "dropout") else margin
+
+    min_count = fewest_guided(count_score, placed.count)
     max_rth = None
     if placed.cooling is not None and passed:
         max_rth = highest(

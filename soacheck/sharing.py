@@ -42,6 +42,7 @@ def share_current(
     start_a: np.ndarray | None = None,
     transfer: TransferCurves | None = None,
     junctions: int = 1,
+    counts: np.ndarray | None = None,
 ) -> np.ndarray:
     """Split a total current between parallel devices with a common base (gate) drive.
 
@@ -75,18 +76,24 @@ def share_current(
         The FET's transfer characteristic, or None.
     junctions
         Base-emitter junctions in series (2 for a Darlington).
+    counts
+        How many alike devices each row stands for, shape ``(n,)``; one each when None.
+        (Without a ballast or a transfer characteristic a FET row taking the whole current
+        must stand for one device.)
 
     Returns
     -------
     numpy.ndarray, shape ``(n, m)``
-        Current of each device. [A]
+        Current of each device (of each row's devices). [A]
     """
     total = np.asarray(total_a, dtype=float)
-    n = tj_c.shape[0]
-    if n == 1:
+    rows_n = tj_c.shape[0]
+    per_row = np.ones(rows_n) if counts is None else np.asarray(counts, dtype=float)
+    n = float(per_row.sum())  # devices
+    if rows_n == 1 and n == 1:
         return total[None, :].copy()
     by_curves = transfer is not None and not bipolar
-    offsets = np.broadcast_to(np.asarray(offsets_v, dtype=float).reshape(n, -1), tj_c.shape)
+    offsets = np.broadcast_to(np.asarray(offsets_v, dtype=float).reshape(rows_n, -1), tj_c.shape)
     shift = offsets if by_curves else offsets + tempco_v_per_k * (tj_c - 25.0)  # (n, m)
     vt, r = junctions * THERMAL_VOLTAGE_V, ballast_ohm
     if not bipolar and r == 0 and not by_curves:
@@ -96,10 +103,10 @@ def share_current(
         return out
 
     # identical devices (same offset and temperature at every sample) are one unknown, counted
-    which, keep, count = _groups(np.concatenate([shift, tj_c], axis=1) if by_curves else shift)
+    which, keep, _ = _groups(np.concatenate([shift, tj_c], axis=1) if by_curves else shift)
     shift = shift[keep]
     tj_kept = tj_c[keep]
-    weight = count.astype(float)[:, None]
+    weight = np.bincount(which, weights=per_row)[:, None]
 
     def drive(i_a: np.ndarray, rows: np.ndarray | slice) -> np.ndarray:
         """The base (gate) voltage at which kept devices ``rows`` carry ``i_a``, less their shift."""
@@ -260,6 +267,7 @@ def stability_gain(
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
     transfer: TransferCurves | None = None,
     junctions: int = 1,
+    counts: np.ndarray | None = None,
 ) -> np.ndarray:
     """The largest real part of the eigenvalues of the electro-thermal fixed point's Jacobian, shape ``(m,)``.
 
@@ -271,6 +279,8 @@ def stability_gain(
         Junction rise per watt of a device's own power (rth_jc + R_cs, or Zth for pulses). [K/W]
     z_shared_k_per_w
         Rise of every junction per watt of the total power (the shared heatsink). [K/W]
+    counts
+        How many alike devices each row stands for, ``(n,)``; one each when None.
 
     Notes
     -----
@@ -301,7 +311,13 @@ def stability_gain(
         "junctions": junctions,
     }
     eigenvalues = jacobian_eigenvalues(
-        current_a, vce_v, tj_c, z_self_k_per_w=z_self_k_per_w, z_shared_k_per_w=z_shared_k_per_w, **law
+        current_a,
+        vce_v,
+        tj_c,
+        z_self_k_per_w=z_self_k_per_w,
+        z_shared_k_per_w=z_shared_k_per_w,
+        counts=counts,
+        **law,
     )
     return eigenvalues.real.max(axis=1)
 
@@ -318,6 +334,7 @@ def jacobian_eigenvalues(
     tempco_v_per_k: float = VBE_TEMPCO_V_PER_K,
     transfer: TransferCurves | None = None,
     junctions: int = 1,
+    counts: np.ndarray | None = None,
 ) -> np.ndarray:
     """The distinct eigenvalues of the electro-thermal Jacobian of :func:`stability_gain`, ``(m, k)``, complex.
 
@@ -326,8 +343,9 @@ def jacobian_eigenvalues(
     single device: 0. The fixed point's relaxation converges near a state where every
     eigenvalue lies inside the unit circle.
     """
-    n, m = current_a.shape
-    if n == 1:
+    rows_n, m = current_a.shape
+    per_row = np.ones(rows_n) if counts is None else np.asarray(counts, dtype=float)
+    if per_row.sum() == 1:
         return np.zeros((m, 1), dtype=complex)
     r, phi = drive_slopes(
         current_a,
@@ -340,10 +358,11 @@ def jacobian_eigenvalues(
     )
     g = 1.0 / np.maximum(r, 1e-12)  # (n, m)
     a = (np.maximum(vce_v, 0.0) - current_a * ballast_ohm) * g  # ∂P_l/∂I_l · g_l
-    c = phi * g / g.sum(axis=0)  # (n, m)
+    c = phi * g / (per_row[:, None] * g).sum(axis=0)  # (n, m)
     d = a * phi
     # devices with the same slopes and power slope at every point form a group, solved once (see Notes)
-    _, keep, count = _groups(np.concatenate([g, phi, a], axis=1))
+    which, keep, _ = _groups(np.concatenate([g, phi, a], axis=1))
+    count = np.bincount(which, weights=per_row)
     a, c, d, k = a[keep], c[keep], d[keep], count[:, None]
     total = (k * a).sum(axis=0)  # Σ_l a_l over every device, (m,)
     rows = z_self_k_per_w * a + z_shared_k_per_w * total  # (groups, m)

@@ -128,18 +128,17 @@ class Stage:
         offsets_v: np.ndarray | None = None,
         *,
         start_a: np.ndarray | None = None,
+        counts: np.ndarray | None = None,
     ) -> np.ndarray:
-        """Each device's current, shape ``(n, m)``; see :func:`share_current`. [A]"""
+        """Each device's current, shape ``(n, m)`` (rows standing for ``counts`` devices each); see
+        :func:`share_current`. [A]"""
         return share_current(
             total_a,
             tj_c,
             self.offsets_v if offsets_v is None else offsets_v,
-            ballast_ohm=self.ballast_ohm,
-            bipolar=self.part.is_bipolar,
-            tempco_v_per_k=self.vbe_tempco_v_per_k,
             start_a=start_a,
-            transfer=self.part.transfer,
-            junctions=junctions(self.part.darlington),
+            counts=counts,
+            **self._law(),
         )
 
     def device_voltage(self, source_v: np.ndarray, total_a: np.ndarray, device_a: np.ndarray) -> np.ndarray:
@@ -160,6 +159,7 @@ class Stage:
         *,
         z_self_k_per_w: float,
         z_shared_k_per_w: float = 0.0,
+        counts: np.ndarray | None = None,
     ) -> np.ndarray:
         """The whole set's electro-thermal stability gain at each point, ``(m,)``; see :func:`stability_gain`."""
         return stability_gain(
@@ -168,6 +168,7 @@ class Stage:
             tj_c,
             z_self_k_per_w=z_self_k_per_w,
             z_shared_k_per_w=z_shared_k_per_w,
+            counts=counts,
             **self._law(),
         )
 
@@ -179,6 +180,7 @@ class Stage:
         *,
         z_self_k_per_w: float,
         z_shared_k_per_w: float = 0.0,
+        counts: np.ndarray | None = None,
     ) -> np.ndarray:
         """The largest modulus of the electro-thermal Jacobian's eigenvalues at each point, ``(m,)``.
 
@@ -190,6 +192,7 @@ class Stage:
             tj_c,
             z_self_k_per_w=z_self_k_per_w,
             z_shared_k_per_w=z_shared_k_per_w,
+            counts=counts,
             **self._law(),
         )
         return np.abs(eigenvalues).max(axis=1)

@@ -99,10 +99,16 @@ def steady_state(
     cooling = stage.cooling
     z_self = z + (cooling.case_sink_k_per_w * average if cooling else 0.0)
     z_shared = cooling.sink_ambient_k_per_w * average if cooling and sink == "each" else 0.0
-    start_c = np.full((n, m), cooling.ambient_c if cooling else stage.case_temp_c)
+    # Q1 and the others alike: two rows, the second standing for n − 1 devices (the same
+    # equations, solved once); not where a FET without ballast or curves hands one device everything
+    alike = n > 2 and (part.is_bipolar or stage.ballast_ohm > 0 or part.transfer is not None)
+    which = np.minimum(np.arange(n), 1) if alike else np.arange(n)
+    counts = np.bincount(which).astype(float)
+    offsets = stage.offsets_v[: counts.size]
+    start_c = np.full((counts.size, m), cooling.ambient_c if cooling else stage.case_temp_c)
 
-    law = {"z": z, "rth": rth, "average": average, "sink": sink}
-    gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared}
+    law = {"z": z, "rth": rth, "average": average, "sink": sink, "offsets": offsets, "counts": counts}
+    gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared, "counts": counts}
 
     def fast(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
         """Accelerated; settled only where plain relaxation converges too (every eigenvalue inside the unit circle)."""
@@ -139,16 +145,16 @@ def steady_state(
             left = every
         found = tuple(_put(a, b, left) for a, b in zip(found, shared_or_hog(slow, left), strict=True))
     *state, stage_gain, unstable, hogging = found
-    currents, vce, power, case, tj, sink_c = state
+    currents, vce, power, case, tj, sink_c = (*(row[which] for row in state[:5]), state[5])
     gain = stage.loop_gain(currents, vce, z_self, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
-    idle = _idle_share(idle_total, currents, total)
+    idle = _idle_share(idle_total, currents, total, n)
     return SteadyState(currents, vce, power, case, tj, sink_c, gain, unstable & ~hogging, stage_gain, hogging, idle)
 
 
-def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray) -> np.ndarray:
-    """Each device's standing current: the total shared like the pulse current, ``(n, m)``. [A]"""
+def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray, count: int) -> np.ndarray:
+    """Each device's standing current: the total shared like the pulse current among ``count``, ``(n, m)``. [A]"""
     with np.errstate(divide="ignore", invalid="ignore"):
-        fraction = np.where(total > 0, currents / total, 1.0 / currents.shape[0])
+        fraction = np.where(total > 0, currents / total, 1.0 / count)
     return idle_total[None, :] * fraction
 
 
@@ -169,32 +175,36 @@ def _relaxation_step(
     rth: float,
     average: float,
     sink: str,
+    offsets: np.ndarray,
+    counts: np.ndarray,
 ) -> Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]:
-    """One step of the fixed point: junction temperatures ``(n, m)`` to new ones, and (currents, V, P, case, Tj, sink).
+    """One step of the fixed point: junction temperatures ``(rows, m)`` to new ones, and (currents, V, P, case, Tj,
+    sink); row k has V_BE offset ``offsets[k]`` and stands for ``counts[k]`` alike devices.
 
     Each step's sharing starts Newton from the previous step's currents.
     """
     cooling = stage.cooling
-    n, m = stage.count, src.size
+    rows, m = counts.size, src.size
+    n = stage.count
     last: list[np.ndarray | None] = [None]
 
     def step(tj: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, ...]]:
-        currents = stage.share(total, tj, start_a=last[0])
+        currents = stage.share(total, tj, offsets, start_a=last[0], counts=counts)
         last[0] = currents
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
-        idle = _idle_share(idle_total, currents, total)
+        idle = _idle_share(idle_total, currents, total, n)
         idle_w = np.maximum(stage.device_voltage(src[None, :], idle_total[None, :], idle), 0.0) * idle
         mean_w = average * power + (1.0 - average) * idle_w
         if cooling is not None:
-            sink_w = mean_w.sum(axis=0)
+            sink_w = (counts[:, None] * mean_w).sum(axis=0)
             if sink == "worst":
                 sink_w = np.full(m, sink_w.max())
             sink_c = cooling.ambient_c + cooling.sink_ambient_k_per_w * sink_w
             case = sink_c[None, :] + mean_w * cooling.case_sink_k_per_w
         else:
             sink_c = np.full(m, stage.case_temp_c)
-            case = np.broadcast_to(sink_c, (n, m)).copy()
+            case = np.broadcast_to(sink_c, (rows, m)).copy()
         peak = case + idle_w * rth + (power - idle_w) * z
         tj_new = np.minimum(peak, 2 * RUNAWAY_C)  # a point that runs away stops here
         return tj_new, (currents, vce, power, case, tj_new, sink_c)
@@ -213,6 +223,8 @@ def _settle(
     rth: float,
     average: float,
     sink: str,
+    offsets: np.ndarray,
+    counts: np.ndarray,
     iterations: int,
 ) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
     """The fixed point by plain relaxation from junction temperatures ``tj0``; the state and where it settled.
@@ -221,7 +233,9 @@ def _settle(
     near runaway. The reference the fast path (:func:`_settle_fast`) is checked against, and
     its fallback where that path might not reach the state this one does.
     """
-    step = _relaxation_step(stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink)
+    step = _relaxation_step(
+        stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink, offsets=offsets, counts=counts
+    )
     m = tj0.shape[1]
     tj = tj0
     settled = np.zeros(m, dtype=bool)
@@ -252,13 +266,17 @@ def _settle_fast(
     rth: float,
     average: float,
     sink: str,
+    offsets: np.ndarray,
+    counts: np.ndarray,
 ) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
     """The same fixed point by Anderson mixing (:func:`soacheck.fixed_point.anderson`), settled to 1e-3·SETTLED_K.
 
     Each point is mixed on its own; a point that has not settled within :data:`FAST_STEPS`
     steps or runs away is reported as not settled (the caller relaxes it plainly).
     """
-    step = _relaxation_step(stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink)
+    step = _relaxation_step(
+        stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink, offsets=offsets, counts=counts
+    )
     found = anderson(
         step,
         tj0,
