@@ -18,7 +18,8 @@ import scipy.special
 
 from soacheck.fixed_point import anderson
 from soacheck.partfiles import read_part
-from soacheck.sharing import stability_gain, wright_omega
+from soacheck.search import fewest_guided
+from soacheck.sharing import share_current, stability_gain, wright_omega
 from soacheck.stage import Cooling, Stage
 from soacheck.steady_state import steady_state
 
@@ -194,3 +195,64 @@ def test_the_real_wright_omega_takes_scalars_and_arrays_alike():
     assert grid.shape == (2, 2)
     assert float(wright_omega(2.0)) == grid[1, 0]
     np.testing.assert_allclose(grid + np.log(grid), values, rtol=1e-14)
+
+
+def test_alike_devices_shared_as_counted_rows_match_every_row():
+    """Q1 and four alike devices: two rows, the second standing for four (counts), give each device the
+    current the five rows give (the same equations; 1e-12 A, Newton's stopping residual)."""
+    temps = np.array([[80.0, 120.0], [60.0, 70.0], [60.0, 70.0], [60.0, 70.0], [60.0, 70.0]])
+    offsets = np.array([-0.02, 0.0, 0.0, 0.0, 0.0])
+    law = {"ballast_ohm": 0.1, "bipolar": True, "tempco_v_per_k": PHI}
+    total = np.array([3.0, 8.0])
+    every = share_current(total, temps, offsets, **law)
+    rows = share_current(total, temps[:2], offsets[:2], counts=np.array([1.0, 4.0]), **law)
+    np.testing.assert_allclose(rows, every[:2], atol=1e-12)
+    assert rows[0] + 4 * rows[1] == pytest.approx(total, abs=1e-11)
+
+
+def test_five_devices_settle_where_their_equations_hold(tmp_path):
+    """Q1 5 mV low and four alike devices on one heatsink, 6 A at 30 V. Reference: fsolve on Q1's current
+    and two junction temperatures, each other device carrying (6 − I₁)/4, with the equations of
+    ``pair_residual`` for five devices (1e-7 A, 1e-5 K as above)."""
+    part = read_part(write_part(tmp_path / "bjt"))
+    cooling = Cooling(R_CS, R_SA, 500.0, AMBIENT)
+    stage = Stage(
+        part, 5, ballast_ohm=R_E, series_ohm=R_SERIES, vbe_spread_v=SPREAD, vbe_tempco_v_per_k=PHI, cooling=cooling
+    )
+    source_v, total_a = 30.0, 6.0
+
+    def five(x):
+        i1, t1, t2 = x
+        i2 = (total_a - i1) / 4
+        p1 = (source_v - total_a * R_SERIES - i1 * R_E) * i1
+        p2 = (source_v - total_a * R_SERIES - i2 * R_E) * i2
+        sink = AMBIENT + R_SA * (p1 + 4 * p2)
+        return [
+            VT * math.log(i1 / i2) + (i1 - i2) * R_E - SPREAD + PHI * (t1 - t2),
+            t1 - (sink + p1 * (R_CS + RTH_JC)),
+            t2 - (sink + p2 * (R_CS + RTH_JC)),
+        ]
+
+    ref = scipy.optimize.fsolve(five, [1.2, 150.0, 150.0], xtol=1e-13)
+    state = steady_state(stage, np.array([source_v]), np.array([total_a]))
+    i2 = (total_a - ref[0]) / 4
+    assert state.device_a[:, 0] == pytest.approx([ref[0], i2, i2, i2, i2], abs=1e-7)
+    assert state.junction_c[:, 0] == pytest.approx([ref[1], *[ref[2]] * 4], abs=1e-5)
+    assert not state.runaway_at[0]
+
+
+@pytest.mark.parametrize("answer", [1, 2, 3, 5, 9, 17, 64, 100, 255, 256, None])
+@pytest.mark.parametrize("start", [1, 2, 7])
+def test_the_guided_count_search_finds_what_the_plain_one_finds(answer, start):
+    """A monotone predicate with a margin 1 − (answer·1.3)/n (a load on n devices with 30 % slack in the
+    estimate, so guesses miss): the smallest passing count, as ``fewest`` finds it, or None past 256."""
+    asked = []
+
+    def score(n):
+        asked.append(n)
+        ok = answer is not None and n >= answer
+        margin = 1.0 - 1.3 * (answer or 1000) / n
+        return ok, margin if (margin >= 0) == ok else None
+
+    assert fewest_guided(score, start) == answer
+    assert len(asked) == len(set(asked))  # nothing asked twice
