@@ -124,6 +124,8 @@ class MechanismLine:
         if self.log_v.size == 1:
             return np.full(x.shape, self.log_i[0])
         y = np.interp(x, self.log_v, self.log_i)
+        if x.size and np.min(x) >= self.log_v[0] and np.max(x) <= self.log_v[-1]:
+            return y  # all within the vertices (the common case): no extension to compute
         left = (self.log_i[1] - self.log_i[0]) / (self.log_v[1] - self.log_v[0])
         right = (self.log_i[-1] - self.log_i[-2]) / (self.log_v[-1] - self.log_v[-2])
         y = np.where(x < self.log_v[0], self.log_i[0] + left * (x - self.log_v[0]), y)

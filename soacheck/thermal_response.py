@@ -70,7 +70,7 @@ def temperature_rise(
         theta0 = a * theta0 + network.r_k_per_w * (1 - a) * p_before_w
     dt = np.diff(t)
     # uniform to rounding: a relative spread of 1e-6 in Δt changes aᵢ by far less than 1e-6
-    uniform = dt.size == 0 or np.ptp(dt) <= 1e-6 * dt.max()
+    uniform = dt.size == 0 or (dt_max := dt.max()) - dt.min() <= 1e-6 * dt_max
     if not uniform:
         thetas = [
             _branch_any_step(t, p, r, tau, th)
@@ -80,7 +80,7 @@ def temperature_rise(
     step = (t[-1] - t[0]) / dt.size if dt.size else 0.0
     a = np.exp(-step / network.tau_s)
     b = network.r_k_per_w * (1.0 - a)
-    out = np.zeros(t.size)
+    out = None
     last = np.empty_like(theta0)
     for group in _pairs(a, t.size):
         if len(group) == 2:
@@ -90,8 +90,11 @@ def temperature_rise(
             (i,) = group
             y = _branch_uniform(p, a[i], b[i], theta0[i])
             last[i] = y[-1]
-        out += y
-    return out, ThermalState(last)
+        if out is None:
+            out = y
+        else:
+            out += y
+    return (np.zeros(t.size) if out is None else out), ThermalState(last)
 
 
 def _pairs(a: np.ndarray, n: int) -> list[tuple[int, ...]]:

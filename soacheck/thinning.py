@@ -106,3 +106,93 @@ class PeakThinner:
     def result(self) -> dict[str, np.ndarray]:
         """The kept samples of every channel, in time order (copies: no chunk stays alive)."""
         return {name: values.copy() for name, values in zip(self.names, self.kept, strict=True)}
+
+
+class SpanThinner:
+    """Keep a fixed budget of excursion spans for a plot, each with its judged margin.
+
+    An excursion is recorded as the sample number of its first sample, its first and last
+    time, and its least margin against the boundary that judged it (with the time of that
+    least margin). Excursions starting in the same bin of ``width`` samples merge into one
+    span from the first start to the last end, keeping the least margin and its time; when
+    the bins outnumber the budget the width doubles, as in :class:`PeakThinner`, so the
+    worst excursion of every bin survives however long the trace.
+
+    Parameters
+    ----------
+    bins
+        How many spans to keep at most.
+    """
+
+    names = ("start", "end", "margin", "margin_time")
+
+    def __init__(self, bins: int) -> None:
+        self.bins = max(1, int(bins))
+        self.width = 1
+        self.first_row = np.zeros(0, dtype=np.int64)
+        self.kept = [np.zeros(0) for _ in self.names]
+
+    def add(self, first_row, start_s, end_s, margin, margin_time_s) -> None:
+        """Excursions that ended, in time order: first sample numbers, first and last times [s], margins, times [s]."""
+        first_row = np.r_[self.first_row, np.asarray(first_row, dtype=np.int64)]
+        columns = [
+            np.r_[k, np.asarray(c, dtype=float)]
+            for k, c in zip(self.kept, (start_s, end_s, margin, margin_time_s), strict=True)
+        ]
+        if first_row.size == 0:
+            return
+        width = self.width
+        while first_row[-1] // width - first_row[0] // width >= self.bins:
+            width *= 2
+        self.width = width
+        bin_of = first_row // width
+        cuts = np.flatnonzero(np.r_[True, bin_of[1:] != bin_of[:-1]])
+        if cuts.size < first_row.size:  # merge the excursions of each bin: the worst one's margin and time
+            start, end, margin_, time = columns
+            worst = np.minimum.reduceat(margin_, cuts)
+            position = np.arange(first_row.size)
+            at_worst = np.minimum.reduceat(
+                np.where(margin_ == np.repeat(worst, np.diff(np.r_[cuts, first_row.size])), position, first_row.size),
+                cuts,
+            )
+            columns = [start[cuts], np.maximum.reduceat(end, cuts), worst, time[at_worst]]
+            first_row = first_row[cuts]
+        self.first_row, self.kept = first_row, columns
+
+    def result(self) -> dict[str, np.ndarray]:
+        """The kept spans: ``start``, ``end`` [s], ``margin`` (fraction), ``margin_time`` [s], each ``(spans,)``."""
+        return {name: values.copy() for name, values in zip(self.names, self.kept, strict=True)}
+
+
+def judged_margin_line(
+    t_s: np.ndarray, dc_margin: np.ndarray, spans: dict[str, np.ndarray]
+) -> tuple[np.ndarray, np.ndarray]:
+    """The margin of thinned samples against the boundary that judged them, with each span's worst.
+
+    A sample above the DC boundary (DC margin below 0) inside an excursion span takes the
+    span's judged margin (the excursion's least margin against its pulse curve); every
+    other sample keeps its DC margin. Each span's least margin is added at its own time,
+    so the worst excursion of every bin is drawn even when no kept sample lies in it.
+
+    Parameters
+    ----------
+    t_s, dc_margin
+        Kept samples' times [s] and margins to the DC boundary (fraction), each ``(n,)``.
+    spans
+        :meth:`SpanThinner.result`.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        Times [s] and margins (fraction), in time order, each ``(n + spans,)``.
+    """
+    t = np.asarray(t_s, dtype=float)
+    margin = np.asarray(dc_margin, dtype=float).copy()
+    start, end = spans["start"], spans["end"]
+    if start.size:
+        k = np.searchsorted(start, t, side="right") - 1
+        inside = (k >= 0) & (t <= end[np.maximum(k, 0)]) & (margin < 0)
+        margin[inside] = spans["margin"][k[inside]]
+    times = np.r_[t, spans["margin_time"]]
+    order = np.argsort(times, kind="stable")
+    return times[order], np.r_[margin, spans["margin"]][order]

@@ -24,7 +24,7 @@ import numpy as np
 from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
 from soacheck.derating import BreakdownDerating, breakdown_note, mechanism_factors, policy_note
 from soacheck.errors import SoacheckError
-from soacheck.excursions import OpenRun, excess_margin, merge_runs, run_edges
+from soacheck.excursions import OpenRun, excess_margin, first_at_max, merge_runs, run_edges, run_maxima
 from soacheck.instability import instability_line, instability_notes
 from soacheck.mechanisms import MechanismLine, mechanism_lines
 from soacheck.parts import Part
@@ -35,7 +35,7 @@ from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import ThermalState, temperature_rise
-from soacheck.thinning import PeakThinner
+from soacheck.thinning import PeakThinner, SpanThinner
 from soacheck.units import format_duration
 
 
@@ -59,6 +59,9 @@ class TraceResult:
     excursions: int
     assumptions: tuple[str, ...]
     plot: dict[str, np.ndarray] = field(default_factory=dict)
+    # thinned excursions for the plot: start, end [s] (first and last sample), margin against the
+    # boundary that judged each (fraction), margin_time [s] (see soacheck.thinning.SpanThinner)
+    excursion_spans: dict[str, np.ndarray] = field(default_factory=dict)
     margin_to_rating: float | None = None
     policy: dict[str, object] = field(default_factory=lambda: NO_POLICY.to_dict())
 
@@ -203,6 +206,8 @@ class TraceChecker:
         # each bin keeps the samples of highest voltage, current and junction temperature and of least margin
         keys = 3 + (self.junction is not None)
         self.thinner = PeakThinner(plot_points // keys, names, keys) if plot_points >= keys else None
+        # each excursion's span and its margin against the boundary that judged it, for the plot's margin line
+        self.spans = SpanThinner(plot_points // keys) if plot_points >= keys else None
         # under a policy, a twin judges the same samples against the absolute ratings
         self.rated = (
             None
@@ -222,13 +227,25 @@ class TraceChecker:
         """
         factors = mechanism_factors(start_c, self.part, self.breakdown)
         log_v = np.log(np.maximum(v, 1e-300))
-        with np.errstate(divide="ignore"):
-            stacked = [
-                line(log_v) + (np.repeat(np.log(factors[line.mechanism]), lengths) if line.derated else 0.0)
-                for line in self.lines[index]
-            ]
-        blocked = (v > self.part.v_limit_v) | np.repeat(start_c >= self.part.tj_limit_c, lengths)
-        log_allowed = np.where(blocked, -np.inf, np.min(stacked, axis=0))
+        log_allowed = None
+        for line in self.lines[index]:
+            with np.errstate(divide="ignore"):
+                log_factor = np.log(factors[line.mechanism]) if line.derated else np.zeros(1)
+            if line.log_v.size == 1:  # a constant (a current limit): derated per run, no pass over samples
+                y = (
+                    np.repeat(line.log_i[0] + log_factor, lengths)
+                    if log_factor.size > 1
+                    else line.log_i[0] + log_factor[0]
+                )
+            else:
+                y = line(log_v)
+                if np.any(log_factor != 0):
+                    y += np.repeat(log_factor, lengths) if log_factor.size > 1 else log_factor[0]
+            log_allowed = y if log_allowed is None else np.minimum(log_allowed, y, out=y if np.ndim(y) else None)
+        log_allowed = np.broadcast_to(log_allowed, v.shape).copy() if np.ndim(log_allowed) == 0 else log_allowed
+        blocked_run = start_c >= self.part.tj_limit_c
+        if blocked_run.any() or np.max(v) > self.part.v_limit_v:
+            log_allowed[(v > self.part.v_limit_v) | np.repeat(blocked_run, lengths)] = -np.inf
         with np.errstate(divide="ignore", invalid="ignore"):
             return np.log(i) - log_allowed
 
@@ -281,32 +298,34 @@ class TraceChecker:
             self._temperature(t, rise_j)
 
         excess = self._excess(self.dc, v, i, tc)
-        # fail safe: a sample that carries current but could not be evaluated is never inside
-        unevaluated = np.isnan(excess) & (i > 0)
-        if tc is not None:
-            unevaluated |= ~np.isfinite(tc)
-        if rise_j is not None:
-            unevaluated |= ~np.isfinite(rise_j)
-        if unevaluated.any():
-            self.worst.violation(float(t[int(np.argmax(unevaluated))]), None, "invalid")
         k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
         has_nan = bool(np.isnan(excess[k]))  # argmax finds a NaN first if there is one
-        if excess[k] > 0 or np.isnan(excess[k]):
+        # fail safe: a sample that carries current but could not be evaluated is never inside
+        # (a sum is NaN or infinite when any term is: one pass finds out whether to look closer)
+        unevaluated = (np.isnan(excess) & (i > 0)) if has_nan else None
+        for temps in (tc, rise_j):
+            if temps is not None and not np.isfinite(np.sum(temps)):
+                unevaluated = ~np.isfinite(temps) if unevaluated is None else unevaluated | ~np.isfinite(temps)
+        if unevaluated is not None and unevaluated.any():
+            self.worst.violation(float(t[int(np.argmax(unevaluated))]), None, "invalid")
+        if excess[k] > 0 or has_nan:
             outside = excess > 0
-            worst_inside = np.fmax.reduce(excess, where=~outside, initial=-np.inf)
-            k = int(np.argmax(np.where(outside, -np.inf, excess))) if np.isfinite(worst_inside) else 0
+            # the DC excess between excursions, NaN (margin 1) as −inf: the worst inside, and the plot's key
+            between = np.where(outside | np.isnan(excess) if has_nan else outside, -np.inf, excess)
+            k = int(np.argmax(between))
+            worst_inside = between[k]
         else:
             outside = None
+            between = excess
             worst_inside = excess[k]
         if self.open is not None and (outside is None or not outside[0]):  # it ended at this chunk's first sample
             self._close(self.open, float(t[0]))
             self.open = None
         if outside is not None and outside.any():
-            tj = None if rise_j is None else self.reference_c + rise_j
-            self._excursions(t, v, i, tc, tj, outside, excess)
+            self._excursions(t, v, i, tc, rise_j, outside, excess)
         if np.isfinite(worst_inside):
             self.worst.margin_candidate(float(-np.expm1(worst_inside)), float(t[k]))
-        self._keep_for_plot(t, v, i, tc, rise_j, excess, nan_excess=has_nan)
+        self._keep_for_plot(t, v, i, tc, rise_j, excess, between)
         self.samples += t.size
         self.last_t, self.last_p = float(t[-1]), float(p[-1])
 
@@ -323,92 +342,141 @@ class TraceChecker:
             self.worst.violation(float(t[int(np.argmax(over))]), None, self.part.tj_limit)
         self.over_pending = bool(over[-1])
 
-    def _excursions(self, t, v, i, tc, tj, outside, excess) -> None:
-        """Reduce each run of samples above the DC boundary per boundary, and judge the runs that ended.
+    def _excursions(self, t, v, i, tc, rise_j, outside, excess) -> None:
+        """Reduce each run above the DC boundary under the boundary that judges it; judge the runs that ended.
 
         With a thermal model the pulse curves' lines (second breakdown, instability, current) are
         derated at the junction temperature at the excursion's first sample, where the pulse
         starts, not at the case temperature: single-pulse curves hold for a junction that
         starts at the case temperature (common practice, no source), and a pulse that follows
         others or a standing current starts hotter.
+
+        A run that ends in this chunk is evaluated under its judging boundary only (known from
+        its duration); the run still open at the chunk's end under every boundary that may
+        still judge it (those at least as long as it is so far). Each run is reduced in one
+        linear pass over its log excess (see :mod:`soacheck.excursions`).
         """
-        n_b = len(self.lines)
         rows = np.flatnonzero(outside)
-        starts, ends = run_edges(outside)
+        starts, ends = run_edges(rows)
         lengths = ends - starts
         offsets = np.r_[0, np.cumsum(lengths)[:-1]]
-        start_tj = np.full(starts.size, np.nan) if tj is None else tj[starts]
-        if self.open is not None and starts.size and starts[0] == 0:  # the open excursion started in a past chunk
-            start_tj[0] = self.open.start_tj_c
-        start_rows = np.repeat(start_tj, lengths)
+        start_tj = np.full(starts.size, np.nan) if rise_j is None else self.reference_c + rise_j[starts]
+        start_s = t[starts]
+        start_row = self.samples + starts
+        continued = (
+            self.open
+        )  # an excursion open since a past chunk goes on in the first run (feed closed it otherwise)
+        self.open = None
+        if continued is not None:
+            start_tj[0], start_s[0], start_row[0] = continued.start_tj_c, continued.start_s, continued.start_row
         if np.isfinite(start_tj).any():
             self.start_tj_peak = max(self.start_tj_peak, float(np.nanmax(start_tj)))
-        margins = np.empty((n_b, rows.size))
-        for b in range(n_b):
+        still_open = bool(ends[-1] == t.size)
+        closed = starts.size - still_open
+        # the judging boundary of each run that ended; of the open run, the shortest that may still judge it
+        boundary = self._boundary_for(t[np.minimum(ends, t.size - 1)] - start_s)
+        v_rows, i_rows = v[rows], i[rows]
+        judged = excess[rows]
+        closed_rows = int(offsets[-1]) if still_open else rows.size
+        for b in np.unique(boundary[:closed]):
             if b == self.dc:
-                sub = excess[rows]
-            elif tj is not None:
-                sub = self._excess_from_start(b, v[rows], i[rows], start_tj, lengths)
-            else:
-                sub = self._excess(b, v[rows], i[rows], None if tc is None else tc[rows])
-            margins[b] = excess_margin(sub)
-        t_rows = t[rows]
-        nxt = rows + 1
-        hold = np.zeros(rows.size)
-        known = nxt < t.size  # the hold of the chunk's last sample is known only with the next chunk
-        hold[known] = t[nxt[known]] - t_rows[known]
-        negative = margins < 0
-        position = np.arange(rows.size)
-        min_margin = np.minimum.reduceat(margins, offsets, axis=1)  # (boundaries, runs)
-        # the first sample of each run at its least margin: linear, where a sort per run was not
-        at_min = margins == np.repeat(min_margin, lengths, axis=1)
-        arg_min = np.minimum.reduceat(np.where(at_min, position, rows.size), offsets, axis=1)
-        first_negative = np.minimum.reduceat(np.where(negative, position, rows.size), offsets, axis=1)
-        negative_s = np.add.reduceat(np.where(negative, hold, 0.0), offsets, axis=1)
-        case_rows = np.full(rows.size, self.reference_c) if tc is None else tc[rows]
-        vit = np.column_stack([v[rows], i[rows], case_rows, start_rows])
-
-        def run_state(r: int) -> OpenRun:
-            has_negative = first_negative[:, r] < rows.size
-            k = np.where(has_negative, first_negative[:, r], 0)
-            return OpenRun(
-                start_s=float(t[starts[r]]),
-                min_margin=min_margin[:, r].copy(),
-                min_time=t_rows[arg_min[:, r]],
-                first_negative_s=np.where(has_negative, t_rows[k], np.inf),
-                first_negative_sample=[(*map(float, vit[k[b]]), b) if has_negative[b] else None for b in range(n_b)],
-                negative_s=negative_s[:, r].copy(),
-                pending_negative=negative[:, offsets[r] + lengths[r] - 1] if ends[r] == t.size else np.zeros(n_b, bool),
-                last_t=float(t[ends[r] - 1]),
-                start_tj_c=float(start_tj[r]),
+                continue
+            runs = boundary[:closed] == b
+            sel = slice(0, closed_rows) if runs.all() else np.flatnonzero(np.repeat(runs, lengths[:closed]))
+            judged[sel] = self._excess_from_start(
+                int(b), v_rows[sel], i_rows[sel], start_tj[:closed][runs], lengths[:closed][runs]
             )
 
-        closed = np.arange(starts.size)
-        if self.open is not None:  # the first run continues the excursion left open by the last chunk
-            merged = merge_runs(self.open, run_state(0), float(t[0]))
-            self.open = None
-            if ends[0] < t.size:
-                self._close(merged, float(t[ends[0]]))
+        def case_at(k: int) -> float:
+            return self.reference_c if tc is None else float(tc[rows[k]])
+
+        def sample_at(k: int, r: int) -> tuple:  # what names the limit of a violation (see result)
+            return (float(v_rows[k]), float(i_rows[k]), case_at(k), float(start_tj[r]), int(boundary[r]))
+
+        if closed:
+            head = judged[:closed_rows]
+            top = run_maxima(head, offsets[:closed])
+            margin = excess_margin(top)
+            margin_time = np.full(closed, np.nan)
+            if continued is not None:  # run 0 ends the open excursion: its earlier chunks count too
+                b0 = int(boundary[0])
+                if continued.min_margin[b0] <= margin[0]:
+                    margin[0], margin_time[0] = continued.min_margin[b0], continued.min_time[b0]
+                self.time_outside += float(
+                    continued.negative_s[b0] + continued.pending_negative[b0] * (t[0] - continued.last_t)
+                )
+                if math.isfinite(continued.first_negative_s[b0]):
+                    self.worst.violation(float(continued.first_negative_s[b0]), continued.first_negative_sample[b0])
+            positive = head > 0
+            if positive.any():
+                at = rows[:closed_rows][positive]
+                self.time_outside += float(np.sum(t[at + 1] - t[at]))  # a run that ended: every hold is known
+                k = int(np.argmax(positive))
+                r = int(np.searchsorted(offsets[:closed], k, side="right") - 1)
+                self.worst.violation(float(t[rows[k]]), sample_at(k, r))
+            # the time of each run's least margin, found only where it is needed: the worst run, and spans to plot
+            worst = int(np.argmin(margin))
+            if self.spans is not None:  # every run's: the first sample at its highest excess (linear, no sort)
+                at_top = np.minimum.reduceat(
+                    np.where(head == np.repeat(top, lengths[:closed]), np.arange(closed_rows), closed_rows),
+                    offsets[:closed],
+                )
+                at_top = np.where(at_top < closed_rows, at_top, offsets[:closed])  # all NaN: the first sample
+                margin_time = np.where(np.isnan(margin_time), t[rows[at_top]], margin_time)
+            elif math.isnan(margin_time[worst]):
+                lo = offsets[worst]
+                margin_time[worst] = t[rows[lo + first_at_max(head[lo : lo + lengths[worst]])]]
+            self.excursions += closed
+            self.worst.margin_candidate(float(margin[worst]), float(margin_time[worst]))
+            if self.spans is not None:
+                self.spans.add(start_row[:closed], start_s[:closed], t[ends[:closed] - 1], margin, margin_time)
+        if still_open:
+            self.open = self._open_run(t, rows, v_rows, i_rows, judged, int(offsets[-1]), start_s[-1], start_tj[-1],
+                                       int(start_row[-1]), int(boundary[-1]), case_at)  # fmt: skip
+            if continued is not None and closed == 0:
+                self.open = merge_runs(continued, self.open, float(t[0]))
+
+    def _open_run(
+        self, t, rows, v_rows, i_rows, judged, lo, start_s, start_tj, start_row, shortest, case_at
+    ) -> OpenRun:
+        """The run still open at the chunk's end, reduced under each boundary from ``shortest`` to DC."""
+        n_b = len(self.lines)
+        at = rows[lo:]
+        t_run = t[at]
+        hold = np.r_[np.diff(t_run), 0.0]  # the last sample's hold is known only with the next chunk
+        run = OpenRun(
+            start_s=float(start_s),
+            min_margin=np.full(n_b, np.nan),
+            min_time=np.full(n_b, np.nan),
+            first_negative_s=np.full(n_b, np.inf),
+            first_negative_sample=[None] * n_b,
+            negative_s=np.zeros(n_b),
+            pending_negative=np.zeros(n_b, dtype=bool),
+            last_t=float(t_run[-1]),
+            start_tj_c=float(start_tj),
+            start_row=start_row,
+        )
+        for b in range(shortest, n_b):
+            if b == self.dc:
+                x = judged[lo:]
             else:
-                self.open = merged
-            closed = closed[1:]
-        if closed.size and ends[closed[-1]] == t.size:
-            self.open = run_state(int(closed[-1]))
-            closed = closed[:-1]
-        if closed.size:
-            self._judge_many(
-                t[ends[closed]] - t[starts[closed]],
-                min_margin[:, closed],
-                t_rows[arg_min[:, closed]],
-                np.where(
-                    first_negative[:, closed] < rows.size,
-                    t_rows[np.minimum(first_negative[:, closed], rows.size - 1)],
-                    np.inf,
-                ),
-                np.minimum(first_negative[:, closed], rows.size - 1),
-                negative_s[:, closed],
-                vit,
-            )
+                x = self._excess_from_start(b, v_rows[lo:], i_rows[lo:], np.array([start_tj]), np.array([at.size]))
+            run.min_margin[b] = float(excess_margin(np.fmax.reduce(x)))
+            run.min_time[b] = t_run[first_at_max(x)]
+            positive = x > 0
+            if positive.any():
+                k = int(np.argmax(positive))
+                run.first_negative_s[b] = t_run[k]
+                run.first_negative_sample[b] = (
+                    float(v_rows[lo + k]),
+                    float(i_rows[lo + k]),
+                    case_at(lo + k),
+                    float(start_tj),
+                    b,
+                )
+                run.negative_s[b] = float(np.sum(hold[positive]))
+                run.pending_negative[b] = bool(positive[-1])
+        return run
 
     def _boundary_for(self, duration_s: np.ndarray) -> np.ndarray:
         """Which boundary judges an excursion of this duration: the next longer pulse curve, or DC."""
@@ -416,20 +484,6 @@ class TraceChecker:
             return np.full(np.shape(duration_s), self.dc)
         index = np.searchsorted(self.widths_s, np.asarray(duration_s, dtype=float) * (1 - 1e-9))
         return np.minimum(index, self.dc)
-
-    def _judge_many(self, duration_s, min_margin, min_time, first_negative_s, first_k, negative_s, vit) -> None:
-        """Judge excursions that ended, all at once; arrays are (boundaries, runs)."""
-        runs = np.arange(duration_s.size)
-        b = self._boundary_for(duration_s)
-        self.excursions += runs.size
-        worst = int(np.argmin(min_margin[b, runs]))
-        self.worst.margin_candidate(float(min_margin[b[worst], worst]), float(min_time[b[worst], worst]))
-        failed = np.isfinite(first_negative_s[b, runs])
-        self.time_outside += float(np.sum(negative_s[b, runs][failed]))
-        if failed.any():
-            first = int(np.argmin(np.where(failed, first_negative_s[b, runs], np.inf)))
-            sample = (*map(float, vit[first_k[b[first], first]]), int(b[first]))
-            self.worst.violation(float(first_negative_s[b[first], first]), sample)
 
     def _close(self, run: OpenRun, end_s: float) -> None:
         """An excursion ended at ``end_s`` (the first sample back inside): judge it."""
@@ -443,12 +497,16 @@ class TraceChecker:
         if math.isfinite(run.first_negative_s[b]):
             self.time_outside += float(run.negative_s[b])
             self.worst.violation(float(run.first_negative_s[b]), run.first_negative_sample[b])
+        if self.spans is not None:
+            self.spans.add([run.start_row], [run.start_s], [run.last_t], [run.min_margin[b]], [run.min_time[b]])
 
-    def _keep_for_plot(self, t, v, i, tc, rise_j, excess, *, nan_excess: bool) -> None:
+    def _keep_for_plot(self, t, v, i, tc, rise_j, excess, between) -> None:
+        """Thin the chunk for the plot: each bin keeps its highest V, I, Tj and its least DC margin
+        between excursions (``between``: the DC excess there, −inf in excursions and where the
+        margin is 1); an excursion's margin, against the boundary that judged it, is kept with
+        its span."""
         if self.thinner is None:
             return
-        if nan_excess:  # zero current where nothing is allowed: margin 1, never the least
-            excess = np.where(np.isnan(excess), -np.inf, excess)
         heat = [] if rise_j is None else [rise_j]
 
         def columns_at(k: np.ndarray) -> list[np.ndarray]:
@@ -456,7 +514,7 @@ class TraceChecker:
             tj = [] if rise_j is None else [self.reference_c + rise_j[k]]
             return [t[k], v[k], i[k], case, *tj, excess_margin(excess[k])]
 
-        self.thinner.add([v, i, *heat, excess], columns_at)
+        self.thinner.add([v, i, *heat, between], columns_at)
 
     # ----------------------------------------------------------------- result
 
@@ -489,6 +547,7 @@ class TraceChecker:
         violated = math.isfinite(self.worst.violation_time)
         worst = self.worst.margin
         plot = self.thinner.result() if self.thinner is not None else {}
+        spans = self.spans.result() if self.spans is not None else {}
         return TraceResult(
             part_id=self.part.id,
             passed=not violated,
@@ -506,6 +565,7 @@ class TraceChecker:
             excursions=self.excursions,
             assumptions=tuple(notes),
             plot=plot,
+            excursion_spans=spans,
             margin_to_rating=(worst if math.isfinite(worst) else None)
             if self.rated is None
             else self.rated.result().margin,
