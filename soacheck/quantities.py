@@ -125,11 +125,21 @@ class Quantity:
     def check_array(self, values: np.ndarray, where_row) -> np.ndarray:
         """Every value of an array; ``where_row(k)`` names the place of the first bad one (a file line)."""
         array = np.asarray(values, dtype=float)
+        if self.holds(array):
+            return array
         bad = np.flatnonzero(~(np.isfinite(array) & self._inside(array)))
         if bad.size:
             k = int(bad[0])
             raise self._error(where_row(k), _fmt(array[k]) if math.isfinite(array[k]) else str(array[k]))
         return array
+
+    def holds(self, values: np.ndarray) -> bool:
+        """Whether every value is finite and in range, from the least and the greatest (a NaN makes both NaN)."""
+        array = np.asarray(values, dtype=float)
+        if array.size == 0:
+            return True
+        ends = np.array([array.min(), array.max()])
+        return bool(np.isfinite(ends).all() and self._inside(ends).all())
 
     def _inside(self, x: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore"):

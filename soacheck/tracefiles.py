@@ -45,16 +45,34 @@ def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: i
     missing = [name for name in TRACE_COLUMNS if name not in frame.columns]
     if missing:
         raise SoacheckError(f"{where}: missing column '{missing[0]}'; a trace has the columns time,voltage,current")
-    pieces = (frame.iloc[k : k + chunk_rows] for k in range(0, len(frame), max(chunk_rows, 1)))
+    pieces = (
+        tuple(frame[name].iloc[k : k + chunk_rows].to_numpy(dtype=float) for name in TRACE_COLUMNS)
+        for k in range(0, len(frame), max(chunk_rows, 1))
+    )
     yield from _checked_chunks(where, pieces)
+
+
+def _clean(t: np.ndarray, v: np.ndarray, i: np.ndarray, last_t: float | None) -> bool:
+    """Whether a chunk passes every check of :func:`_checked_chunks`, decided from the least and
+    greatest value of each column and of the time steps: a few passes, where finding the first
+    bad row takes many (done only when this says no)."""
+    quantities = (TIME, SAMPLE_VOLTAGE, SAMPLE_CURRENT)  # their ranges exclude negative voltage and current
+    if not all(q.holds(x) for q, x in zip(quantities, (t, v, i), strict=True)):
+        return False
+    rising = t.size < 2 or np.diff(t).min() > 0
+    return bool(rising and (last_t is None or t[0] > last_t))
 
 
 def _checked_chunks(path: Path | str, chunks):
     last_t = None
     first_row = 0
-    for frame in chunks:
-        t, v, i = (frame[name].to_numpy(dtype=float) for name in TRACE_COLUMNS)
+    for t, v, i in chunks:
         if t.size == 0:
+            continue
+        if _clean(t, v, i, last_t):
+            yield t, v, i, first_row
+            last_t = float(t[-1])
+            first_row += t.size
             continue
         for name, values in (("time", t), ("voltage", v), ("current", i)):
             bad = np.flatnonzero(~np.isfinite(values))
@@ -110,20 +128,22 @@ def _csv_chunks(path: Path, chunk_rows: int):
     with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
         for raw in reader:
             raw.columns = [c.strip().lower() for c in raw.columns]
-            frame = raw.copy()
+            columns = []
             for name in TRACE_COLUMNS:
                 if pd.api.types.is_numeric_dtype(raw[name]):
+                    columns.append(raw[name].to_numpy(dtype=float))
                     continue
-                frame[name] = pd.to_numeric(raw[name], errors="coerce")
-                bad = np.flatnonzero(frame[name].isna().to_numpy() & raw[name].notna().to_numpy())
+                numbers = pd.to_numeric(raw[name], errors="coerce")
+                bad = np.flatnonzero(numbers.isna().to_numpy() & raw[name].notna().to_numpy())
                 if bad.size:
                     k = int(bad[0])
                     raise SoacheckError(
                         f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; "
                         "write a plain number"
                     )
-            offset += len(frame)
-            yield frame
+                columns.append(numbers.to_numpy(dtype=float))
+            offset += len(raw)
+            yield tuple(columns)
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):
@@ -144,9 +164,8 @@ def _parquet_chunks(path: Path, chunk_rows: int):
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
     columns = [handle.schema_arrow.names[names.index(n)] for n in TRACE_COLUMNS]
     for batch in handle.iter_batches(batch_size=chunk_rows, columns=columns):
-        frame = batch.to_pandas()
-        frame.columns = list(TRACE_COLUMNS)
-        yield frame
+        # straight to numpy, no frame in between; nulls become NaN, which the checks then name
+        yield tuple(column.to_numpy(zero_copy_only=False).astype(float, copy=False) for column in batch.columns)
 
 
 def read_trace(path: str | Path) -> Trajectory:
