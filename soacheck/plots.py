@@ -36,6 +36,7 @@ from soacheck.plotstyle import (
 )
 from soacheck.points import PointCheck
 from soacheck.stage_run import StageRun
+from soacheck.thinning import judged_margin_line
 from soacheck.trace import TraceResult
 from soacheck.units import DC, format_duration
 
@@ -201,11 +202,12 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
 
     The SOA panel is zoomed to the trajectory (the whole SOA in an inset) over the DC
     boundary derated at the lowest and the highest case temperature seen. The margin panel
-    shows the margin to the DC boundary; samples above it belong to excursions, which the
-    check judges as pulses against the pulse curves, so a passing trace can dip below zero
-    there (the title gives the verdict and the least margin the check found). The first
-    violation is marked on every panel. Traces are thinned to about 20 000 samples for
-    drawing; the check itself used every sample.
+    shows the margin against the boundary that judged each sample: the DC boundary between
+    excursions, and inside an excursion its least margin against the pulse curve that
+    judged it (:func:`soacheck.thinning.judged_margin_line`), so a passing trace stays at
+    or above zero. The first violation is marked on every panel. Traces are thinned to
+    about 20 000 samples for drawing (excursions merged per bin, the worst kept); the
+    check itself used every sample.
     """
     fig = Figure(figsize=(14, 7), layout="constrained")
     layout = fig.add_gridspec(2, 2, width_ratios=[1.1, 1])
@@ -230,8 +232,10 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     ax_tj.plot(t, data["case_temp"], color=OKABE_CASE, lw=1.0, linestyle="--", label="case Tc")
     ax_tj.axhline(part.tj_limit_c, color="k", ls=":", lw=0.8, label=part.tj_limit)
     ax_tj.set_ylabel("temperature [°C]")
-    ax_margin.plot(t, 100 * np.clip(data["margin"], -1, 1), color=series_style(0)["color"], lw=0.8,
-                   label="margin to DC boundary")  # fmt: skip
+    margin_t_s, margin = judged_margin_line(data["time"], data["margin"], result.excursion_spans)
+    label = "margin, as judged:\nDC boundary between excursions,\nthe pulse curve inside each"
+    ax_margin.plot(margin_t_s / size_s, 100 * np.clip(margin, -1, 1), color=series_style(0)["color"], lw=0.8,
+                   label=label, gid="judged-margin")  # fmt: skip
     ax_margin.axhline(0, color="k", lw=0.5)
     ax_margin.set_ylim(-105, 105)
     ax_margin.set_ylabel("margin [%]")
@@ -239,7 +243,8 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
         tv = result.first_violation_time_s / size_s
         k = int(np.argmin(np.abs(data["time"] - result.first_violation_time_s)))
         mark_violation(ax_soa, float(data["voltage"][k]), float(data["current"][k]))
-        mark_violation(ax_margin, float(tv), float(100 * np.clip(data["margin"][k], -1, 1)))
+        m = int(np.argmin(np.abs(margin_t_s - result.first_violation_time_s)))
+        mark_violation(ax_margin, float(tv), float(100 * np.clip(margin[m], -1, 1)))
         ax_tj.axvline(float(tv), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
     _relegend(ax_soa)
     for ax in (ax_tj, ax_margin):

@@ -179,7 +179,7 @@ def judged_margin_line(
     t_s, dc_margin
         Kept samples' times [s] and margins to the DC boundary (fraction), each ``(n,)``.
     spans
-        :meth:`SpanThinner.result`.
+        :meth:`SpanThinner.result` (empty: no excursions).
 
     Returns
     -------
@@ -188,11 +188,12 @@ def judged_margin_line(
     """
     t = np.asarray(t_s, dtype=float)
     margin = np.asarray(dc_margin, dtype=float).copy()
+    if not spans or spans["start"].size == 0:
+        return t, margin
     start, end = spans["start"], spans["end"]
-    if start.size:
-        k = np.searchsorted(start, t, side="right") - 1
-        inside = (k >= 0) & (t <= end[np.maximum(k, 0)]) & (margin < 0)
-        margin[inside] = spans["margin"][k[inside]]
+    k = np.searchsorted(start, t, side="right") - 1
+    inside = (k >= 0) & (t <= end[np.maximum(k, 0)]) & (margin < 0)
+    margin[inside] = spans["margin"][k[inside]]
     times = np.r_[t, spans["margin_time"]]
     order = np.argsort(times, kind="stable")
     return times[order], np.r_[margin, spans["margin"]][order]

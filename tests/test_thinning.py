@@ -10,7 +10,7 @@ import pytest
 
 from soacheck.library import bundled_library
 from soacheck.partfiles import read_part
-from soacheck.thinning import PeakThinner, bin_maxima
+from soacheck.thinning import PeakThinner, SpanThinner, bin_maxima
 from soacheck.trace import TraceChecker
 
 
@@ -60,3 +60,30 @@ def test_the_trace_checker_keeps_a_bounded_plot_whatever_the_chunk_size():
         assert plot["tj"].max() == pytest.approx(checker.result().tj_peak_c)
         sizes.append(plot["time"].size)
     assert max(sizes) <= 2 * 2000
+
+
+@pytest.mark.parametrize("batch", [1, 7, 5000])
+def test_excursion_spans_keep_the_worst_of_each_within_the_budget(batch):
+    # 5000 excursions of 3 samples every 10 (invented): each kept span must cover whole
+    # excursions and carry the least margin among them with its time, checked by a loop
+    rng = np.random.default_rng(8)
+    first = np.arange(5000) * 10
+    start_s, end_s = first * 1e-3, (first + 2) * 1e-3
+    margin = rng.uniform(-0.5, 1.0, first.size)
+    margin_time = start_s + 1e-3
+    spans = SpanThinner(64)
+    for lo in range(0, first.size, batch):
+        part = slice(lo, lo + batch)
+        spans.add(first[part], start_s[part], end_s[part], margin[part], margin_time[part])
+    kept = spans.result()
+    assert 32 <= kept["start"].size <= 64  # the budget, at least half used
+    assert kept["margin"].min() == margin.min()  # the worst excursion survives
+    assert np.all(kept["end"][:-1] < kept["start"][1:])  # spans in time order, not overlapping
+    for start, end, least, when in zip(*(kept[name] for name in SpanThinner.names), strict=True):
+        covered = (start_s >= start) & (end_s <= end)
+        assert covered.any() and least == margin[covered].min()
+        assert when == margin_time[covered][np.argmin(margin[covered])]
+    covered_all = np.zeros(first.size, bool)
+    for start, end in zip(kept["start"], kept["end"], strict=True):
+        covered_all |= (start_s >= start) & (end_s <= end)
+    assert covered_all.all()  # no excursion is dropped from the plot, only merged
