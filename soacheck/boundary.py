@@ -25,7 +25,7 @@ import numpy as np
 
 from soacheck.derating import BreakdownDerating, mechanism_factors
 from soacheck.instability import instability_line
-from soacheck.mechanisms import MechanismLine, current_cap_a, mechanism_lines
+from soacheck.mechanisms import MechanismLine, current_cap_a, interp_chunk, mechanism_lines
 from soacheck.parts import REFERENCE_CASE_C, Part, SoaCurve
 from soacheck.repeated import repeated_pulse_lines
 from soacheck.thermal_model import thermal_model
@@ -341,8 +341,12 @@ class BoundaryPolyline:
         slope = (y[1] - y[0]) / (x[1] - x[0]) if x.size > 1 and np.isfinite(y[:2]).all() else 0.0
         # extend the first piece to the left by one far vertex, so that interp does it all
         x_far = x[0] - 1000.0
-        out = np.interp(lv, np.r_[x_far, x], np.r_[y[0] - 1000.0 * slope, y], right=-np.inf)
-        if np.size(lv) and np.min(lv) < x_far:  # below 1e-434 V, or at 0 V: the far left end
+        bounds = (np.min(lv), np.max(lv)) if np.size(lv) else None
+        far_left = bounds is not None and bounds[0] < x_far  # below 1e-434 V, or at 0 V: the far left end
+        out = interp_chunk(
+            lv, np.r_[x_far, x], np.r_[y[0] - 1000.0 * slope, y], right=-np.inf, bounds=bounds, overwrite_x=not far_left
+        )
+        if far_left:
             left = y[0] if slope == 0 else y[0] + slope * (lv - x[0])
             out = np.where(lv < x_far, left, out)
         return out

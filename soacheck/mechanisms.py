@@ -94,6 +94,39 @@ def classify_slopes(slopes: np.ndarray, *, bipolar: bool) -> np.ndarray:
     return names.astype(str)
 
 
+def interp_chunk(
+    x: np.ndarray,
+    xp: np.ndarray,
+    fp: np.ndarray,
+    *,
+    right: float | None = None,
+    bounds: tuple[float, float] | None = None,
+    overwrite_x: bool = False,
+) -> np.ndarray:
+    """``np.interp(x, xp, fp, right=right)`` to the bit, one straight pass where every ``x`` lies in one piece.
+
+    A chunk of a trace usually stays on one piece xp[j] <= x < xp[j+1] of a boundary; the
+    least and greatest ``x`` (two quick passes) tell, and the piece is then evaluated as
+    slope·(x − xp[j]) + fp[j], the expression ``np.interp`` evaluates, without its search
+    per value. Any other case (several pieces, NaN, beyond the ends, a non-finite vertex)
+    goes to ``np.interp``. Shapes as ``np.interp``: ``x`` any, ``xp`` increasing ``(k,)``;
+    ``bounds``, the least and greatest ``x`` when the caller knows them already;
+    ``overwrite_x``, whether ``x`` (a float array the caller no longer needs) may hold the
+    result, sparing a fresh array.
+    """
+    x = np.asarray(x, dtype=float)
+    if x.size >= 64 and xp.size >= 2:
+        lo, hi = (x.min(), x.max()) if bounds is None else bounds
+        j = int(np.searchsorted(xp, lo, side="right")) - 1
+        if 0 <= j < xp.size - 1 and hi < xp[j + 1] and np.isfinite(fp[j : j + 2]).all():
+            slope = (fp[j + 1] - fp[j]) / (xp[j + 1] - xp[j])
+            out = np.subtract(x, xp[j], out=x if overwrite_x and isinstance(x, np.ndarray) else None)
+            out *= slope
+            out += fp[j]
+            return out
+    return np.interp(x, xp, fp, right=right)
+
+
 @dataclass(frozen=True, eq=False)
 class MechanismLine:
     """A run of consecutive segments of one mechanism, as a piecewise-linear function on log axes.
@@ -123,11 +156,16 @@ class MechanismLine:
         x = np.asarray(log_v, dtype=float)
         if self.log_v.size == 1:
             return np.full(x.shape, self.log_i[0])
-        y = np.interp(x, self.log_v, self.log_i)
-        if x.size and np.min(x) >= self.log_v[0] and np.max(x) <= self.log_v[-1]:
-            return y  # all within the vertices (the common case): no extension to compute
         left = (self.log_i[1] - self.log_i[0]) / (self.log_v[1] - self.log_v[0])
         right = (self.log_i[-1] - self.log_i[-2]) / (self.log_v[-1] - self.log_v[-2])
+        lo, hi = (np.min(x), np.max(x)) if x.size else (self.log_v[0], self.log_v[0])
+        if lo >= self.log_v[0] and hi <= self.log_v[-1]:  # within the vertices (the common case)
+            return interp_chunk(x, self.log_v, self.log_i, bounds=(lo, hi))
+        if hi < self.log_v[0]:  # all on the left extension: one straight pass
+            return self.log_i[0] + left * (x - self.log_v[0])
+        if lo > self.log_v[-1]:
+            return self.log_i[-1] + right * (x - self.log_v[-1])
+        y = np.interp(x, self.log_v, self.log_i)
         y = np.where(x < self.log_v[0], self.log_i[0] + left * (x - self.log_v[0]), y)
         return np.where(x > self.log_v[-1], self.log_i[-1] + right * (x - self.log_v[-1]), y)
 

@@ -226,7 +226,8 @@ class TraceChecker:
         the derating factors are computed once per run, the lines once per sample.
         """
         factors = mechanism_factors(start_c, self.part, self.breakdown)
-        log_v = np.log(np.maximum(v, 1e-300))
+        log_v = np.maximum(v, 1e-300)
+        np.log(log_v, out=log_v)
         log_allowed = None
         for line in self.lines[index]:
             with np.errstate(divide="ignore"):
@@ -247,7 +248,9 @@ class TraceChecker:
         if blocked_run.any() or np.max(v) > self.part.v_limit_v:
             log_allowed[(v > self.part.v_limit_v) | np.repeat(blocked_run, lengths)] = -np.inf
         with np.errstate(divide="ignore", invalid="ignore"):
-            return np.log(i) - log_allowed
+            excess = np.log(i)
+            excess -= log_allowed
+        return excess
 
     def _excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
         """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
@@ -265,7 +268,8 @@ class TraceChecker:
             with np.errstate(divide="ignore"):
                 log_allowed = np.where(blocked, -np.inf, np.log(allowed))
         with np.errstate(divide="ignore", invalid="ignore"):
-            excess = np.log(i) - log_allowed
+            excess = np.log(i)
+            excess -= log_allowed  # in place: one fresh array less per chunk
         return excess  # NaN only for zero current where nothing is allowed: compares as inside
 
     # ----------------------------------------------------------------- feeding
@@ -333,9 +337,12 @@ class TraceChecker:
         k = int(np.argmax(rise))
         if self.reference_c + rise[k] > self.tj_peak:
             self.tj_peak, self.tj_peak_time = float(self.reference_c + rise[k]), float(t[k])
-        over = rise > self.part.tj_limit_c - self.reference_c
         if self.over_pending:  # the last sample of the previous chunk was over, held until now
             self.time_over += float(t[0] - self.last_t)
+        if rise[k] <= self.part.tj_limit_c - self.reference_c:  # the hottest decides the common case (NaN: look on)
+            self.over_pending = False
+            return
+        over = rise > self.part.tj_limit_c - self.reference_c
         if over.any():
             held = np.diff(t, append=t[-1])  # the chunk's last hold is added with the next chunk
             self.time_over += float(np.sum(held[over]))

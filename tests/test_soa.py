@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from soacheck.boundary import allowed_current, boundary_polyline
 from soacheck.derating import breakdown_factor, thermal_factor
-from soacheck.mechanisms import classify_slopes, segment_slopes
+from soacheck.mechanisms import classify_slopes, interp_chunk, segment_slopes
 from soacheck.points import check_points
 from soacheck.region import path_crossings, region_polygon
 
@@ -356,3 +356,21 @@ def test_polyline_fast_path_agrees_with_allowed_current(index, tc_c, pulse):
     v = np.geomspace(1e-4, part.ratings.v_max_v * 1.5, 400)
     expected = allowed_current(v, part, tc_c=tc_c, pulse_s=pulse).current_a
     assert poly.current_at(v) == pytest.approx(expected, rel=1e-9, abs=1e-300)
+
+
+@pytest.mark.parametrize("where", ["one piece", "on a vertex", "several pieces", "beyond the last", "NaN", "few"])
+def test_interpolating_a_chunk_on_one_piece_equals_numpy_interp_to_the_bit(where):
+    # the fast path of a trace's chunk must not change a single answer: np.interp is the reference
+    rng = np.random.default_rng(4)
+    xp, fp = np.array([-7.0, 2.6, 2.7, 4.2, 4.9]), np.log([16.0, 16.0, 14.6, 3.45, 1.04])
+    x = {
+        "one piece": rng.uniform(2.75, 4.1, 5000),
+        "on a vertex": np.r_[rng.uniform(2.7, 4.2, 5000), 2.7, 2.7],
+        "several pieces": rng.uniform(2.0, 4.5, 5000),
+        "beyond the last": rng.uniform(4.0, 5.5, 5000),
+        "NaN": np.r_[rng.uniform(2.75, 4.1, 5000), np.nan],
+        "few": rng.uniform(2.75, 4.1, 10),
+    }[where]
+    expected = np.interp(x, xp, fp, right=-np.inf)
+    np.testing.assert_array_equal(interp_chunk(x, xp, fp, right=-np.inf), expected)
+    np.testing.assert_array_equal(interp_chunk(x.copy(), xp, fp, right=-np.inf, overwrite_x=True), expected)
