@@ -218,14 +218,21 @@ class TraceChecker:
     # ----------------------------------------------------------------- evaluation
 
     def _excess_from_start(
-        self, index: int, v: np.ndarray, i: np.ndarray, start_c: np.ndarray, lengths: np.ndarray
+        self, index: int, v: np.ndarray, i: np.ndarray, start_c: np.ndarray, lengths: np.ndarray | None
     ) -> np.ndarray:
-        """ln(I / I_allowed) under pulse boundary ``index``, each run's lines derated where its junction started.
+        """ln(I / I_allowed) under boundary ``index``, the lines derated at a temperature per run or per sample.
 
-        ``start_c`` holds one temperature per run, ``lengths`` the samples of each run in order;
-        the derating factors are computed once per run, the lines once per sample.
+        ``start_c`` holds one temperature per run and ``lengths`` the samples of each run in
+        order (the junction where each excursion started), or, with ``lengths`` None, one
+        temperature per sample (a case temperature that moves). The derating factors are
+        computed once per run, the lines once per sample; nothing is allowed above the
+        voltage limit or at or above the junction limit.
         """
         factors = mechanism_factors(start_c, self.part, self.breakdown)
+
+        def spread(per_run: np.ndarray) -> np.ndarray:
+            return per_run if lengths is None else np.repeat(per_run, lengths)
+
         log_v = np.maximum(v, 1e-300)
         np.log(log_v, out=log_v)
         log_allowed = None
@@ -233,20 +240,16 @@ class TraceChecker:
             with np.errstate(divide="ignore"):
                 log_factor = np.log(factors[line.mechanism]) if line.derated else np.zeros(1)
             if line.log_v.size == 1:  # a constant (a current limit): derated per run, no pass over samples
-                y = (
-                    np.repeat(line.log_i[0] + log_factor, lengths)
-                    if log_factor.size > 1
-                    else line.log_i[0] + log_factor[0]
-                )
+                y = spread(line.log_i[0] + log_factor) if log_factor.size > 1 else line.log_i[0] + log_factor[0]
             else:
                 y = line(log_v)
                 if np.any(log_factor != 0):
-                    y += np.repeat(log_factor, lengths) if log_factor.size > 1 else log_factor[0]
+                    y += spread(log_factor) if log_factor.size > 1 else log_factor[0]
             log_allowed = y if log_allowed is None else np.minimum(log_allowed, y, out=y if np.ndim(y) else None)
         log_allowed = np.broadcast_to(log_allowed, v.shape).copy() if np.ndim(log_allowed) == 0 else log_allowed
         blocked_run = start_c >= self.part.tj_limit_c
         if blocked_run.any() or np.max(v) > self.part.v_limit_v:
-            log_allowed[(v > self.part.v_limit_v) | np.repeat(blocked_run, lengths)] = -np.inf
+            log_allowed[(v > self.part.v_limit_v) | spread(blocked_run)] = -np.inf
         with np.errstate(divide="ignore", invalid="ignore"):
             excess = np.log(i)
             excess -= log_allowed
@@ -256,17 +259,13 @@ class TraceChecker:
         """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
 
         The margin is 1 − exp(excess); working in logs saves a pass over every sample.
-        ``tc`` is the case temperature the lines are derated at (None: the fixed one).
+        ``tc`` is the case temperature the lines are derated at (None: the fixed one, on the
+        exact polyline of the boundary at that temperature).
         """
         if self.polylines is not None:
             log_allowed = self.polylines[index].log_current_at(v)
         else:
-            allowed, _ = evaluate_lines(
-                np.maximum(v, 1e-300), self.part, self.lines[index], tc_c=tc, breakdown=self.breakdown
-            )
-            blocked = (v > self.part.v_limit_v) | (tc >= self.part.tj_limit_c)
-            with np.errstate(divide="ignore"):
-                log_allowed = np.where(blocked, -np.inf, np.log(allowed))
+            return self._excess_from_start(index, v, i, tc, None)
         with np.errstate(divide="ignore", invalid="ignore"):
             excess = np.log(i)
             excess -= log_allowed  # in place: one fresh array less per chunk
