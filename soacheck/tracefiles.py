@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import contextlib
+import queue
+import threading
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -30,9 +32,9 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
     """
     path = Path(path)
     if path.suffix.lower() in (".parquet", ".pq"):
-        chunks = _parquet_chunks(path, chunk_rows)
+        chunks = _read_ahead(_parquet_chunks(path, chunk_rows))
     else:
-        chunks = _csv_chunks(path, chunk_rows)
+        chunks = _read_ahead(_csv_chunks(path, chunk_rows))
     with contextlib.closing(chunks):
         yield from _checked_chunks(path, chunks)
 
@@ -50,6 +52,58 @@ def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: i
         for k in range(0, len(frame), max(chunk_rows, 1))
     )
     yield from _checked_chunks(where, pieces)
+
+
+def _read_ahead(chunks):
+    """The same chunks, the next one read in a thread while the caller works on this one.
+
+    Parsing CSV and decoding Parquet release the GIL, as does most of the check's array
+    work, so on two cores reading and checking overlap. At most one chunk waits in the
+    queue, so memory stays at a few chunks whatever the length of the file. An error while
+    reading is raised in the caller at the chunk where it happened; closing the generator
+    stops the thread.
+    """
+    slot: queue.Queue = queue.Queue(maxsize=1)
+    stop = threading.Event()
+    done = object()
+
+    def offer(item) -> bool:
+        """Put ``item`` for the caller; False once the caller has stopped listening."""
+        while not stop.is_set():
+            try:
+                slot.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def read() -> None:
+        try:
+            for chunk in chunks:
+                if not offer((chunk, None)):
+                    return
+            offer((done, None))
+        except BaseException as err:  # handed to the caller, which raises it
+            offer((done, err))
+        finally:
+            with contextlib.suppress(Exception):
+                chunks.close()
+
+    worker = threading.Thread(target=read, name="soacheck-trace-reader", daemon=True)
+    worker.start()
+    try:
+        while True:
+            chunk, err = slot.get()
+            if chunk is done:
+                if err is not None:
+                    raise err
+                return
+            yield chunk
+    finally:
+        stop.set()
+        with contextlib.suppress(queue.Empty):
+            slot.get_nowait()  # free a reader waiting to put
+        worker.join()
 
 
 def _clean(t: np.ndarray, v: np.ndarray, i: np.ndarray, last_t: float | None) -> bool:

@@ -15,6 +15,7 @@ import pytest
 from typer.testing import CliRunner
 
 from soacheck.cli import app
+from soacheck.errors import SoacheckError
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker
 from soacheck.tracefiles import iter_trace
@@ -186,3 +187,28 @@ def test_time_going_backwards_across_a_chunk_border_is_caught(tmp_path):
     path.write_text("time,voltage,current\n0,10,1\n0.2,10,1\n0.1,10,1\n0.3,10,1\n")
     result = runner.invoke(app, ["trace", "demo-npn-to3-250w", str(path), "--chunk-rows", "2"])
     assert result.exit_code == 2 and "data row 3" in result.stderr, result.output
+
+
+def test_a_trace_read_ahead_stops_its_reader_when_the_check_stops_early(tmp_path):
+    # the next chunk is read in a thread; leaving after the first chunk must not leave it running
+    import threading
+
+    path = tmp_path / "long.csv"
+    t = np.arange(5000) * 1e-3
+    pd.DataFrame({"time": t, "voltage": 10.0, "current": 1.0}).to_csv(path, index=False)
+    chunks = iter_trace(path, chunk_rows=100)
+    next(chunks)
+    chunks.close()
+    assert not [thread for thread in threading.enumerate() if thread.name == "soacheck-trace-reader"]
+
+
+def test_a_bad_value_in_a_late_chunk_read_ahead_names_its_row(tmp_path):
+    path = tmp_path / "late.csv"
+    rows = ["time,voltage,current"] + [f"{k * 1e-3:.3f},10,1" for k in range(1000)]
+    rows[901] = "0.900,10,abc"  # data row 901
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    seen = 0
+    with pytest.raises(SoacheckError, match="data row 901: current 'abc' is not a number"):
+        for t, *_ in iter_trace(path, chunk_rows=100):
+            seen += t.size
+    assert seen == 900  # the chunks before it were checked and handed over first
