@@ -369,10 +369,8 @@ class TraceChecker:
         start_tj = np.full(starts.size, np.nan) if rise_j is None else self.reference_c + rise_j[starts]
         start_s = t[starts]
         start_row = self.samples + starts
-        continued = (
-            self.open
-        )  # an excursion open since a past chunk goes on in the first run (feed closed it otherwise)
-        self.open = None
+        # an excursion open since a past chunk goes on in the first run (feed closed it otherwise)
+        continued, self.open = self.open, None
         if continued is not None:
             start_tj[0], start_s[0], start_row[0] = continued.start_tj_c, continued.start_s, continued.start_row
         if np.isfinite(start_tj).any():
