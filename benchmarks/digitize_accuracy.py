@@ -11,14 +11,17 @@ off the curve in current), and compares the traced vertices with the drawn ones:
 
 Target (issue 17, black curves on a grey grid): every curve end to end, largest error
 under 0.01 decade at 100 dpi and better; the black grid (as dark as the curves) is
-measured beside it. Run: ``python benchmarks/digitize_accuracy.py``; the last line gives
-the verdict.
+measured beside it. Broken curves are measured too, on the grey grid: the pulse curves
+drawn dashed (matplotlib ``--``) or dotted (``:``) beside a solid DC curve, as datasheets
+draw them, against the same target. Run: ``python benchmarks/digitize_accuracy.py``; the
+last lines give the verdicts.
 """
 
 from __future__ import annotations
 
 import sys
 import tempfile
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -38,6 +41,7 @@ WIDTHS_PT = (1.0, 1.5, 2.5)
 DPIS = (100, 200)
 FORMATS = ("png", "jpg")
 GRIDS = {"grey": (0.65, 0.82), "black": (0.0, 0.0)}  # grey levels of major and minor grid lines
+STYLES = {"solid": "-", "dashed": "--", "dotted": ":"}  # the pulse curves' line; DC stays solid
 
 
 def measure(path: Path, curves, dpi: int) -> list[tuple[str, float, bool]]:
@@ -64,40 +68,57 @@ def measure(path: Path, curves, dpi: int) -> list[tuple[str, float, bool]]:
     return results
 
 
+def styled(curves, style: str):
+    """The curves with every pulse curve drawn in ``style``; DC stays solid."""
+    return tuple(c if c.pulse == "dc" else replace(c, linestyle=STYLES[style]) for c in curves)
+
+
 def main() -> None:
     rows = []
     with tempfile.TemporaryDirectory() as folder:
         for dpi in DPIS:
             for fmt in FORMATS:
                 for grid, grid_grey in GRIDS.items():
-                    for width in WIDTHS_PT:
-                        for count, curves in SETS.items():
-                            path = Path(folder) / f"sheet-{dpi}-{grid}-{width}-{count}.{fmt}"
-                            draw_sheet(path, curves, dpi=dpi, line_width_pt=width, grid_grey=grid_grey)
-                            for pulse, error, whole in measure(path, curves, dpi):
-                                rows.append((dpi, fmt, grid, width, count, pulse, error, whole))
-    header = f"{'dpi':>4} {'format':>6} {'grid':>5} {'width pt':>8} {'curves':>6} {'curve':>6} {'error [decade]':>15}"
-    print(header + " end to end")
-    for dpi, fmt, grid, width, count, pulse, error, whole in rows:
-        print(
-            f"{dpi:>4} {fmt:>6} {grid:>5} {width:>8.1f} {count:>6} {pulse:>6} {error:>15.4f} {'yes' if whole else 'NO'}"
-        )
-    errors = np.array([r[6] for r in rows])
-    whole = np.array([r[7] for r in rows])
-    for grid in GRIDS:
-        for dpi in DPIS:
-            mine = np.array([r[2] == grid and r[0] == dpi for r in rows])
-            print(
-                f"{grid} grid, {dpi} dpi: largest error {errors[mine].max():.4f} decade (median "
-                f"{np.median(errors[mine]):.4f}); {whole[mine].mean():.0%} of {mine.sum()} curves traced end to end"
-            )
-    # the issue's target is set on black curves over a grey grid; the black grid is measured beyond it
-    grey = np.array([r[2] == "grey" for r in rows])
-    met = bool(whole[grey].all() and errors[grey].max() < 0.01)
-    print(
-        f"grey grid: largest error {errors[grey].max():.4f} decade, {whole[grey].mean():.0%} end to end; "
-        f"target (every curve end to end, < 0.01 decade at 100 dpi and better): {'met' if met else 'NOT met'}"
+                    for style in STYLES if grid == "grey" else ("solid",):
+                        for width in WIDTHS_PT:
+                            for count, plain in SETS.items():
+                                curves = styled(plain, style)
+                                path = Path(folder) / f"sheet-{dpi}-{grid}-{style}-{width}-{count}.{fmt}"
+                                draw_sheet(path, curves, dpi=dpi, line_width_pt=width, grid_grey=grid_grey)
+                                for pulse, error, whole in measure(path, curves, dpi):
+                                    rows.append((dpi, fmt, grid, style, width, count, pulse, error, whole))
+    header = (
+        f"{'dpi':>4} {'format':>6} {'grid':>5} {'pulses':>6} {'width pt':>8} {'curves':>6} {'curve':>6} "
+        f"{'error [decade]':>15}"
     )
+    print(header + " end to end")
+    for dpi, fmt, grid, style, width, count, pulse, error, whole in rows:
+        print(
+            f"{dpi:>4} {fmt:>6} {grid:>5} {style:>6} {width:>8.1f} {count:>6} {pulse:>6} {error:>15.4f} "
+            f"{'yes' if whole else 'NO'}"
+        )
+    errors = np.array([r[7] for r in rows])
+    whole = np.array([r[8] for r in rows])
+    for grid in GRIDS:
+        for style in STYLES:
+            for dpi in DPIS:
+                mine = np.array([r[2] == grid and r[3] == style and r[0] == dpi for r in rows])
+                if not mine.any():
+                    continue
+                print(
+                    f"{grid} grid, {style} pulse curves, {dpi} dpi: largest error {errors[mine].max():.4f} decade "
+                    f"(median {np.median(errors[mine]):.4f}); {whole[mine].mean():.0%} of {mine.sum()} curves "
+                    "traced end to end"
+                )
+    # the issue's target is set on black curves over a grey grid; the black grid is measured beyond it
+    for style in STYLES:
+        mine = np.array([r[2] == "grey" and r[3] == style for r in rows])
+        met = bool(whole[mine].all() and errors[mine].max() < 0.01)
+        print(
+            f"grey grid, {style} pulse curves: largest error {errors[mine].max():.4f} decade, "
+            f"{whole[mine].mean():.0%} end to end, {np.mean(errors[mine] < 0.01):.0%} within 0.01 decade; target "
+            f"(every curve end to end, < 0.01 decade at 100 dpi and better): {'met' if met else 'NOT met'}"
+        )
 
 
 if __name__ == "__main__":

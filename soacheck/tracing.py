@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
+from soacheck.broken_lines import TAN_BRIDGE, bridge_px, heading_at, piece_middles, within_bend
 from soacheck.calibration import AxisCalibration, Seed, decades_disagree, range_calibration
 from soacheck.errors import SoacheckError
 from soacheck.picture import Frame, dark_mask, decades_seen, grid_lines, stroke_width_px
@@ -37,12 +38,15 @@ class ColumnRuns:
         included, so that it falls between pixel rows. [px]
     offsets
         Runs of column ``c`` are ``offsets[c]:offsets[c + 1]``, shape ``(columns + 1,)``.
+    ink
+        Darkness summed over each run and the pixel either side, shape ``(n,)``. [px]
     """
 
     first: np.ndarray
     last: np.ndarray
     centre: np.ndarray
     offsets: np.ndarray
+    ink: np.ndarray
 
     def column(self, c: int) -> slice:
         """The runs of column ``c``."""
@@ -64,7 +68,7 @@ def column_runs(mask: np.ndarray, grey: np.ndarray) -> ColumnRuns:
     total = cum_w[hi, start_col] - cum_w[lo, start_col]
     centre = (cum_wr[hi, start_col] - cum_wr[lo, start_col]) / np.maximum(total, 1e-12)
     offsets = np.searchsorted(start_col, np.arange(columns + 1))
-    return ColumnRuns(first, last, centre, offsets)
+    return ColumnRuns(first, last, centre, offsets, total)
 
 
 def _dark_ahead(runs: ColumnRuns, c: int, slope: float, row: float, step: int, stop: int, ahead: int) -> bool:
@@ -109,22 +113,36 @@ def _short_run_near(
     return False
 
 
-def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step: int, stop: int) -> list:
-    """Columns, rows and ambiguity of the curve from run ``seed`` on, one column at a time."""
+def _follow(
+    runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step: int, stop: int, heading: float | None
+) -> tuple[list, float]:
+    """Columns, rows, ambiguity and ink of the curve from run ``seed`` on, one column at a time,
+    and the longest gap bridged [px].
+
+    ``heading`` (rows per column) stands for the curve's direction until the trace has
+    three columns of its own to fit one (a seed on a dot); None: straight across.
+    """
     columns, centres, clear = [seed_column], [float(runs.centre[seed])], [True]
+    ink = [float(runs.ink[seed])]
     lengths = [runs.last[seed] - runs.first[seed] + 1]
     previous = (runs.first[seed], runs.last[seed])
     window = max(6, int(3 * width_px))
-    max_gap = max(12, int(4 * width_px))
+    reach_px = bridge_px(width_px)
+    max_gap = int(np.ceil(reach_px))
     gap = 0
+    bridged_px = 0.0
+    since = 0  # the first column of the present heading: a turn within a gap starts a new one
+    bend = None  # the first piece seen within the turning cone during the present gap: (column, run)
     c = seed_column
     while (stop - c) * step > 0:
         c += step
         # the last `window` clear columns: through a crossing (merged, not clear) the
-        # direction from before it carries on
+        # direction from before it carries on; on a broken curve they span a few pieces,
+        # whose end columns lean off the line
+        wide = window + int(3 * bridged_px)
         recent = []
-        for k in range(len(columns) - 1, -1, -1):
-            if len(recent) == window or abs(columns[k] - c) > 4 * window + gap:
+        for k in range(len(columns) - 1, since - 1, -1):
+            if len(recent) == wide or abs(columns[k] - c) > 4 * wide + gap:
                 break
             if clear[k]:
                 recent.append(k)
@@ -132,27 +150,49 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
             slope, intercept = np.polyfit(np.take(columns, recent), np.take(centres, recent), 1)
             predicted = slope * c + intercept
         else:
-            slope, predicted = 0.0, centres[-1]
+            slope = heading if heading is not None else 0.0
+            predicted = centres[-1] + slope * (c - columns[-1])
         span = runs.column(c)
         first, last, centre = runs.first[span], runs.last[span], runs.centre[span]
         chosen = None
         if first.size:
             off = np.maximum(first - predicted, 0) + np.maximum(predicted - last, 0)
             k = int(np.argmin(off))
-            # across a gap (a dash, a removed grid line) the curve may have bent: the
-            # tolerance grows by 0.6 px per missing column, by 2 px at most
-            if off[k] <= max(2.0, width_px / 2) + 0.5 * abs(slope) + min(0.6 * gap, 2.0):
+            # across a gap (a dash's, a removed grid line's) the curve goes on within
+            # BRIDGE_DEG of its heading, or has bent by 0.6 px per missing column, 2 px at most
+            gap_px = gap * np.hypot(1.0, slope)
+            if off[k] <= max(2.0, width_px / 2) + 0.5 * abs(slope) + max(min(0.6 * gap, 2.0), TAN_BRIDGE * gap_px):
                 chosen = k
             elif gap == 0:
                 touching = np.flatnonzero((first <= previous[1] + 1) & (last >= previous[0] - 1))
                 if touching.size:
                     chosen = int(touching[np.argmin(np.abs(centre[touching] - centres[-1]))])
+            elif bend is None:
+                # a turn is crossed within 1.5 times the curve's own longest gap so far
+                turn_px = 1.5 * bridged_px if bridged_px else reach_px
+                ahead = within_bend(c - columns[-1], centre - centres[-1], slope, step, min(turn_px, reach_px))
+                if ahead.any():
+                    k = int(np.flatnonzero(ahead)[np.argmin(np.abs(centre[ahead] - predicted))])
+                    bend = (c, span.start + k)
         if chosen is None:
             gap += 1
-            if gap > max_gap:
+            if gap <= max_gap:
+                continue
+            if bend is None:
                 break
-            continue
+            # nothing straight on: the curve turned within the gap, onto the piece in the cone
+            c, run = bend
+            heading = (float(runs.centre[run]) - centres[-1]) / (c - columns[-1])
+            bridged_px = max(bridged_px, float(np.hypot(c - columns[-1], runs.centre[run] - centres[-1])))
+            since = len(columns)
+            span = runs.column(c)
+            first, last, centre = runs.first[span], runs.last[span], runs.centre[span]
+            chosen = run - span.start
+            slope, predicted, recent = heading, float(runs.centre[run]), []
+        elif gap:
+            bridged_px = max(bridged_px, float(np.hypot(c - columns[-1], centre[chosen] - centres[-1])))
         gap = 0
+        bend = None
         expected = width_px * np.hypot(1.0, slope) + abs(slope)
         length = last[chosen] - first[chosen] + 1
         usual = np.median(np.take(lengths, recent)) if len(recent) >= 3 else expected
@@ -169,6 +209,7 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
             columns.append(c)
             centres.append(clipped)
             clear.append(False)
+            ink.append(float(runs.ink[span.start + chosen]))
             lengths.append(length)
             previous = (int(np.floor(clipped - half)), int(np.ceil(clipped + half)))
             if _short_run_near(
@@ -179,9 +220,10 @@ def _follow(runs: ColumnRuns, seed: int, seed_column: int, width_px: float, step
         columns.append(c)
         centres.append(row)
         clear.append(not merged)
+        ink.append(float(runs.ink[span.start + chosen]))
         lengths.append(length)
         previous = (first[chosen], last[chosen])
-    return [columns, centres, clear]
+    return [columns, centres, clear, ink], bridged_px
 
 
 @dataclass(frozen=True)
@@ -241,27 +283,40 @@ class TracedPixels:
         on the line) and the point is the straight continuation instead, shape ``(n,)``.
     width_px
         Width of the stroke near the seed. [px]
+    bridged_px
+        The longest gap bridged between two pieces of a dashed or dotted curve; 0 for an
+        unbroken one. [px]
     """
 
     column: np.ndarray
     row: np.ndarray
     clear: np.ndarray
     width_px: float
+    bridged_px: float = 0.0
 
 
 def follow_curve(mask: np.ndarray, grey: np.ndarray, runs: ColumnRuns, seeded: Seeded, frame: Frame) -> TracedPixels:
-    """Follow the curve through ``seeded`` to both its ends, inside the frame."""
+    """Follow the curve through ``seeded`` to both its ends, inside the frame.
+
+    Gaps of a dashed or dotted curve are bridged (:mod:`soacheck.broken_lines`); its points
+    are then the middles of its pieces (:func:`~soacheck.broken_lines.piece_middles`).
+    """
     run = seeded.run
     row = int(round(runs.centre[run]))
     width = stroke_width_px(mask, row, seeded.column)
+    heading = heading_at(mask, float(runs.centre[run]), float(seeded.column), width)
     lo = int(np.ceil(frame.left)) + frame.line_px
     hi = int(np.floor(frame.right)) - frame.line_px
-    left = _follow(runs, run, seeded.column, width, -1, lo)
-    right = _follow(runs, run, seeded.column, width, +1, hi)
+    left, left_gap = _follow(runs, run, seeded.column, width, -1, lo, heading)
+    right, right_gap = _follow(runs, run, seeded.column, width, +1, hi, heading)
     column = np.array(left[0][:0:-1] + right[0], dtype=float)
     row_px = np.array(left[1][:0:-1] + right[1])
     clear = np.array(left[2][:0:-1] + right[2])
-    return TracedPixels(column, row_px, clear, width)
+    ink = np.array(left[3][:0:-1] + right[3])
+    bridged = max(left_gap, right_gap)
+    if bridged:
+        column, row_px, clear = piece_middles(column, row_px, clear, ink, width)
+    return TracedPixels(column, row_px, clear, width, bridged)
 
 
 # --------------------------------------------------------------------------- from seeds to curves
@@ -393,8 +448,9 @@ def _vertices(pixels, seed, note, frame, x_axis, y_axis, tolerance_decades) -> T
     keep = simplify(lx, ly, tolerance_decades)
     vx, vy = sharpen(lx, ly, keep, pixels.clear, margin=int(2 * pixels.width_px) + 2, tolerance=tolerance_decades)
     vx, vy = merge_straight(vx, vy, lx, ly, tolerance_decades)
-    # a curve that runs into the frame goes on to the frame's edge
-    reach = frame.line_px + 2
+    # a curve that runs into the frame goes on to the frame's edge (a broken one's last
+    # piece may stop up to a gap short of it)
+    reach = frame.line_px + 2 + pixels.bridged_px
     for end, inner, edge in ((0, 1, frame.left), (-1, -2, frame.right)):
         if vx.size > 1 and abs(pixels.column[end] - edge) <= reach:
             edge_x = float(np.log10(x_axis.value(edge)))

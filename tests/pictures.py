@@ -19,11 +19,16 @@ from PIL import Image
 
 @dataclass(frozen=True)
 class KnownCurve:
-    """A curve as drawn: its pulse width label and its vertices. [V], [A]"""
+    """A curve as drawn: its pulse width label, its vertices [V], [A] and matplotlib's line style.
+
+    ``linestyle`` is ``"-"`` (solid), ``"--"`` (dashed) or ``":"`` (dotted); matplotlib
+    scales the dashes and the gaps with the line width.
+    """
 
     pulse: str
     voltage_v: tuple[float, ...]
     current_a: tuple[float, ...]
+    linestyle: str = "-"
 
     def current_at(self, voltage_v: np.ndarray) -> np.ndarray:
         """The drawn current at ``voltage_v``, straight between vertices on log-log axes. [A]"""
@@ -101,6 +106,7 @@ def draw_sheet(
             curve.current_a,
             color="black",
             linewidth=line_width_pt,
+            linestyle=curve.linestyle,
             solid_joinstyle="miter",
         )
         # a label beside the curve, above its middle vertex, as datasheets print them
