@@ -52,16 +52,16 @@ def within_bend(d_column: np.ndarray, d_row: np.ndarray, slope: float, step: int
 def heading_at(mask: np.ndarray, row: float, column: float, width_px: float) -> float | None:
     """The heading of a broken curve at a short piece near ``(row, column)``, in rows per column, or None.
 
-    The pieces of ``mask`` (8-connected) within :func:`bridge_px` plus the piece's own size
+    The pieces of ``mask`` (8-connected) within :func:`bridge_px` plus the piece's own length
     are measured from the centre of the piece at the point: the heading is the line through
     the nearest pair, one ahead and one behind, whose directions differ from opposite by at
     most :data:`BRIDGE_DEG` (a regular dash pattern puts them in line). None when the piece
-    at the point is long (its own columns give the heading), or no pair is in line (the
-    seed is at the curve's end, or on a solid line).
+    at the point is longer than twice :func:`bridge_px` (a solid line), or no pair is in
+    line (the seed is at the curve's end).
     """
-    reach = bridge_px(width_px) + 3 * width_px
-    r0, c0 = max(int(row - 2 * reach), 0), max(int(column - 2 * reach), 0)
-    window = mask[r0 : int(row + 2 * reach) + 1, c0 : int(column + 2 * reach) + 1]
+    longest = 2 * bridge_px(width_px)
+    r0, c0 = max(int(row - 2 * longest), 0), max(int(column - 2 * longest), 0)
+    window = mask[r0 : int(row + 2 * longest) + 1, c0 : int(column + 2 * longest) + 1]
     labels, count = ndimage.label(window, structure=np.ones((3, 3)))
     r, c = int(round(row)) - r0, int(round(column)) - c0
     if count < 3 or not (0 <= r < labels.shape[0] and 0 <= c < labels.shape[1]):
@@ -71,8 +71,10 @@ def heading_at(mask: np.ndarray, row: float, column: float, width_px: float) -> 
         return None
     own = int(np.bincount(near[near > 0]).argmax())
     extent = ndimage.find_objects(labels)[own - 1]
-    if max(extent[0].stop - extent[0].start, extent[1].stop - extent[1].start) > reach:
-        return None  # a long piece: a dash or a solid line
+    length = math.hypot(extent[0].stop - extent[0].start, extent[1].stop - extent[1].start)
+    if length > longest:
+        return None  # a solid line
+    reach = length + bridge_px(width_px)
     centres = np.array(ndimage.center_of_mass(window, labels, np.arange(1, count + 1)))
     offsets = centres - centres[own - 1]
     distance = np.hypot(offsets[:, 0], offsets[:, 1])
@@ -95,7 +97,7 @@ def heading_at(mask: np.ndarray, row: float, column: float, width_px: float) -> 
 def piece_middles(
     column: np.ndarray, row: np.ndarray, clear: np.ndarray, ink: np.ndarray, width_px: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """The middles of a broken curve's pieces, without the end columns next to a gap.
+    """The middles of a broken curve's pieces, without their end columns.
 
     Parameters
     ----------
@@ -115,8 +117,9 @@ def piece_middles(
         Columns, rows and clear flags of the points kept. A piece keeps its columns more than
         ``width · |sin φ| + 1`` from an end beside a gap (φ the line's angle, from the pieces
         either side); a piece with no such column becomes one point at its centre of ink,
-        which for a dash or dot symmetric about its middle lies on the line. Ends at the
-        curve's own ends (no gap beyond) are kept. An unbroken curve is returned as it is.
+        which for a dash or dot symmetric about its middle lies on the line. The curve's own
+        ends are a piece's ends too: a frame cuts them, a tick mark touches them. An unbroken
+        curve is returned as it is.
 
     Notes
     -----
@@ -137,9 +140,7 @@ def piece_middles(
     partial = width_px * np.abs(slope) / np.hypot(1.0, slope) + 1.0  # [columns]
     piece = np.repeat(np.arange(mid_c.size), np.diff(bounds))
     first, last = column[bounds[:-1]][piece], column[bounds[1:] - 1][piece]
-    gap_before = np.repeat(np.r_[False, np.ones(mid_c.size - 1, bool)], np.diff(bounds))
-    gap_after = np.repeat(np.r_[np.ones(mid_c.size - 1, bool), False], np.diff(bounds))
-    inner = ~(gap_before & (column - first < partial[piece])) & ~(gap_after & (last - column < partial[piece]))
+    inner = (column - first >= partial[piece]) & (last - column >= partial[piece])
     has_inner = np.bincount(piece, weights=inner, minlength=mid_c.size) > 0
     keep = inner & has_inner[piece]
     short = np.flatnonzero(~has_inner)
@@ -148,4 +149,18 @@ def piece_middles(
     r = np.concatenate([row[keep], mid_r[short]])
     k = np.concatenate([clear[keep], short_clear])
     order = np.argsort(c, kind="stable")
-    return c[order], r[order], k[order]
+    c, r, k = c[order], r[order], k[order]
+    # a point off every line its neighbours draw (the chord between them, the line through
+    # the two before it, the line through the two after it) by more than half a line width
+    # is a letter or a tick mark
+    if c.size >= 3:
+        off = np.full((3, c.size), np.inf)
+        for row_of, (a, b) in enumerate(((-1, 1), (-2, -1), (1, 2))):
+            lo, hi = max(0, -min(a, b)), c.size - max(0, max(a, b))
+            at = np.arange(lo, hi)
+            ca, ra, cb, rb = c[at + a], r[at + a], c[at + b], r[at + b]
+            on_line = ra + (rb - ra) * (c[at] - ca) / np.where(cb == ca, 1e-9, cb - ca)
+            off[row_of, at] = np.abs(r[at] - on_line)
+        fits = off.min(axis=0) <= max(0.5 * width_px, 1.5)
+        c, r, k = c[fits], r[fits], k[fits]
+    return c, r, k

@@ -120,7 +120,8 @@ def _follow(
     and the longest gap bridged [px].
 
     ``heading`` (rows per column) stands for the curve's direction until the trace has
-    three columns of its own to fit one (a seed on a dot); None: straight across.
+    columns of its own to fit one: three, and on a broken curve two pieces' worth (a seed
+    on a dot); None: straight across.
     """
     columns, centres, clear = [seed_column], [float(runs.centre[seed])], [True]
     ink = [float(runs.ink[seed])]
@@ -142,11 +143,14 @@ def _follow(
         wide = window + int(3 * bridged_px)
         recent = []
         for k in range(len(columns) - 1, since - 1, -1):
-            if len(recent) == wide or abs(columns[k] - c) > 4 * wide + gap:
+            if len(recent) == wide or abs(columns[k] - c) > 4 * window + gap + 3 * bridged_px:
                 break
             if clear[k]:
                 recent.append(k)
-        if len(recent) >= 3:
+        # three columns; on a broken curve two pieces or more (a dot's columns alone lie flat)
+        broken = bridged_px or heading is not None
+        spread = abs(columns[recent[0]] - columns[recent[-1]]) if recent else 0
+        if len(recent) >= 3 and (not broken or spread > (bridged_px or reach_px) + width_px):
             slope, intercept = np.polyfit(np.take(columns, recent), np.take(centres, recent), 1)
             predicted = slope * c + intercept
         else:
@@ -163,7 +167,7 @@ def _follow(
             gap_px = gap * np.hypot(1.0, slope)
             if off[k] <= max(2.0, width_px / 2) + 0.5 * abs(slope) + max(min(0.6 * gap, 2.0), TAN_BRIDGE * gap_px):
                 chosen = k
-            elif gap == 0:
+            elif gap == 0 and not bridged_px:  # a bend within a stroke; a broken curve turns in line (below)
                 touching = np.flatnonzero((first <= previous[1] + 1) & (last >= previous[0] - 1))
                 if touching.size:
                     chosen = int(touching[np.argmin(np.abs(centre[touching] - centres[-1]))])
