@@ -2,14 +2,15 @@
 
 A broken curve is a row of pieces (dashes or dots) along one line. The column tracer of
 :mod:`soacheck.tracing` bridges the gap after a piece when the next piece lies within
-:data:`BRIDGE_DEG` of the curve's heading, the gap at most :func:`bridge_px` long; a
-corner that falls in a gap is crossed when exactly one piece lies ahead within
-:data:`BEND_DEG` of the heading and within the same reach. A dot shows no direction of its
-own: at a seed on a dot the heading is the line through the nearest pieces either side
-that lie in line with it (:func:`heading_at`). The end columns of a piece are cut
-slantwise (a butt cap across a sloping line) or lightly inked, so their middles are off
-the line; :func:`piece_middles` keeps a piece's inner columns, or a short piece's centre
-of ink alone.
+:data:`BRIDGE_DEG` of the curve's heading, the gap at most :func:`bridge_px` long; when
+nothing lies in line, a corner fell in the gap: it is crossed onto the first piece ahead
+within :data:`BEND_DEG` of the heading and within 1.5 times the curve's own longest gap
+so far (a neighbouring curve lies further off than the curve's own pieces). A dot shows
+no direction of its own: at a seed on a dot the heading is the line through the nearest
+pieces either side that lie in line with it (:func:`heading_at`). The end columns of a
+piece are cut slantwise (a butt cap across a sloping line) or lightly inked, so their
+middles are off the line; :func:`piece_middles` keeps a piece's inner columns, or a short
+piece's centre of ink alone, and leaves out a piece off the line its neighbours draw.
 
 The dash patterns a datasheet uses scale with the line width: gaps of 1.6 to 1.7 line
 widths in matplotlib's ``--``, ``:`` and ``-.`` patterns (its rcParams
@@ -118,8 +119,11 @@ def piece_middles(
         ``width · |sin φ| + 1`` from an end beside a gap (φ the line's angle, from the pieces
         either side); a piece with no such column becomes one point at its centre of ink,
         which for a dash or dot symmetric about its middle lies on the line. The curve's own
-        ends are a piece's ends too: a frame cuts them, a tick mark touches them. An unbroken
-        curve is returned as it is.
+        ends are a piece's ends too: a frame cuts them, a tick mark touches them. A point more
+        than half a line width (1.5 px at least) off the chord of its neighbours, off the line
+        through the two before it and off the line through the two after it is left out (a
+        letter of a label or a tick mark taken for a piece). An unbroken curve is returned as
+        it is.
 
     Notes
     -----

@@ -18,6 +18,7 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
+from soacheck.broken_lines import heading_at, piece_middles
 from soacheck.calibration import AxisCalibration, decades_disagree
 from soacheck.cli import app
 from soacheck.images import read_image
@@ -27,7 +28,7 @@ from soacheck.picture import decades_seen
 from soacheck.tracing import OVERLAY_COLOUR
 from soacheck.vertices import merge_straight, sharpen, simplify
 
-from .pictures import CURVES, DC, PULSE_1MS, PULSE_100US, KnownCurve, draw_sheet
+from .pictures import CURVES, DC, PULSE_1MS, PULSE_100US, KnownCurve, Sheet, draw_sheet
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -567,3 +568,58 @@ def test_two_dashed_curves_close_together_are_not_merged(tmp_path, linestyle, dp
         v, i = curve["voltage"].to_numpy(), curve["current"].to_numpy()
         assert v[0] == pytest.approx(1.0, rel=0.02) and v[-1] == pytest.approx(100.0, rel=0.02), curve
         assert largest_error_decades(known, v, i) <= 0.01, curve
+
+
+def test_the_documented_dashed_example_traces_to_its_drawn_curve(tmp_path):
+    """examples/sheet-dashed.png (tools/make_example_sheet.py: DC solid, 1 ms dashed, 100 dpi), traced
+    with the seeds docs/part-format.md gives: the dashed curve within 0.01 decade of the drawing, frame
+    to frame, with its four vertices."""
+    sheet = Sheet(Path(__file__).resolve().parents[1] / "examples" / "sheet-dashed.png", (DC, PULSE_1MS), None)
+    rows = trace_rows(sheet, {"dc": SEEDS["dc"], "1ms": SEEDS["1ms"]}, tmp_path / "soa.csv")
+    for known in (DC, PULSE_1MS):
+        curve = rows[rows["pulse"] == known.pulse]
+        v, i = curve["voltage"].to_numpy(), curve["current"].to_numpy()
+        assert len(v) == len(known.voltage_v), curve
+        assert v[0] == pytest.approx(1.0, rel=0.02) and v[-1] == pytest.approx(100.0, rel=0.02), curve
+        assert largest_error_decades(known, v, i) <= 0.01, curve
+
+
+def dotted_mask(slope: float, offset_row: float = 0.0, *, every: int = 8, shape=(200, 240)) -> np.ndarray:
+    """3 x 3 px dots centred on row = 60 + offset_row + slope * (column - 20), one every ``every`` columns."""
+    mask = np.zeros(shape, dtype=bool)
+    for column in range(20, shape[1] - 20, every):
+        row = int(round(60 + offset_row + slope * (column - 20)))
+        mask[row - 1 : row + 2, column - 1 : column + 2] = True
+    return mask
+
+
+def test_the_heading_at_a_dot_is_the_line_through_the_dots_in_line_beside_it():
+    """Dots every 8 columns on a line of slope 0.5 (4 rows a step: whole pixels, so their centres are
+    exact): the heading at a dot is 0.5, with a parallel dotted line 9 px below; on a solid line there is
+    none (its own columns give it)."""
+    dots = dotted_mask(0.5) | dotted_mask(0.5, offset_row=9.0)
+    assert heading_at(dots, 60 + 0.5 * 80, 100.0, 3.0) == pytest.approx(0.5, abs=1e-9)  # the dot at column 100
+    solid = np.zeros((200, 240), dtype=bool)
+    solid[99:102, 10:230] = True
+    assert heading_at(solid, 100.0, 120.0, 3.0) is None
+
+
+def test_piece_middles_drop_the_ends_of_dashes_and_take_a_dots_centre():
+    """A line row = 2 + 0.3 column in two dashes (columns 0-9, 15-24) whose end columns lean 1 px off,
+    and a dot (columns 30, 31) whose two columns lie flat at the line's row at 30.5: the points kept lie
+    on the line exactly, the dot as one point at (30.5, 2 + 0.3 x 30.5); an unbroken curve is untouched."""
+
+    def line(c):
+        return 2 + 0.3 * c
+
+    column = np.r_[np.arange(10), np.arange(15, 25), 30, 31].astype(float)
+    row = line(column)
+    for end in (0, 9, 10, 19):
+        row[end] += 1.0  # a dash's end leans off the line
+    row[20:] = line(30.5)
+    ink = np.ones(column.size)
+    c, r, clear = piece_middles(column, row, np.ones(column.size, bool), ink, 2.0)
+    assert r == pytest.approx(line(c), abs=1e-9)
+    assert 30.5 in c and c.size < column.size and clear.all()
+    solid = np.arange(10.0)
+    assert piece_middles(solid, line(solid), np.ones(10, bool), np.ones(10), 2.0)[0] is solid
