@@ -4,8 +4,9 @@ A curve is followed column by column from its seed through the dark mask of
 :mod:`soacheck.picture`, in both directions: in each column the dark run nearest the
 straight continuation of the last few columns is taken (so the trace goes straight on
 where two curves touch or cross), else a run touching the previous one (a bend), else
-the column is a gap; a gap longer than a few line widths ends the curve. Each traced
-curve is reduced to its vertices on log-log axes by :mod:`soacheck.vertices`.
+the column is a gap. A gap is bridged as :mod:`soacheck.broken_lines` says (the pieces
+of a dashed or dotted curve, a removed grid line); a longer one ends the curve. Each
+traced curve is reduced to its vertices on log-log axes by :mod:`soacheck.vertices`.
 """
 
 from __future__ import annotations
