@@ -142,7 +142,7 @@ def share_current(
         i, slope = currents(vb)
         residual = (weight * i).sum(axis=0) - total
         if np.all(np.abs(residual) <= 1e-12 * np.maximum(total, 1.0)):
-            break
+            return i[which]  # the currents at the base voltage that solved it, not evaluated again
         step = residual / np.maximum((weight * slope).sum(axis=0), 1e-300)
         vb = vb - np.clip(step, -0.5, 0.5)
     return currents(vb)[0][which]
