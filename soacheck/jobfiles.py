@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -15,6 +16,26 @@ from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import CURRENT, IDLE_CURRENT, SETPOINT, TEMPERATURE, VOLTAGE
 from soacheck.tomlfiles import read_toml
 from soacheck.units import parse_duration
+
+
+def parse_each_once(values: Any, parse: Callable[[Any, str], float], where_row: Callable[[int], str]) -> np.ndarray:
+    """``parse(value, where)`` of every value, each distinct value parsed once, shape ``(n,)``.
+
+    Values are told apart by hashing (no sort of a million texts) and parsed in the order
+    they first appear, so a bad value is reported at the first row that holds it:
+    ``where_row(k)`` names row ``k`` (asked only then: counting a file's lines reads it again).
+    """
+    import pandas as pd
+
+    which, written = pd.factorize(values, use_na_sentinel=False)
+    parsed = np.empty(len(written))
+    for u, value in enumerate(written):
+        try:
+            parsed[u] = parse(value, "")
+        except SoacheckError:  # again, for the message naming the first row that holds it
+            parse(value, where_row(int(np.argmax(which == u))))
+            raise
+    return parsed[which]
 
 
 def read_points(path: str | Path) -> Table:
@@ -38,18 +59,12 @@ def read_points(path: str | Path) -> Table:
     CURRENT.check_array(frame["current"].to_numpy(), lambda k: f"{table.where(k)}: current")
     if "case_temp" in frame:
         TEMPERATURE.check_array(frame["case_temp"].to_numpy(), lambda k: f"{table.where(k)}: case_temp")
-    if "pulse" in frame:  # each distinct width parsed once (in file order), named at its first row
-        import pandas as pd
-
-        which, written = pd.factorize(frame["pulse"])  # by hashing: no sort of a million texts
-        widths = np.empty(len(written))
-        for u, text in enumerate(written):
-            try:
-                widths[u] = parse_duration(str(text), where="pulse")
-            except SoacheckError:  # again, with the file's line (counting lines reads the file once more)
-                parse_duration(str(text), where=f"{table.where(int(np.argmax(which == u)))}: pulse")
-                raise
-        frame["pulse_s"] = widths[which]
+    if "pulse" in frame:
+        frame["pulse_s"] = parse_each_once(
+            frame["pulse"],
+            lambda text, where: parse_duration(str(text), where=where),
+            lambda k: f"{table.where(k)}: pulse",
+        )
     if "duty" in frame:
         bad = np.flatnonzero((frame["duty"] < 0) | (frame["duty"] > 1))
         if bad.size:

@@ -28,7 +28,7 @@ from soacheck.api.options import (
 from soacheck.boundary import allowed_current as boundary_allowed_current
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
-from soacheck.jobfiles import read_points
+from soacheck.jobfiles import parse_each_once, read_points
 from soacheck.jsonvalues import Columns, json_bytes, json_chunks, jsonable
 from soacheck.library import PART_COLUMNS, find_part, part_rows
 from soacheck.parts import Part
@@ -273,18 +273,8 @@ def _points_frame(points: PathLike | pd.DataFrame) -> pd.DataFrame:
         bad = np.flatnonzero(~(np.isfinite(frame[name].to_numpy(dtype=float)) & (frame[name].to_numpy() > 0)))
         if bad.size:
             raise SoacheckError(f"points row {int(bad[0]) + 1}: {name} must be a number above zero")
-    if "pulse" in frame:  # each distinct pulse parsed once, in the order of first appearance
-        import pandas as pd
-
-        which, written = pd.factorize(frame["pulse"], use_na_sentinel=False)
-        widths = np.empty(len(written))
-        for u, text in enumerate(written):
-            try:
-                widths[u] = _pulse_s(text, where="pulse")
-            except SoacheckError:  # again, naming the first row that holds it
-                _pulse_s(text, where=f"points row {int(np.argmax(which == u)) + 1}: pulse")
-                raise
-        frame["pulse_s"] = widths[which]
+    if "pulse" in frame:
+        frame["pulse_s"] = parse_each_once(frame["pulse"], _pulse_s, lambda k: f"points row {k + 1}: pulse")
     return frame
 
 
