@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING, Any, overload
 
 import numpy as np
 
-from soacheck.api.base import Result, _least, _plots
+from soacheck.api.base import CheckedResult, _plots
 from soacheck.api.options import (
     ArrayLike,
     Library,
@@ -279,7 +279,7 @@ def _points_frame(points: PathLike | pd.DataFrame) -> pd.DataFrame:
 
 
 @dataclass(frozen=True, eq=False, repr=False)
-class CheckResult(Result):
+class CheckResult(CheckedResult):
     """Operating points checked against a part's derated SOA (``soacheck check``).
 
     Attributes
@@ -292,25 +292,11 @@ class CheckResult(Result):
         The second-breakdown derating used, for the plot.
     """
 
+    _checked = "points"
+
     part: Part
     points: PointCheck
     breakdown: BreakdownDerating = "auto"
-
-    @property
-    def passed(self) -> bool:
-        return self.points.passed
-
-    @property
-    def margin(self) -> float:
-        return _least(self.points.margin, self.points.limit)[0]
-
-    @property
-    def limit(self) -> str | None:
-        return _least(self.points.margin, self.points.limit)[1]
-
-    @property
-    def assumptions(self) -> tuple[str, ...]:
-        return tuple(self.points.assumptions)
 
     @property
     def margin_to_rating(self) -> float:
