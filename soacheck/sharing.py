@@ -303,21 +303,18 @@ def stability_gain(
     in group b), so only that small matrix is handed to the eigenvalue solver (elementary
     linear algebra).
     """
-    law = {
-        "ballast_ohm": ballast_ohm,
-        "bipolar": bipolar,
-        "tempco_v_per_k": tempco_v_per_k,
-        "transfer": transfer,
-        "junctions": junctions,
-    }
     eigenvalues = jacobian_eigenvalues(
         current_a,
         vce_v,
         tj_c,
         z_self_k_per_w=z_self_k_per_w,
         z_shared_k_per_w=z_shared_k_per_w,
+        ballast_ohm=ballast_ohm,
+        bipolar=bipolar,
+        tempco_v_per_k=tempco_v_per_k,
+        transfer=transfer,
+        junctions=junctions,
         counts=counts,
-        **law,
     )
     return eigenvalues.real.max(axis=1)
 

@@ -17,7 +17,7 @@ from soacheck.bipolar import base_current, junctions
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.quantities import DEVICE_COUNT, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
-from soacheck.sharing import VBE_TEMPCO_V_PER_K, jacobian_eigenvalues, loop_gain, share_current, stability_gain
+from soacheck.sharing import VBE_TEMPCO_V_PER_K, jacobian_eigenvalues, loop_gain, share_current
 
 SETTLED_K = 1e-4
 """The electro-thermal fixed point counts as settled when no junction moves more than this. [K]"""
@@ -162,17 +162,12 @@ class Stage:
         counts: np.ndarray | None = None,
     ) -> np.ndarray:
         """The whole set's electro-thermal stability gain at each point, ``(m,)``; see :func:`stability_gain`."""
-        return stability_gain(
-            device_a,
-            vce_v,
-            tj_c,
-            z_self_k_per_w=z_self_k_per_w,
-            z_shared_k_per_w=z_shared_k_per_w,
-            counts=counts,
-            **self._law(),
+        eigenvalues = self.jacobian_eigenvalues(
+            device_a, vce_v, tj_c, z_self_k_per_w=z_self_k_per_w, z_shared_k_per_w=z_shared_k_per_w, counts=counts
         )
+        return eigenvalues.real.max(axis=1)
 
-    def jacobian_radius(
+    def jacobian_eigenvalues(
         self,
         device_a: np.ndarray,
         vce_v: np.ndarray,
@@ -182,11 +177,12 @@ class Stage:
         z_shared_k_per_w: float = 0.0,
         counts: np.ndarray | None = None,
     ) -> np.ndarray:
-        """The largest modulus of the electro-thermal Jacobian's eigenvalues at each point, ``(m,)``.
+        """The distinct eigenvalues of the electro-thermal Jacobian at each point, ``(m, k)``, complex.
 
-        Below 1 where plain relaxation of the fixed point converges; see :func:`jacobian_eigenvalues`.
+        Their largest real part is the stability gain; their largest modulus is below 1 where
+        plain relaxation of the fixed point converges. See :func:`jacobian_eigenvalues`.
         """
-        eigenvalues = jacobian_eigenvalues(
+        return jacobian_eigenvalues(
             device_a,
             vce_v,
             tj_c,
@@ -195,7 +191,6 @@ class Stage:
             counts=counts,
             **self._law(),
         )
-        return np.abs(eigenvalues).max(axis=1)
 
     def drive_current_a(self, device_a: np.ndarray) -> np.ndarray | None:
         """Base current the driver supplies to all devices at each point, Σ I_E/(h_FE + 1), ``(m,)``. [A]
