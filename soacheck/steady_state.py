@@ -15,7 +15,7 @@ from typing import Literal
 
 import numpy as np
 
-from soacheck.fixed_point import anderson
+from soacheck.fixed_point import MEMORY, anderson
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC
@@ -110,16 +110,19 @@ def steady_state(
     law = {"z": z, "rth": rth, "average": average, "sink": sink, "offsets": offsets, "counts": counts}
     gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared, "counts": counts}
 
+    def step_for(cols: np.ndarray) -> Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]:
+        return _relaxation_step(stage, src[cols], total[cols], idle_total[cols], **law)
+
     def fast(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
         """Accelerated; settled only where plain relaxation converges too (every eigenvalue inside the unit circle)."""
-        state, ok = _settle_fast(stage, src[cols], total[cols], idle_total[cols], tj0, **law)
+        state, ok = _settle(step_for(cols), tj0, tol_k=1e-3 * SETTLED_K, max_steps=FAST_STEPS, memory=MEMORY)
         currents, vce, _, _, tj, _ = state
         eigenvalues = stage.jacobian_eigenvalues(currents, vce, tj, **gains)  # once, for both tests
         radius = np.abs(eigenvalues).max(axis=1)
         return state, ok & (radius < 1.0), eigenvalues.real.max(axis=1)
 
     def slow(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
-        state, ok = _settle(stage, src[cols], total[cols], idle_total[cols], tj0, iterations=max_iterations, **law)
+        state, ok = _settle(step_for(cols), tj0, tol_k=SETTLED_K, max_steps=max_iterations, memory=0)
         currents, vce, _, _, tj, _ = state
         return state, ok, stage.stability_gain(currents, vce, tj, **gains)
 
@@ -213,79 +216,36 @@ def _relaxation_step(
     return step
 
 
-def _settle(
-    stage: Stage,
-    src: np.ndarray,
-    total: np.ndarray,
-    idle_total: np.ndarray,
-    tj0: np.ndarray,
-    *,
-    z: float,
-    rth: float,
-    average: float,
-    sink: str,
-    offsets: np.ndarray,
-    counts: np.ndarray,
-    iterations: int,
-) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
-    """The fixed point by plain relaxation from junction temperatures ``tj0``; the state and where it settled.
-
-    Each step moves every junction by the loop gain times its last move: hundreds of steps
-    near runaway. The reference the fast path (:func:`_settle_fast`) is checked against, and
-    its fallback where that path might not reach the state this one does.
-    """
-    step = _relaxation_step(
-        stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink, offsets=offsets, counts=counts
-    )
-    m = tj0.shape[1]
-    tj = tj0
-    settled = np.zeros(m, dtype=bool)
-    gone = np.zeros(m, dtype=bool)
-    state: tuple[np.ndarray, ...] = ()
-    for _ in range(iterations):
-        tj_new, state = step(tj)
-        settled = np.max(np.abs(tj_new - tj), axis=0) < SETTLED_K
-        tj = tj_new
-        gone = (tj >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
-        if np.all(settled | gone):
-            break
-    return state, settled & ~gone
-
-
 FAST_STEPS = 30
 """Steps the accelerated fixed point takes at most before the plain relaxation takes over."""
 
 
-def _settle_fast(
-    stage: Stage,
-    src: np.ndarray,
-    total: np.ndarray,
-    idle_total: np.ndarray,
+def _settle(
+    step: Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]],
     tj0: np.ndarray,
     *,
-    z: float,
-    rth: float,
-    average: float,
-    sink: str,
-    offsets: np.ndarray,
-    counts: np.ndarray,
+    tol_k: float,
+    max_steps: int,
+    memory: int,
 ) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
-    """The same fixed point by Anderson mixing (:func:`soacheck.fixed_point.anderson`), settled to 1e-3·SETTLED_K.
+    """The fixed point of ``step`` from junction temperatures ``tj0`` ``(rows, m)``; the state and where it settled.
 
-    Each point is mixed on its own; a point that has not settled within :data:`FAST_STEPS`
-    steps or runs away is reported as not settled (the caller relaxes it plainly).
+    By Anderson mixing of the last ``memory`` steps (:func:`soacheck.fixed_point.anderson`),
+    or, with ``memory=0``, by plain relaxation: each step moves every junction by the loop
+    gain times its last move, hundreds of steps near runaway; the reference the mixed path
+    is checked against, and its fallback where that path might not reach the state this
+    one does. A point settles when no junction moves more than ``tol_k`` [K] in a step; one
+    that runs away (past RUNAWAY_C) is given up and reported as not settled.
     """
-    step = _relaxation_step(
-        stage, src, total, idle_total, z=z, rth=rth, average=average, sink=sink, offsets=offsets, counts=counts
-    )
     found = anderson(
         step,
         tj0,
-        tol=1e-3 * SETTLED_K,
-        max_steps=FAST_STEPS,
+        tol=tol_k,
+        max_steps=max_steps,
         lower=float(np.min(tj0)),
         upper=2 * RUNAWAY_C,
         give_up=lambda tj: (tj >= RUNAWAY_C).any(axis=0),
+        memory=memory,
     )
-    gone = (found.x >= RUNAWAY_C).any(axis=0)
+    gone = (found.x >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
     return found.state, found.settled & ~gone
