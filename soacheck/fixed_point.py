@@ -47,7 +47,6 @@ def anderson(
     *,
     tol: float,
     max_steps: int,
-    by_column: bool = True,
     lower: np.ndarray | float = -np.inf,
     upper: float = np.inf,
     give_up: Callable[[np.ndarray], np.ndarray] | None = None,
@@ -65,16 +64,14 @@ def anderson(
         A column has settled when no element of it moves more than this in one step.
     max_steps
         Evaluations of ``step`` at most.
-    by_column
-        Mix each column with its own coefficients (columns are independent problems, such
-        as the points of an envelope); False: one set for the whole array (a trajectory,
-        whose samples are coupled through time).
     lower, upper
         Bounds the mixed iterate is clipped to (F's own range), so an extrapolation never
         leaves the domain F is meant for.
     give_up
         ``give_up(F(x))`` gives the columns ``(m,)`` not worth iterating further (a
         runaway); the iteration stops once every column has settled or been given up.
+    memory
+        Previous steps mixed; 0 is plain relaxation, x_{k+1} = F(x_k).
 
     Notes
     -----
@@ -107,8 +104,6 @@ def anderson(
                 d_f.pop(0)
                 d_g.pop(0)
         # a column whose step grew forgets its history and takes the plain step (a restart)
-        if not by_column:
-            size = np.full(size.shape, size.max())
         grew = size > last_size
         last_f, last_g, last_size = f, g, size
         if grew.any():
@@ -119,13 +114,8 @@ def anderson(
             continue
         big_f = np.stack(d_f)  # (p, n, m)
         big_g = np.stack(d_g)
-        if not by_column:
-            big_f = big_f.reshape(len(d_f), -1, 1)
-            f_cols = f.reshape(-1, 1)
-        else:
-            f_cols = f
         normal = np.einsum("inm,jnm->mij", big_f, big_f)  # (m, p, p)
-        rhs = np.einsum("inm,nm->mi", big_f, f_cols)  # (m, p)
+        rhs = np.einsum("inm,nm->mi", big_f, f)  # (m, p)
         scale = np.trace(normal, axis1=1, axis2=2)[:, None, None]
         normal = normal + 1e-12 * np.maximum(scale, 1e-300) * np.eye(len(d_f))
         with np.errstate(all="ignore"):
@@ -134,11 +124,7 @@ def anderson(
             except np.linalg.LinAlgError:
                 gamma = np.zeros_like(rhs)
         gamma = np.where(np.isfinite(gamma).all(axis=1, keepdims=True), gamma, 0.0)
-        if by_column:
-            mixed = g - np.einsum("inm,mi->nm", big_g, gamma)
-        else:
-            mixed = g - np.tensordot(gamma[0], big_g, axes=1)
+        mixed = g - np.einsum("inm,mi->nm", big_g, gamma)
         x = np.clip(np.where(np.isfinite(mixed), mixed, g), lower, upper)
-        if by_column:
-            x = np.where(settled[None, :], g, x)
+        x = np.where(settled[None, :], g, x)
     return FixedPoint(g, state, settled, steps)
