@@ -30,7 +30,7 @@ if TYPE_CHECKING:
     from soacheck.api.stages import StageRunResult
 
 
-def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, setpoint_unit: str = "") -> None:
+def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> None:
     run, label, payload = result.run, result.test, result.to_dict()
     if plot is not None:
         save_figure(result.plot().figure, plot)
@@ -39,7 +39,8 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None, set
     else:
         console = console_for_output()
         title = f"{run.stage.part.id} × {run.stage.count}: {label}{under_policy(payload['policy'])}"
-        units = {"max_safe_setpoint": setpoint_unit, "max_setpoint_at_rating": setpoint_unit}
+        unit = result.setpoint_unit  # A, W or Ω by the discharge's mode (quantities.SETPOINT)
+        units = {"max_safe_setpoint": unit, "max_setpoint_at_rating": unit}
         console.print(quantity_table(title, payload, skip=("test",), span_s=payload.get("duration"), units=units))
         print_assumptions(console, payload["assumptions"])
         if plot is not None:
@@ -91,8 +92,7 @@ def discharge(
             library=library,
             progress=progress,
         )
-    unit = {"cc": "A", "cp": "W", "cr": "Ω"}.get(mode.strip().lower(), "")
-    _report_run(result, as_json=as_json, plot=plot, setpoint_unit=unit)
+    _report_run(result, as_json=as_json, plot=plot)
 
 
 @app.command()
