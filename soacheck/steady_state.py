@@ -182,9 +182,13 @@ def _relaxation_step(
     offsets: np.ndarray,
     counts: np.ndarray,
 ) -> Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]:
-    """One step of the fixed point: junction temperatures ``(rows, m)`` to new ones, and (currents, V, P, case, Tj,
-    sink); row k has V_BE offset ``offsets[k]`` and stands for ``counts[k]`` alike devices.
+    """One step of the fixed point: junction temperatures ``(rows, m)`` [°C] to new ones, and (currents [A],
+    V [V], P [W], case [°C], Tj [°C], sink [°C]); row k has V_BE offset ``offsets[k]`` [V] and stands for
+    ``counts[k]`` alike devices.
 
+    ``src``, ``total`` and ``idle_total`` are the source voltage [V], the total pulse current [A]
+    and the total standing current [A] at each point ``(m,)``; ``z`` is the junction's rise per watt
+    of the pulse, ``rth`` per watt standing [K/W]; ``average`` the duty the heatsink averages over [1].
     Each step's sharing starts Newton from the previous step's currents.
     """
     cooling = stage.cooling
