@@ -19,6 +19,7 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -147,16 +148,20 @@ def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.take_along_axis(stacked, which[None], axis=0)[0], which
 
 
-def distinct_rows(keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The distinct rows of ``keys`` (sorted) and the index of each row among them, shapes ``(k, c)`` and ``(n,)``.
+def distinct_rows(columns: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct rows of the key ``columns`` (each ``(n,)``; sorted) and the index of each row among them,
+    shapes ``(k, c)`` and ``(n,)``.
 
-    What ``np.unique(keys, axis=0, return_inverse=True)`` gives for rows without NaN, with the
-    common case of a single condition for every point answered in one comparison, and
-    otherwise one sort of each column and of the combined codes (sorting the rows as
-    records is ten times slower).
+    What ``np.unique(np.column_stack(columns), axis=0, return_inverse=True)`` gives for rows
+    without NaN, with the common case of a single condition for every point answered from each
+    column's least and greatest value, without stacking them, and otherwise one sort of each
+    column and of the combined codes (sorting the rows as records is ten times slower).
     """
-    if keys.shape[0] and np.all(keys == keys[:1]):
-        return keys[:1].copy(), np.zeros(keys.shape[0], dtype=np.intp)
+    columns = [np.asarray(c) for c in columns]
+    n = columns[0].size
+    if n and all(c.min() == c.max() for c in columns):
+        return np.array([[float(c[0]) for c in columns]]), np.zeros(n, dtype=np.intp)
+    keys = np.column_stack(columns).astype(float)
     group = np.zeros(keys.shape[0], dtype=np.int64)
     for column in keys.T:  # codes in sorted order, so the combined codes sort the rows lexicographically
         values, code = np.unique(column, return_inverse=True)
@@ -254,11 +259,11 @@ def allowed_current(
     by_curve = np.where(
         continuous | (d > 0) | (idle > 0), DC, part.pulse_widths_s[part.curve_index(np.where(valid, tp, DC))]
     )
-    keys = np.column_stack([np.where(by_model, tp, by_curve), np.where(by_model, d, 0.0)])
+    keys = [np.where(by_model, tp, by_curve), np.where(by_model, d, 0.0)]
     with np.errstate(divide="ignore", invalid="ignore"):
         log_v = np.log(np.where(valid, v, 1.0))
     if valid.any():
-        conditions, group = distinct_rows(keys[valid])
+        conditions, group = distinct_rows([key[valid] for key in keys])
         rows = np.flatnonzero(valid)
         for k, (width, train) in enumerate(conditions):
             sel = rows if len(conditions) == 1 else rows[group == k]

@@ -241,10 +241,9 @@ def _assumptions(
     standing = (idle > 0) & np.isfinite(tp) & (d < 1)
     used_any = ~np.isnan(result.curve_pulse_s)  # the points not evaluated get no note here
     columns = [tp, d, standing, result.curve_pulse_s, result.modelled]
-    if used_any.size and used_any.all() and all(c.min() == c.max() for c in columns):  # one condition for all
-        conditions = [[float(c[0]) for c in columns]]
-    else:
-        conditions = distinct_rows(np.column_stack(columns)[used_any].astype(float))[0].tolist()
+    if used_any.size and not used_any.all():
+        columns = [c[used_any] for c in columns]
+    conditions = distinct_rows(columns)[0].tolist() if used_any.any() else []
     for asked, duty, on_idle, used, modelled in conditions:
         if math.isinf(asked) and duty == 0:
             continue
