@@ -8,12 +8,7 @@ from collections.abc import Callable
 
 def best_of(runs: int, fn: Callable[[], object]) -> float:
     """The shortest wall time of ``runs`` calls of ``fn``. [s]"""
-    best = float("inf")
-    for _ in range(runs):
-        start = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - start)
-    return best
+    return best_of_interleaved(runs, fn)[0]
 
 
 def best_of_interleaved(runs: int, *fns: Callable[[], object]) -> list[float]:
