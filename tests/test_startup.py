@@ -57,6 +57,8 @@ def test_a_plain_small_table_reads_as_pandas_reads_it(path, monkeypatch):
     header = path.read_text().splitlines()[0].split(",")
     numeric = [name for name in header if name != "pulse"]
     text = [name for name in header if name == "pulse"]
+    sep, names = csvtables._sniff(path)
+    assert csvtables._plain_columns(path, sep, names, numeric + text, numeric, ()) is not None  # read without pandas
     plain = csvtables.read_table(path, numeric=numeric, text=text)
     monkeypatch.setattr(csvtables, "PLAIN_FILE_BYTES", -1)  # every file through pandas
     read = csvtables.read_table(path, numeric=numeric, text=text)
