@@ -18,6 +18,7 @@ The package is organised by domain concept:
 - :mod:`soacheck.thermal_model` -- a part's thermal model (given or fitted)
 - :mod:`soacheck.thermal_response` -- Tj along P(t)
 - :mod:`soacheck.excursions`, :mod:`soacheck.trace` -- waveforms checked sample by sample, in chunks
+- :mod:`soacheck.trace_boundaries`, :mod:`soacheck.trace_result` -- what a trace is judged against, what it found
 - :mod:`soacheck.stage`    -- parallel devices and their heatsink
 - :mod:`soacheck.sharing`, :mod:`soacheck.stage_run`, :mod:`soacheck.steady_state` -- sharing, runs, steady states
 - :mod:`soacheck.search`   -- monotone searches

@@ -37,7 +37,7 @@ from soacheck.plotstyle import (
 from soacheck.points import PointCheck
 from soacheck.stage_run import StageRun
 from soacheck.thinning import judged_margin_line
-from soacheck.trace import TraceResult
+from soacheck.trace_result import TraceResult
 from soacheck.units import DC, format_duration
 
 MECHANISM_STYLE = MECHANISM_STYLES  # one palette, defined in soacheck.plotstyle

@@ -11,86 +11,33 @@ accounted for, so no excursion is credited with a pulse curve (conservative).
 
 The checker is fed in chunks and carries its state across chunk borders (thermal
 branches, an excursion still open), so a trace larger than memory gives the same answer
-as one pass.
+as one pass. The boundaries and the evaluation of samples under them live in
+:mod:`soacheck.trace_boundaries`, the answer in :mod:`soacheck.trace_result`.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
-from soacheck.boundary import BoundaryPolyline, envelope_polyline, evaluate_lines, pulse_lines
-from soacheck.derating import BreakdownDerating, breakdown_note, mechanism_factors, policy_note
+from soacheck.boundary import evaluate_lines
+from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.excursions import OpenRun, excess_margin, first_at_max, merge_runs, run_edges, run_maxima
-from soacheck.instability import instability_line, instability_notes
-from soacheck.mechanisms import MechanismLine, mechanism_lines
+from soacheck.instability import instability_notes
 from soacheck.parts import Part
-from soacheck.points import overload_of
-from soacheck.policy import NO_POLICY, policy_of
+from soacheck.policy import policy_of
 from soacheck.quantities import TEMPERATURE
 from soacheck.stage import Cooling
 from soacheck.thermal import Foster, chain
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import ThermalState, temperature_rise
 from soacheck.thinning import PeakThinner, SpanThinner
+from soacheck.trace_boundaries import JudgingBoundaries
+from soacheck.trace_result import TraceResult
 from soacheck.units import format_duration
-
-
-@dataclass(frozen=True, eq=False)
-class TraceResult:
-    """What a trace check found. Times in s, temperatures in °C; None where not defined."""
-
-    part_id: str
-    passed: bool
-    samples: int
-    duration_s: float
-    tj_peak_c: float | None
-    tj_peak_time_s: float | None
-    tc_peak_c: float
-    first_violation_time_s: float | None
-    limit: str | None
-    margin: float | None
-    margin_time_s: float | None
-    time_outside_s: float
-    time_over_tj_max_s: float
-    excursions: int
-    assumptions: tuple[str, ...]
-    plot: dict[str, np.ndarray] = field(default_factory=dict)
-    # thinned excursions for the plot: start, end [s] (first and last sample), margin against the
-    # boundary that judged each (fraction), margin_time [s] (see soacheck.thinning.SpanThinner)
-    excursion_spans: dict[str, np.ndarray] = field(default_factory=dict)
-    margin_to_rating: float | None = None
-    policy: dict[str, object] = field(default_factory=lambda: NO_POLICY.to_dict())
-
-    @property
-    def verdict(self) -> str:
-        return "pass" if self.passed else "fail"
-
-    def summary(self) -> dict[str, object]:
-        """The result as the plain fields of the JSON output."""
-        return {
-            "part": self.part_id,
-            "verdict": self.verdict,
-            "samples": self.samples,
-            "duration": self.duration_s,
-            "tj_peak": self.tj_peak_c,
-            "tj_peak_time": self.tj_peak_time_s,
-            "case_peak": self.tc_peak_c,
-            "first_violation_time": self.first_violation_time_s,
-            "limit": self.limit,
-            "margin": self.margin,
-            "overload": overload_of(self.margin),
-            "margin_to_rating": self.margin_to_rating,
-            "policy": self.policy,
-            "margin_time": self.margin_time_s,
-            "time_outside": self.time_outside_s,
-            "time_over_tj_max": self.time_over_tj_max_s,
-            "excursions": self.excursions,
-            "assumptions": list(self.assumptions),
-        }
 
 
 @dataclass
@@ -164,28 +111,11 @@ class TraceChecker:
             self.junction = self.model.foster if self.model else None
             self.case = None
             self.reference_c = float(tc_c)
-        # boundary 0..n-2: pulse curves (non-thermal lines when a model follows Tj); n-1: DC
-        self.widths_s = part.pulse_widths_s
-        self.lines: list[tuple[MechanismLine, ...]] = []
-        # the DC thermal instability cap (transfer.csv) sees the whole path the case sits on
-        beyond_k_per_w = cooling.case_sink_k_per_w + cooling.sink_ambient_k_per_w if cooling else 0.0
-        for curve in part.curves:
-            if curve.is_dc:
-                dc = mechanism_lines(part, curve)
-                self.lines.append((*dc, *instability_line(part, part.ratings.rth_jc_k_per_w + beyond_k_per_w)))
-            elif self.model is not None:
-                bound = pulse_lines(part, pulse_s=curve.pulse_s)
-                self.lines.append(tuple(line for line in bound.lines if line.mechanism != "power"))
-            else:
-                self.lines.append(mechanism_lines(part, curve))
-        self.dc = len(self.lines) - 1
-        self.polylines: list[BoundaryPolyline] | None = None
-        if cooling is None:  # one case temperature: evaluate on exact polylines, the fast path
-            v_lo = min(c.voltage_v[0] for c in part.curves) * 1e-3
-            self.polylines = [
-                envelope_polyline(part, lines, tc_c=self.reference_c, breakdown=breakdown, v_min_v=v_lo)
-                for lines in self.lines
-            ]
+        # the pulse curves, then DC (see soacheck.trace_boundaries)
+        self.boundaries = JudgingBoundaries(
+            part, self.model, cooling=cooling, tc_c=self.reference_c, breakdown=breakdown
+        )
+        self.lines, self.dc, self.widths_s = self.boundaries.lines, self.boundaries.dc, self.boundaries.widths_s
         # running state
         self.state_j: ThermalState | None = None
         self.state_c: ThermalState | None = None
@@ -214,62 +144,6 @@ class TraceChecker:
             if part.policy is None
             else TraceChecker(part.rated, tc_c=tc_c, cooling=cooling, breakdown=breakdown, plot_points=0)
         )
-
-    # ----------------------------------------------------------------- evaluation
-
-    def _excess_from_start(
-        self, index: int, v: np.ndarray, i: np.ndarray, start_c: np.ndarray, lengths: np.ndarray | None
-    ) -> np.ndarray:
-        """ln(I / I_allowed) under boundary ``index``, the lines derated at a temperature per run or per sample.
-
-        ``start_c`` holds one temperature per run and ``lengths`` the samples of each run in
-        order (the junction where each excursion started), or, with ``lengths`` None, one
-        temperature per sample (a case temperature that moves). The derating factors are
-        computed once per run, the lines once per sample; nothing is allowed above the
-        voltage limit or at or above the junction limit.
-        """
-        factors = mechanism_factors(start_c, self.part, self.breakdown)
-
-        def spread(per_run: np.ndarray) -> np.ndarray:
-            return per_run if lengths is None else np.repeat(per_run, lengths)
-
-        log_v = np.maximum(v, 1e-300)
-        np.log(log_v, out=log_v)
-        log_allowed = None
-        for line in self.lines[index]:
-            with np.errstate(divide="ignore"):
-                log_factor = np.log(factors[line.mechanism]) if line.derated else np.zeros(1)
-            if line.log_v.size == 1:  # a constant (a current limit): derated per run, no pass over samples
-                y = spread(line.log_i[0] + log_factor) if log_factor.size > 1 else line.log_i[0] + log_factor[0]
-            else:
-                y = line(log_v)
-                if np.any(log_factor != 0):
-                    y += spread(log_factor) if log_factor.size > 1 else log_factor[0]
-            log_allowed = y if log_allowed is None else np.minimum(log_allowed, y, out=y if np.ndim(y) else None)
-        log_allowed = np.broadcast_to(log_allowed, v.shape).copy() if np.ndim(log_allowed) == 0 else log_allowed
-        blocked_run = start_c >= self.part.tj_limit_c
-        if blocked_run.any() or np.max(v) > self.part.v_limit_v:
-            log_allowed[(v > self.part.v_limit_v) | spread(blocked_run)] = -np.inf
-        with np.errstate(divide="ignore", invalid="ignore"):
-            excess = np.log(i)
-            excess -= log_allowed
-        return excess
-
-    def _excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
-        """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
-
-        The margin is 1 − exp(excess); working in logs saves a pass over every sample.
-        ``tc`` is the case temperature the lines are derated at (None: the fixed one, on the
-        exact polyline of the boundary at that temperature).
-        """
-        if self.polylines is not None:
-            log_allowed = self.polylines[index].log_current_at(v)
-        else:
-            return self._excess_from_start(index, v, i, tc, None)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            excess = np.log(i)
-            excess -= log_allowed  # in place: one fresh array less per chunk
-        return excess  # NaN only for zero current where nothing is allowed: compares as inside
 
     # ----------------------------------------------------------------- feeding
 
@@ -300,7 +174,7 @@ class TraceChecker:
             rise_j, self.state_j = temperature_rise(t, p, self.junction, state=self.state_j, **before)
             self._temperature(t, rise_j)
 
-        excess = self._excess(self.dc, v, i, tc)
+        excess = self.boundaries.excess(self.dc, v, i, tc)
         k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
         has_nan = bool(np.isnan(excess[k]))  # argmax finds a NaN first if there is one
         # fail safe: a sample that carries current but could not be evaluated is never inside
@@ -378,7 +252,7 @@ class TraceChecker:
         still_open = bool(ends[-1] == t.size)
         closed = starts.size - still_open
         # the judging boundary of each run that ended; of the open run, the shortest that may still judge it
-        boundary = self._boundary_for(t[np.minimum(ends, t.size - 1)] - start_s)
+        boundary = self.boundaries.judging(t[np.minimum(ends, t.size - 1)] - start_s)
         v_rows, i_rows = v[rows], i[rows]
         judged = excess[rows]
         closed_rows = int(offsets[-1]) if still_open else rows.size
@@ -387,7 +261,7 @@ class TraceChecker:
                 continue
             runs = boundary[:closed] == b
             sel = slice(0, closed_rows) if runs.all() else np.flatnonzero(np.repeat(runs, lengths[:closed]))
-            judged[sel] = self._excess_from_start(
+            judged[sel] = self.boundaries.excess_from_start(
                 int(b), v_rows[sel], i_rows[sel], start_tj[:closed][runs], lengths[:closed][runs]
             )
 
@@ -464,7 +338,9 @@ class TraceChecker:
             if b == self.dc:
                 x = judged[lo:]
             else:
-                x = self._excess_from_start(b, v_rows[lo:], i_rows[lo:], np.array([start_tj]), np.array([at.size]))
+                x = self.boundaries.excess_from_start(
+                    b, v_rows[lo:], i_rows[lo:], np.array([start_tj]), np.array([at.size])
+                )
             run.min_margin[b] = float(excess_margin(np.fmax.reduce(x)))
             run.min_time[b] = t_run[first_at_max(x)]
             positive = x > 0
@@ -482,13 +358,6 @@ class TraceChecker:
                 run.pending_negative[b] = bool(positive[-1])
         return run
 
-    def _boundary_for(self, duration_s: np.ndarray) -> np.ndarray:
-        """Which boundary judges an excursion of this duration: the next longer pulse curve, or DC."""
-        if self.model is None:
-            return np.full(np.shape(duration_s), self.dc)
-        index = np.searchsorted(self.widths_s, np.asarray(duration_s, dtype=float) * (1 - 1e-9))
-        return np.minimum(index, self.dc)
-
     def _close(self, run: OpenRun, end_s: float) -> None:
         """An excursion ended at ``end_s`` (the first sample back inside): judge it."""
         run.negative_s = run.negative_s + run.pending_negative * (end_s - run.last_t)
@@ -496,7 +365,7 @@ class TraceChecker:
 
     def _judge(self, run: OpenRun, duration_s: float) -> None:
         self.excursions += 1
-        b = int(self._boundary_for(duration_s))
+        b = int(self.boundaries.judging(duration_s))
         self.worst.margin_candidate(float(run.min_margin[b]), float(run.min_time[b]))
         if math.isfinite(run.first_negative_s[b]):
             self.time_outside += float(run.negative_s[b])

@@ -21,7 +21,8 @@ from soacheck.parts import Part
 from soacheck.policy import resolve_policy
 from soacheck.quantities import CHUNK_ROWS, TEMPERATURE
 from soacheck.stage import Cooling, Stage
-from soacheck.trace import TraceChecker, TraceResult
+from soacheck.trace import TraceChecker
+from soacheck.trace_result import TraceResult
 from soacheck.tracefiles import iter_trace, iter_trace_frame
 
 if TYPE_CHECKING:  # pandas, matplotlib and the report load only when a table, a plot or a report is asked for

@@ -28,7 +28,7 @@ from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 
 if TYPE_CHECKING:  # the domain modules load when a command runs, not for --help
-    from soacheck.trace import TraceResult
+    from soacheck.trace_result import TraceResult
 
 
 @app.command()
