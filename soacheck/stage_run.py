@@ -18,6 +18,7 @@ import numpy as np
 from soacheck.boundary import allowed_current
 from soacheck.derating import BreakdownDerating, policy_note
 from soacheck.errors import SoacheckError
+from soacheck.fixed_point import anderson
 from soacheck.instability import instability_notes
 from soacheck.parts import Part
 from soacheck.points import overload_of
@@ -242,21 +243,28 @@ def run_stage(
 
 
 def _relax(stage: Stage, junction: Foster, t, src, total, tj0: np.ndarray, iterations: int):
-    """Waveform relaxation from junction temperatures ``tj0``: (currents, V, P, case, Tj, sink), converged."""
-    tj = tj0
-    currents = None
-    for _ in range(iterations):
-        currents = stage.share(total, tj, start_a=currents)  # Newton starts from the last step's sharing
+    """Waveform relaxation from junction temperatures ``tj0`` ``(n, samples)`` [°C]: (currents, V, P, case, Tj,
+    sink) and whether every sample settled (no junction moved SETTLED_K in a step), by the plain relaxation of
+    :func:`soacheck.fixed_point.anderson` (``memory=0``); a run past RUNAWAY_C anywhere stops unsettled."""
+    last: list[np.ndarray | None] = [None]
+
+    def step(tj: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, ...]]:
+        currents = stage.share(total, tj, start_a=last[0])  # Newton starts from the last step's sharing
+        last[0] = currents
         vce = stage.device_voltage(src[None, :], total[None, :], currents)
         power = np.maximum(vce, 0.0) * currents
         sink, case, tj_new = _temperatures(stage, junction, t, power)
-        change = np.max(np.abs(tj_new - tj))
-        tj = tj_new
-        if change < SETTLED_K:
-            return (currents, vce, power, case, tj, sink), True
-        if not np.all(tj < RUNAWAY_C):  # far past any tj_max: it will not settle
-            break
-    return (currents, vce, power, case, tj, sink), False
+        return tj_new, (currents, vce, power, case, tj_new, sink)
+
+    found = anderson(
+        step,
+        tj0,
+        tol=SETTLED_K,
+        max_steps=iterations,
+        memory=0,
+        give_up=lambda tj: np.full(tj.shape[1], not np.all(tj < RUNAWAY_C)),  # far past any tj_max: it will not settle
+    )
+    return found.state, bool(found.settled.all())
 
 
 def sharing_notes(stage: Stage) -> list[str]:
