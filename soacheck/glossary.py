@@ -131,6 +131,14 @@ _TERMS = [
     _t("samples", "", "number of samples checked"),
     _t("first_violation_time", "s", "time of the first sample outside, null when none is", "first violation"),
     _t("margin_time", "s", "time at which the least margin occurs", "margin at"),
+    _t(
+        "dc_margin",
+        "1",
+        "a trace sample's margin against the DC boundary alone (derated at its case temperature), beside its "
+        "margin against the boundary that judged it: inside an excursion that is a pulse curve, so a pulse that "
+        "passes has a dc_margin below 0 and a margin at or above 0. A column of a trace's table only.",
+        "DC margin (%)",
+    ),
     _t("device", "", "the device with the least margin, numbered from 1 (Q1, Q2 ...)"),
     _t("tj_peak", "°C", "highest junction temperature"),
     _t("tj_peak_time", "s", "time of the highest junction temperature", "tj peak at"),

@@ -164,15 +164,43 @@ class SpanThinner:
         return {name: values.copy() for name, values in zip(self.names, self.kept, strict=True)}
 
 
+def judged_margins(t_s: np.ndarray, dc_margin: np.ndarray, spans: dict[str, np.ndarray]) -> np.ndarray:
+    """The margin of thinned samples against the boundary that judged them, one per sample.
+
+    A sample above the DC boundary (DC margin below 0) inside an excursion span takes the
+    span's judged margin (the excursion's least margin against its pulse curve); every
+    other sample keeps its DC margin.
+
+    Parameters
+    ----------
+    t_s, dc_margin
+        Kept samples' times [s] and margins to the DC boundary (fraction), each ``(n,)``.
+    spans
+        :meth:`SpanThinner.result` (empty: no excursions).
+
+    Returns
+    -------
+    numpy.ndarray
+        Margins (fraction), ``(n,)``, a new array.
+    """
+    t = np.asarray(t_s, dtype=float)
+    margin = np.asarray(dc_margin, dtype=float).copy()
+    if not spans or spans["start"].size == 0:
+        return margin
+    start, end = spans["start"], spans["end"]
+    k = np.searchsorted(start, t, side="right") - 1
+    inside = (k >= 0) & (t <= end[np.maximum(k, 0)]) & (margin < 0)
+    margin[inside] = spans["margin"][k[inside]]
+    return margin
+
+
 def judged_margin_line(
     t_s: np.ndarray, dc_margin: np.ndarray, spans: dict[str, np.ndarray]
 ) -> tuple[np.ndarray, np.ndarray]:
     """The margin of thinned samples against the boundary that judged them, with each span's worst.
 
-    A sample above the DC boundary (DC margin below 0) inside an excursion span takes the
-    span's judged margin (the excursion's least margin against its pulse curve); every
-    other sample keeps its DC margin. Each span's least margin is added at its own time,
-    so the worst excursion of every bin is drawn even when no kept sample lies in it.
+    Each sample's margin is :func:`judged_margins`; each span's least margin is added at its
+    own time, so the worst excursion of every bin is drawn even when no kept sample lies in it.
 
     Parameters
     ----------
@@ -187,13 +215,9 @@ def judged_margin_line(
         Times [s] and margins (fraction), in time order, each ``(n + spans,)``.
     """
     t = np.asarray(t_s, dtype=float)
-    margin = np.asarray(dc_margin, dtype=float).copy()
+    margin = judged_margins(t, dc_margin, spans)
     if not spans or spans["start"].size == 0:
         return t, margin
-    start, end = spans["start"], spans["end"]
-    k = np.searchsorted(start, t, side="right") - 1
-    inside = (k >= 0) & (t <= end[np.maximum(k, 0)]) & (margin < 0)
-    margin[inside] = spans["margin"][k[inside]]
     times = np.r_[t, spans["margin_time"]]
     order = np.argsort(times, kind="stable")
     return times[order], np.r_[margin, spans["margin"]][order]

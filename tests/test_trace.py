@@ -14,14 +14,16 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
+import soacheck
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
+from soacheck.glossary import TERMS
 from soacheck.stage import Cooling
 from soacheck.trace import TraceChecker
 from soacheck.tracefiles import iter_trace
 
 from .conftest import THERMAL, write_part
-from .helpers import svg_texts, zth_train_closed_form
+from .helpers import PULSE_TRAIN_DT_S, PULSE_TRAIN_TP_S, pulse_train_above_dc, svg_texts, zth_train_closed_form
 
 runner = CliRunner(env={"COLUMNS": "200"})
 
@@ -212,3 +214,40 @@ def test_a_bad_value_in_a_late_chunk_read_ahead_names_its_row(tmp_path):
         for t, *_ in iter_trace(path, chunk_rows=100):
             seen += t.size
     assert seen == 900  # the chunks before it were checked and handed over first
+
+
+def test_a_traces_table_carries_the_margin_its_plot_draws(modelled_part):
+    """to_frame()'s margin is against the boundary that judged each sample, as the plot draws it.
+
+    Five 2 A, 80 V, 0.3 ms pulses every 5 ms on the reference part with its Foster network, case
+    at 25 °C (helpers.pulse_train_above_dc, closed form derived there): each pulse lies far above
+    DC but passes the 1 ms curve derated at the junction where it starts. Inside a pulse the
+    table's margin must be that closed-form value (>= 0) and equal the drawn line; the margin
+    against DC alone stays in a column named for it (glossary: dc_margin), below 0 there.
+    """
+    t, v, i, starts_s, expected = pulse_train_above_dc()
+    dt, tp, n_pulse = PULSE_TRAIN_DT_S, PULSE_TRAIN_TP_S, round(PULSE_TRAIN_TP_S / PULSE_TRAIN_DT_S)
+    checked = soacheck.trace(modelled_part, (t, v, i), case_temp=25.0)
+    assert checked.passed, checked.to_dict()
+    frame = checked.to_frame()
+    time_s, margin, dc_margin = (frame[name].to_numpy() for name in ("time", "margin", "dc_margin"))
+    for t_n, want in zip(starts_s, expected, strict=True):
+        in_pulse = (time_s > t_n - dt / 2) & (time_s < t_n + tp - dt / 2)
+        assert in_pulse.sum() == n_pulse  # every sample of the pulse is kept (no thinning at this length)
+        np.testing.assert_allclose(margin[in_pulse], want, rtol=1e-9)  # only rounding: straight line on log axes
+        assert margin[in_pulse].min() >= 0
+        # 1 − 2/0.78125 against the DC boundary alone (slope −2 line through 3.125 A at 40 V)
+        np.testing.assert_allclose(dc_margin[in_pulse], 1 - 2 / 0.78125, rtol=1e-9)
+    assert margin.min() >= 0
+
+    ax = checked.plot().figure.axes
+    margin_ax = next(a for a in ax if a.get_ylabel() == "margin [%]")
+    line = next(line for line in margin_ax.lines if line.get_gid() == "judged-margin")
+    unit_s = {"time [s]": 1.0, "time [ms]": 1e-3, "time [µs]": 1e-6}[margin_ax.get_xlabel()]
+    drawn_t_s, drawn = np.asarray(line.get_xdata()) * unit_s, np.asarray(line.get_ydata()) / 100
+    at = np.searchsorted(drawn_t_s, time_s - dt / 100)  # the drawn point at each row's time
+    np.testing.assert_allclose(drawn_t_s[at], time_s, rtol=1e-12, atol=dt / 100)
+    np.testing.assert_allclose(drawn[at], margin, rtol=1e-12, atol=1e-15)
+
+    assert {"margin", "dc_margin"} <= set(TERMS)  # the columns are glossary words
+    assert "against the DC boundary" in TERMS["dc_margin"].text

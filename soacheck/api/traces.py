@@ -21,6 +21,7 @@ from soacheck.parts import Part
 from soacheck.policy import resolve_policy
 from soacheck.quantities import CHUNK_ROWS, TEMPERATURE
 from soacheck.stage import Cooling, Stage
+from soacheck.thinning import judged_margins
 from soacheck.trace import TraceChecker
 from soacheck.trace_result import TraceResult
 from soacheck.tracefiles import iter_trace, iter_trace_frame
@@ -168,8 +169,16 @@ class TraceCheckResult(Result):
 
     def to_frame(self) -> pd.DataFrame:
         """The thinned waveform, one row per kept sample: time [s], voltage [V], current [A],
-        case_temp [°C], tj [°C] (with a thermal model), margin to the DC boundary (fraction)."""
-        return _pd().DataFrame({name: values for name, values in self.trace.plot.items()})
+        case_temp [°C], tj [°C] (with a thermal model), margin against the boundary that judged the
+        sample (fraction: the DC boundary between excursions, inside an excursion its least margin
+        against the pulse curve that judged it, as the plot draws it), and dc_margin against the DC
+        boundary alone (fraction)."""
+        data = dict(self.trace.plot)
+        if "margin" in data:
+            dc_margin = data.pop("margin")
+            data["margin"] = judged_margins(data["time"], dc_margin, self.trace.excursion_spans)
+            data["dc_margin"] = dc_margin
+        return _pd().DataFrame(data)
 
     def plot(self, ax: Axes | None = None) -> Axes:
         """Without ``ax``: the trajectory on the SOA and Tj(t) with the margin, side by side; the SOA
