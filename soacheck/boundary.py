@@ -332,17 +332,18 @@ class BoundaryPolyline:
         """Allowed current at voltages of any shape. [A] See :meth:`log_current_at`."""
         return np.exp(self.log_current_at(voltage_v))
 
-    def log_current_at(self, voltage_v: np.ndarray) -> np.ndarray:
+    def log_current_at(self, voltage_v: np.ndarray, *, out: np.ndarray | None = None) -> np.ndarray:
         """ln of the allowed current at voltages of any shape: straight between vertices on
         log-log axes, the first piece extended below the first vertex, −inf above the last.
 
         One ``log`` and one ``interp`` per point: the fast path for many points at one case
-        temperature.
+        temperature. ``out``: a float array of ``voltage_v``'s shape to work in, which may
+        then hold the answer (None: fresh arrays).
         """
         x = np.log(self.voltage_v)
         with np.errstate(divide="ignore"):
             y = np.log(self.current_a)
-            lv = np.log(voltage_v)
+            lv = np.log(voltage_v, out=out)
         slope = (y[1] - y[0]) / (x[1] - x[0]) if x.size > 1 and np.isfinite(y[:2]).all() else 0.0
         # extend the first piece to the left by one far vertex, so that interp does it all
         x_far = x[0] - 1000.0

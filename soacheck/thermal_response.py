@@ -68,16 +68,15 @@ def temperature_rise(
         # one held step from the previous chunk's last sample to this chunk's first
         a = np.exp(-(t[0] - t_before_s) / network.tau_s)
         theta0 = a * theta0 + network.r_k_per_w * (1 - a) * p_before_w
-    dt = np.diff(t)
     # uniform to rounding: a relative spread of 1e-6 in Δt changes aᵢ by far less than 1e-6
-    uniform = dt.size == 0 or (dt_max := dt.max()) - dt.min() <= 1e-6 * dt_max
-    if not uniform:
+    dt_min, dt_max = _step_range(t)
+    if not dt_max - dt_min <= 1e-6 * dt_max:  # NaN: not uniform
         thetas = [
             _branch_any_step(t, p, r, tau, th)
             for r, tau, th in zip(network.r_k_per_w, network.tau_s, theta0, strict=True)
         ]
         return np.sum(thetas, axis=0), ThermalState(np.array([th[-1] for th in thetas]))
-    step = (t[-1] - t[0]) / dt.size if dt.size else 0.0
+    step = (t[-1] - t[0]) / (t.size - 1) if t.size > 1 else 0.0
     a = np.exp(-step / network.tau_s)
     b = network.r_k_per_w * (1.0 - a)
     out = None
@@ -95,6 +94,23 @@ def temperature_rise(
         else:
             out += y
     return (np.zeros(t.size) if out is None else out), ThermalState(last)
+
+
+_STEP_BLOCK = 1 << 15
+
+
+def _step_range(t: np.ndarray) -> tuple[float, float]:
+    """Least and greatest step of ``t`` [s], ``(0, 0)`` for fewer than two samples: ``np.diff(t)``'s
+    extremes, found a cache-sized block at a time instead of through a fresh array of every step."""
+    if t.size < 2:
+        return 0.0, 0.0
+    steps = np.empty(min(t.size - 1, _STEP_BLOCK))
+    lo, hi = np.inf, -np.inf
+    for start in range(0, t.size - 1, _STEP_BLOCK):
+        stop = min(start + _STEP_BLOCK, t.size - 1)
+        block = np.subtract(t[start + 1 : stop + 1], t[start:stop], out=steps[: stop - start])
+        lo, hi = np.minimum(lo, block.min()), np.maximum(hi, block.max())  # a NaN step stays NaN
+    return float(lo), float(hi)
 
 
 def _pairs(a: np.ndarray, n: int) -> list[tuple[int, ...]]:

@@ -59,6 +59,21 @@ class _Worst:
             self.violation_time, self.violation_sample, self.violation_limit = time, sample, limit
 
 
+class Scratch:
+    """Arrays of a chunk's size reused from chunk to chunk: a fresh array that large is handed
+    back to the system when freed, and each of its pages costs a fault when written again."""
+
+    def __init__(self) -> None:
+        self.arrays: dict[str, np.ndarray] = {}
+
+    def get(self, name: str, n: int, dtype: type = float) -> np.ndarray:
+        """An uninitialized array of ``n`` values named ``name``, valid until the next ``get`` of that name."""
+        kept = self.arrays.get(name)
+        if kept is None or kept.size < n:
+            kept = self.arrays[name] = np.empty(n, dtype)
+        return kept[:n]
+
+
 class TraceChecker:
     """Check a waveform fed in chunks of (time, voltage, current) samples.
 
@@ -132,6 +147,7 @@ class TraceChecker:
         self.start_tj_peak = -math.inf  # the hottest junction any excursion started from
         self.open: OpenRun | None = None
         self.worst = _Worst()
+        self.scratch = Scratch()
         names = ("time", "voltage", "current", "case_temp", *(("tj",) if self.junction is not None else ()), "margin")
         # each bin keeps the samples of highest voltage, current and junction temperature and of least margin
         keys = 3 + (self.junction is not None)
@@ -160,7 +176,7 @@ class TraceChecker:
             raise SoacheckError(f"time {t[0]:g} s does not rise after {self.last_t:g} s")
         if self.first_t is None:
             self.first_t = float(t[0])
-        p = v * i
+        p = np.multiply(v, i, out=self.scratch.get("p", t.size))
         before = {} if self.last_t is None else {"p_before_w": self.last_p, "t_before_s": self.last_t}
         tc = None
         if self.case is not None:
@@ -174,7 +190,9 @@ class TraceChecker:
             rise_j, self.state_j = temperature_rise(t, p, self.junction, state=self.state_j, **before)
             self._temperature(t, rise_j)
 
-        excess = self.boundaries.excess(self.dc, v, i, tc)
+        excess = self.boundaries.excess(
+            self.dc, v, i, tc, out=self.scratch.get("excess", t.size), work=self.scratch.get("allowed", t.size)
+        )
         k = int(np.argmax(excess))  # one pass decides the common case: every sample inside
         has_nan = bool(np.isnan(excess[k]))  # argmax finds a NaN first if there is one
         # fail safe: a sample that carries current but could not be evaluated is never inside
@@ -186,9 +204,11 @@ class TraceChecker:
         if unevaluated is not None and unevaluated.any():
             self.worst.violation(float(t[int(np.argmax(unevaluated))]), None, "invalid")
         if excess[k] > 0 or has_nan:
-            outside = excess > 0
+            outside = np.greater(excess, 0, out=self.scratch.get("outside", t.size, bool))
             # the DC excess between excursions, NaN (margin 1) as −inf: the worst inside, and the plot's key
-            between = np.where(outside | np.isnan(excess) if has_nan else outside, -np.inf, excess)
+            between = self.scratch.get("between", t.size)
+            np.copyto(between, excess)
+            np.copyto(between, -np.inf, where=outside | np.isnan(excess) if has_nan else outside)
             k = int(np.argmax(between))
             worst_inside = between[k]
         else:

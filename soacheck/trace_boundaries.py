@@ -109,19 +109,29 @@ class JudgingBoundaries:
             excess -= log_allowed
         return excess
 
-    def excess(self, index: int, v: np.ndarray, i: np.ndarray, tc: np.ndarray | None) -> np.ndarray:
+    def excess(
+        self,
+        index: int,
+        v: np.ndarray,
+        i: np.ndarray,
+        tc: np.ndarray | None,
+        *,
+        out: np.ndarray | None = None,
+        work: np.ndarray | None = None,
+    ) -> np.ndarray:
         """ln(I / I_allowed) under boundary ``index``: above 0 outside, −inf at zero current.
 
         The margin is 1 − exp(excess); working in logs saves a pass over every sample.
         ``tc`` is the case temperature the lines are derated at (None: the fixed one, on the
-        exact polyline of the boundary at that temperature).
+        exact polyline of the boundary at that temperature). ``out``, ``work``: arrays of ``v``'s
+        shape for the answer and the allowed current on that path (None: fresh ones).
         """
         if self.polylines is not None:
-            log_allowed = self.polylines[index].log_current_at(v)
+            log_allowed = self.polylines[index].log_current_at(v, out=work)
         else:
             return self.excess_from_start(index, v, i, tc, None)
         with np.errstate(divide="ignore", invalid="ignore"):
-            excess = np.log(i)
+            excess = np.log(i, out=out)
             excess -= log_allowed  # in place: one fresh array less per chunk
         return excess  # NaN only for zero current where nothing is allowed: compares as inside
 

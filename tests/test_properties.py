@@ -190,7 +190,7 @@ def test_the_margin_time_is_never_an_idle_sample(modelled_part):
 
 def test_a_sample_that_cannot_be_evaluated_makes_the_trace_fail_as_invalid(modelled_part, monkeypatch):
     checker = TraceChecker(modelled_part, tc_c=25.0)
-    monkeypatch.setattr(checker.boundaries, "excess", lambda index, v, i, tc: np.full(v.shape, np.nan))
+    monkeypatch.setattr(checker.boundaries, "excess", lambda index, v, i, tc, **_: np.full(v.shape, np.nan))
     checker.feed(np.array([0.0, 1e-3]), np.array([10.0, 10.0]), np.array([1.0, 1.0]))
     result = checker.result()
     assert not result.passed
