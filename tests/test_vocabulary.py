@@ -149,3 +149,34 @@ def test_one_name_for_the_case_peak(outputs):
 
 def test_duty_is_null_for_dc_and_single_pulses(outputs):
     assert all(p["duty"] is None for p in outputs["check inside"]["points"])
+
+
+def _frames(tmp_path) -> dict[str, object]:
+    """Every kind of result's table, through the Python API on the bundled examples."""
+    import soacheck
+
+    part = "demo-npn-to3-250w"
+    (tmp_path / "hot-case.toml").write_text("voltage = [5, 42]\ncurrent = 10\npower = 150\ncase_temp = 60\n")
+    plan = tmp_path / "plan.toml"
+    plan.write_text(SMALL_PLAN.format(stage=STAGE.as_posix(), examples=EXAMPLES.as_posix()), encoding="utf-8")
+    return {
+        "check": soacheck.check(part, points=EXAMPLES / "points.csv").to_frame(),
+        "trace": soacheck.trace(part, EXAMPLES / "pulse-test.csv", case_temp=45).to_frame(),
+        "discharge": soacheck.discharge(
+            STAGE, battery="nmc", cells=10, capacity=2, mode="cc", setpoint=4, internal_resistance=0.15, samples=30
+        ).to_frame(),
+        "sweep": soacheck.sweep(STAGE, ramp="current", start=0.1, stop=20, at=40, samples=30).to_frame(),
+        "sharing": soacheck.sharing(STAGE, current=6, voltage=40, draws=50).to_frame(),
+        "envelope check": soacheck.envelope(STAGE, EXAMPLES / "envelope.toml").to_frame(),
+        "limit table": soacheck.envelope(STAGE, voltages=[5, 20, 40]).to_frame(),
+        "compare": soacheck.compare([part, "demo-npn-to220-62w"], envelope=tmp_path / "hot-case.toml").to_frame(),
+        "lint": soacheck.lint(part).to_frame(),
+        "parts": soacheck.parts(),
+        "plan": soacheck.run_plan(plan, tmp_path / "out").to_frame(),
+    }
+
+
+def test_every_column_of_every_table_the_api_returns_is_a_glossary_word(tmp_path):
+    """to_frame() speaks the JSON's words: a column is a glossary term, so its unit is the glossary's."""
+    unknown = {name: sorted(set(frame.columns) - set(TERMS)) for name, frame in _frames(tmp_path).items()}
+    assert not any(unknown.values()), {name: cols for name, cols in unknown.items() if cols}

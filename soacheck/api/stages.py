@@ -321,7 +321,7 @@ class StageRunResult(CheckedResult):
 
     def to_frame(self) -> pd.DataFrame:
         """One row per device and sample (long format): time [s], device (from 1, as Q1), source_voltage [V],
-        total_current [A], voltage [V] and current [A] of the device, power [W], case_temp, tj,
+        total_current [A], voltage [V] and current [A] of the device, device_power [W], case_temp, tj,
         heatsink_temp [°C], allowed_current [A], margin (fraction), limit."""
         run = self.run
         n, m = run.device_a.shape
@@ -333,7 +333,7 @@ class StageRunResult(CheckedResult):
                 "total_current": np.tile(run.total_a, n),
                 "voltage": run.device_v.ravel(),
                 "current": run.device_a.ravel(),
-                "power": run.device_w.ravel(),
+                "device_power": run.device_w.ravel(),
                 "case_temp": run.case_c.ravel(),
                 "tj": run.junction_c.ravel(),
                 "heatsink_temp": np.tile(run.sink_c, n),
