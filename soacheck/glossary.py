@@ -150,7 +150,12 @@ _TERMS = [
     _t("case_peak", "°C", "highest case temperature"),
     _t("heatsink_peak", "°C", "highest heatsink temperature"),
     _t("time_outside", "s", "total time spent outside"),
-    _t("time_over_tj_max", "s", "total time the junction spent above tj_max"),
+    _t(
+        "time_over_tj_max",
+        "s",
+        "total time the junction spent above tj_max; under a policy with a tj_ceiling, above that ceiling (the "
+        "limit it was judged against)",
+    ),
     _t("excursions", "", "runs of samples above the DC boundary, each judged as a pulse"),
     _t(
         "loop_gain_peak",

@@ -251,3 +251,29 @@ def test_a_traces_table_carries_the_margin_its_plot_draws(modelled_part):
 
     assert {"margin", "dc_margin"} <= set(TERMS)  # the columns are glossary words
     assert "against the DC boundary" in TERMS["dc_margin"].text
+
+
+def test_time_over_tj_max_counts_time_over_the_ceiling_the_trace_was_judged_against(modelled):
+    """Under a policy with a tj_ceiling the junction is judged against the ceiling, and so is its time over it.
+
+    Hand derivation: 100 W DC from t = 0 at a 25 °C case through the four Foster terms (ΣR = 1.0 K/W)
+    gives Tj(t) = 25 + 100 Σ R_i (1 − exp(−t/τ_i)), which settles at 125 °C: below tj_max = 150 °C
+    (no time over it), above a 100 °C ceiling from the t_x where the sum reaches 0.75 K/W, found here
+    with scipy's brentq. The samples over the ceiling are held until the last one, t_end − t_x, to
+    within one step.
+    """
+    from scipy.optimize import brentq
+
+    from soacheck.policy import Policy
+
+    r, tau = np.array([0.05, 0.15, 0.30, 0.50]), np.array([1e-4, 1e-3, 1e-2, 1e-1])  # conftest.THERMAL
+    dt = 1e-4
+    t = np.arange(0.0, 0.6, dt)
+    trace = pd.DataFrame({"time": t, "voltage": 10.0, "current": 10.0})
+    rated = soacheck.trace(modelled, trace, case_temp=25)
+    assert rated.passed and rated.trace.time_over_tj_max_s == 0.0
+    capped = soacheck.trace(modelled, trace, case_temp=25, policy=Policy("ceiling", tj_ceiling_c=100.0))
+    t_x = brentq(lambda s: 100 * np.sum(r * (1 - np.exp(-s / tau))) - 75.0, 1e-6, 0.6)
+    # under the ceiling the DC power line is (100 − 25 °C)/1.0 K/W = 75 W (digitized: 1e-4), so 100 W is outside too
+    assert not capped.passed and capped.limit == "power" and capped.margin == pytest.approx(1 - 100 / 75, rel=1e-4)
+    assert capped.trace.time_over_tj_max_s == pytest.approx(t[-1] - t_x, abs=dt)
