@@ -15,7 +15,7 @@ import numpy as np
 
 from soacheck.calibration import AxisCalibration, Seed
 from soacheck.errors import SoacheckError
-from soacheck.parts import KINDS
+from soacheck.partheader import KINDS
 from soacheck.quantities import TJ_MAX
 from soacheck.tomlfiles import toml_string
 from soacheck.units import parse_duration

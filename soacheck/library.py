@@ -11,15 +11,15 @@ import os
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from soacheck.bipolar import VBE_TEMPCO_V_PER_K, junctions
 from soacheck.errors import SoacheckError, nearest
-from soacheck.partfiles import PART_FILE, read_part
-from soacheck.parts import Part
-from soacheck.policy import policy_from_value
-from soacheck.stage import Cooling, Stage
-from soacheck.tomlfiles import read_toml
+from soacheck.partheader import PART_FILE, SOA_FILE, plain_curve_labels, read_header
+from soacheck.tomlfiles import read_toml, toml_text
+
+if TYPE_CHECKING:  # numpy behind them: imported where a part or stage is loaded, so listing parts starts fast
+    from soacheck.parts import Part
+    from soacheck.stage import Stage
 
 LIBRARY_ENV = "SOACHECK_LIBRARY"
 
@@ -75,23 +75,33 @@ def part_rows(folders: Sequence[Path]) -> list[dict[str, Any]]:
 
     Keys :data:`PART_COLUMNS`: ``v_max`` [V], ``i_max`` [A], ``p_max`` [W], ``tj_max`` [°C],
     ``rth_jc`` [K/W], ``curves`` (pulse labels, DC last), ``folder`` as text. What
-    ``soacheck parts`` prints, without pandas.
+    ``soacheck parts`` prints, without pandas, and without numpy for plainly written parts:
+    read from each ``part.toml``'s header (:func:`~soacheck.partheader.read_header`) and
+    the ``pulse`` column of ``soa.csv``. The curves' points and the other tables of
+    ``part.toml`` are checked when a part is loaded (``check``, ``show``, ``lint`` ...),
+    not here.
     """
     rows = []
     for entry in list_parts(folders):
-        p = read_part(entry.folder)
+        header = read_header(entry.folder)
+        labels = plain_curve_labels(entry.folder / SOA_FILE)
+        if labels is None:  # not plainly written, or wrong: read as any command reads it, with its messages
+            from soacheck.partfiles import read_part
+
+            labels = [c.label for c in read_part(entry.folder).curves]
+        r = header.ratings
         rows.append(
             {
-                "id": p.id,
-                "kind": p.kind,
-                "v_max": p.ratings.v_max_v,
-                "i_max": p.ratings.i_max_a,
-                "p_max": p.ratings.p_max_w,
-                "tj_max": p.ratings.tj_max_c,
-                "rth_jc": p.ratings.rth_jc_k_per_w,
-                "curves": [c.label for c in p.curves],
-                "description": p.description,
-                "folder": str(p.folder),
+                "id": header.id,
+                "kind": header.kind,
+                "v_max": r["v_max"],
+                "i_max": r["i_max"],
+                "p_max": r["p_max"],
+                "tj_max": r["tj_max"],
+                "rth_jc": r["rth_jc"],
+                "curves": labels,
+                "description": toml_text(f"{header.where}: description", header.data["description"]),
+                "folder": str(entry.folder),
             }
         )
     return rows
@@ -123,6 +133,8 @@ def find_part(ref: str, folders: Sequence[Path]) -> Part:
     SoacheckError
         When no part has that id, naming the nearest ids.
     """
+    from soacheck.partfiles import read_part
+
     return read_part(find_part_folder(ref, folders))
 
 
@@ -172,6 +184,9 @@ def read_stage(path: str | Path, folders) -> Stage:
 
 def stage_from_table(data: dict[str, Any], folders, *, where: str, base: Path) -> Stage:
     """Build a stage from its TOML table (a stage file, or a stage inline in a plan), checked by its schema."""
+    from soacheck.bipolar import VBE_TEMPCO_V_PER_K, junctions
+    from soacheck.policy import policy_from_value
+    from soacheck.stage import Cooling, Stage
     from soacheck.tomlschemas import StageTable, validate  # pydantic: only when a stage is read
 
     table = validate(StageTable, data, where)

@@ -11,22 +11,17 @@ import numpy as np
 
 from soacheck.bipolar import Gain
 from soacheck.csvtables import read_table, significant
-from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.errors import SoacheckError
 from soacheck.mosfet import TransferCurves
 from soacheck.outputs import replace_text, write_folder
-from soacheck.parts import BIPOLAR_KINDS, KINDS, Part, Ratings, SoaCurve
+from soacheck.partheader import BIPOLAR_KINDS, PART_FILE, SOA_FILE, read_header
+from soacheck.parts import Part, Ratings, SoaCurve
 from soacheck.quantities import CURRENT, DURATION, THERMAL_RESISTANCE, VOLTAGE, Quantity
 from soacheck.tomlfiles import check_keys, read_toml, toml_number, toml_text
 from soacheck.units import format_duration, parse_duration
 
-PART_FILE = "part.toml"
-SOA_FILE = "soa.csv"
 ZTH_FILE = "zth.csv"
 TRANSFER_FILE = "transfer.csv"
-_TOP_KEYS = ("id", "kind", "description", "source", "ratings", "derating", "thermal", "gain", "darlington")
-_REQUIRED_TOP = ("id", "kind", "description", "source", "ratings")
-_RATING_KEYS = ("v_max", "i_max", "i_pulse_max", "p_max", "tj_max", "rth_jc")
-_REQUIRED_RATINGS = ("v_max", "i_max", "p_max", "tj_max", "rth_jc")
 _DERATING_KEYS = ("second_breakdown",)
 _PAIRED_KEYS = {"thermal": ("foster_r", "foster_tau"), "gain": ("current", "hfe")}
 
@@ -49,27 +44,8 @@ def read_part(folder: str | Path) -> Part:
     part's ``id``, so that a part can be found by its id without reading every part.
     """
     folder = Path(folder)
-    toml_path = folder / PART_FILE
-    data = read_part_toml(toml_path)
-    where = str(toml_path)
-    check_keys(where, data, _TOP_KEYS, _REQUIRED_TOP)
-    part_id = toml_text(f"{where}: id", data["id"])
-    if part_id != folder.name:
-        raise SoacheckError(
-            f"{where}: id '{part_id}' differs from the folder name '{folder.name}'; rename one to match"
-        )
-    kind = toml_text(f"{where}: kind", data["kind"]).lower()
-    if kind not in KINDS:
-        raise SoacheckError(
-            f"{where}: kind '{kind}' is unknown{did_you_mean(kind, KINDS)}; use one of {', '.join(KINDS)}"
-        )
-    ratings_table = data["ratings"]
-    if not isinstance(ratings_table, dict):
-        raise SoacheckError(f"{where}: 'ratings' must be a table: write [ratings] on its own line")
-    check_keys(f"{where} [ratings]", ratings_table, _RATING_KEYS, _REQUIRED_RATINGS)
-    r = {k: toml_number(f"{where}: ratings.{k}", v) for k, v in ratings_table.items()}
-    if r["tj_max"] <= 25:
-        raise SoacheckError(f"{where}: ratings.tj_max is {r['tj_max']:g} °C; it must be above 25 °C")
+    header = read_header(folder)
+    data, where, kind, part_id, r = header.data, header.where, header.kind, header.id, header.ratings
     ratings = Ratings(
         v_max_v=r["v_max"],
         i_max_a=r["i_max"],
@@ -229,7 +205,7 @@ def read_soa_curves(path: Path, *, kind: str, ratings: Ratings) -> tuple[SoaCurv
     may_rise_at_start = kind not in ("npn", "pnp")
     file_lines = table.lines
     curves = []
-    for width in np.unique(pulse_s):
+    for width in sorted(set(pulse_s.tolist())):  # np.unique would import numpy.ma (6 ms at start-up)
         rows = np.flatnonzero(pulse_s == width)
         v, i = voltage[rows], current[rows]
         label = pulse[rows[0]]

@@ -16,14 +16,12 @@ from numpy.typing import ArrayLike
 
 from soacheck.bipolar import Gain
 from soacheck.mosfet import TransferCurves
+from soacheck.partheader import BIPOLAR_KINDS, KINDS, Kind  # noqa: F401  (KINDS: soacheck.parts.KINDS, as before)
 from soacheck.units import format_duration
 
 if TYPE_CHECKING:
     from soacheck.policy import Policy
 
-Kind = Literal["npn", "pnp", "nmos", "pmos", "igbt"]
-KINDS: tuple[Kind, ...] = ("npn", "pnp", "nmos", "pmos", "igbt")
-BIPOLAR_KINDS: tuple[Kind, ...] = ("npn", "pnp")
 
 REFERENCE_CASE_C = 25.0
 """Case temperature at which datasheet SOA curves are drawn. [°C]"""

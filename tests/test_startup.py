@@ -15,7 +15,9 @@ import numpy as np
 import pytest
 
 from soacheck import csvtables
-from soacheck.library import bundled_library
+from soacheck.errors import SoacheckError
+from soacheck.library import bundled_library, part_rows
+from soacheck.partfiles import read_part
 
 ROOT = Path(__file__).resolve().parent.parent
 HEAVY = {"pandas", "scipy", "matplotlib", "shapely", "pyarrow"}
@@ -47,7 +49,7 @@ def test_a_quick_command_loads_no_pandas_scipy_or_matplotlib(args):
     run = f"from soacheck.cli import app\ntry:\n    app({args!r})\nexcept SystemExit:\n    pass"
     loaded = loaded_after(run)
     assert not HEAVY & loaded, sorted(HEAVY & loaded)
-    if "--help" in args:
+    if "--help" in args or args == ["parts"]:  # listing reads part.toml headers and soa.csv pulse labels
         assert "numpy" not in loaded
 
 
@@ -67,6 +69,83 @@ def test_a_plain_small_table_reads_as_pandas_reads_it(path, monkeypatch):
         assert plain.columns[name].tobytes() == read.columns[name].tobytes(), name
     for name in text:
         assert plain.columns[name].tolist() == read.columns[name].tolist()
+
+
+def _row_of_loaded(folder: Path) -> dict:
+    """The listing's row built from the part as every command loads it (full read, numpy)."""
+    p = read_part(folder)
+    r = p.ratings
+    return {
+        "id": p.id,
+        "kind": p.kind,
+        "v_max": r.v_max_v,
+        "i_max": r.i_max_a,
+        "p_max": r.p_max_w,
+        "tj_max": r.tj_max_c,
+        "rth_jc": r.rth_jc_k_per_w,
+        "curves": [c.label for c in p.curves],
+        "description": p.description,
+        "folder": str(p.folder),
+    }
+
+
+def _copy_part(tmp_path: Path, name: str) -> Path:
+    """A bundled part copied under a new id into ``tmp_path``."""
+    source = bundled_library() / "demo-npn-to3-250w"
+    folder = tmp_path / name
+    folder.mkdir()
+    (folder / "soa.csv").write_text((source / "soa.csv").read_text())
+    (folder / "part.toml").write_text((source / "part.toml").read_text().replace("demo-npn-to3-250w", name))
+    return folder
+
+
+def test_listing_shows_what_loading_the_parts_shows():
+    """Every bundled part: the listing's row (headers and pulse labels only) equals the fully loaded part's."""
+    rows = part_rows([bundled_library()])
+    assert [r["id"] for r in rows] == sorted(p.parent.name for p in bundled_library().glob("*/part.toml"))
+    for row in rows:
+        assert row == _row_of_loaded(Path(row["folder"]))
+
+
+@pytest.mark.parametrize(
+    ("edit", "message"),
+    [
+        (lambda t: "".join(line for line in t.splitlines(True) if not line.startswith("dc,")), "no 'dc' curve"),
+        (lambda t: t.replace("100us,1,30", "100us,abc,30"), "voltage 'abc' is not a finite number"),
+        (lambda t: t.replace("100us,1,30", "100us,-1,30"), "it must be above zero"),
+        (lambda t: t.replace("pulse,voltage", "pulse,volts"), "unknown column 'volts'"),
+        (lambda t: t.replace("100us,1,30", "1 0us,1,30"), "line 2"),
+    ],
+    ids=["no-dc", "not-a-number", "negative", "unknown-column", "bad-pulse"],
+)
+def test_a_listed_part_with_bad_curve_cells_is_reported_as_loading_reports_it(tmp_path, edit, message):
+    """Curves the listing cannot read plainly are read as every command reads them: the same message."""
+    folder = _copy_part(tmp_path, "zz-broken")
+    (folder / "soa.csv").write_text(edit((folder / "soa.csv").read_text()))
+    with pytest.raises(SoacheckError) as loaded:
+        read_part(folder)
+    assert message in str(loaded.value)
+    with pytest.raises(SoacheckError) as listed:
+        part_rows([tmp_path])
+    assert str(listed.value) == str(loaded.value)
+
+
+def test_a_quoted_curve_file_lists_the_same_labels(tmp_path):
+    """A file not plainly written (quoted cells) is read as a command reads it, labels unchanged."""
+    folder = _copy_part(tmp_path, "zz-quoted")
+    text = (folder / "soa.csv").read_text()
+    (folder / "soa.csv").write_text(text.replace("100us,1,30", '"100us",1,30'))
+    assert part_rows([tmp_path]) == [_row_of_loaded(folder)]
+
+
+def test_listing_leaves_the_curve_shapes_and_tables_to_loading(tmp_path):
+    """The documented limit: a derating fraction above 1 is listed; loading (check, show, lint) reports it."""
+    folder = _copy_part(tmp_path, "zz-derating")
+    toml = (folder / "part.toml").read_text()
+    (folder / "part.toml").write_text(toml.replace("[175, 0.65]", "[175, 1.65]"))
+    assert [r["id"] for r in part_rows([tmp_path])] == ["zz-derating"]
+    with pytest.raises(SoacheckError, match="fractions must lie between 0 and 1"):
+        read_part(folder)
 
 
 @pytest.mark.parametrize(
