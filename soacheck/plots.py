@@ -16,6 +16,7 @@ from matplotlib.lines import Line2D
 
 from soacheck.boundary import boundary_polyline
 from soacheck.derating import BreakdownDerating
+from soacheck.display import device_name
 from soacheck.envelope import Envelope, EnvelopeCheck
 from soacheck.instability import instability_line
 from soacheck.mechanisms import mechanism_lines
@@ -27,7 +28,6 @@ from soacheck.plotstyle import (
     MECHANISM_STYLES,
     OUTSIDE,
     VOLTAGE_LABEL,
-    device_label,
     grid,
     legend_outside,
     mark_violation,
@@ -320,7 +320,7 @@ def plot_stage_run(
     plot_soa(part, case_temps_c=sorted(set(hottest)), breakdown=breakdown, ax=ax_soa)
     for d in devices:
         shown = run.device_a[d] > 1e-3 * max(float(run.device_a[d].max()), 1e-12)  # log axes: skip ~0 A
-        label = f"{device_label(d)} path, hottest case {hottest[d]:.3g} °C"
+        label = f"{device_name(d + 1)} path, hottest case {hottest[d]:.3g} °C"
         style = series_style(d + 1, markers=False)
         ax_soa.plot(run.device_v[d][shown], run.device_a[d][shown], lw=2.2 if d == worst else 1.4, zorder=6,
                     label=label, **style)  # fmt: skip
@@ -334,7 +334,7 @@ def plot_stage_run(
     _zoom(ax_soa, run.device_v.ravel(), run.device_a.ravel())
     _full_range_inset(ax_soa, part, [(run.device_v[d], run.device_a[d]) for d in devices])
     _relegend(ax_soa)
-    ax_soa.set_title(f"{title or part.id}: {device_label(worst)} (worst)", fontsize=10)
+    ax_soa.set_title(f"{title or part.id}: {device_name(worst + 1)} (worst)", fontsize=10)
     t, _ = time_axis(axes[3], run.time_s)
     axes[0].plot(t, run.source_v, color=series_style(0)["color"], label="source voltage [V]")
     axes[0].set_ylabel("V")
@@ -346,10 +346,10 @@ def plot_stage_run(
         _mark_max_setpoint(axes[0], current_ax, *max_setpoint, policy=part.policy)
     for d in devices:
         axes[1].plot(t, run.device_w[d], lw=1.4 if d == worst else 0.9, **series_style(d + 1, markers=False),
-                     label=device_label(d))  # fmt: skip
+                     label=device_name(d + 1))  # fmt: skip
     axes[1].set_ylabel("device power [W]")
-    axes[2].plot(t, run.junction_c[worst], color=OKABE_JUNCTION, label=f"junction {device_label(worst)}")
-    axes[2].plot(t, run.case_c[worst], color=OKABE_CASE, linestyle="--", label=f"case {device_label(worst)}")
+    axes[2].plot(t, run.junction_c[worst], color=OKABE_JUNCTION, label=f"junction {device_name(worst + 1)}")
+    axes[2].plot(t, run.case_c[worst], color=OKABE_CASE, linestyle="--", label=f"case {device_name(worst + 1)}")
     axes[2].plot(t, run.sink_c, color="#000000", linestyle="-.", label="heatsink")
     axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
     if part.tj_limit == "tj_ceiling":
@@ -357,7 +357,7 @@ def plot_stage_run(
     axes[2].set_ylabel("°C")
     for d in devices:
         axes[3].plot(t, 100 * np.clip(run.margin[d], -1, 1), lw=1.4 if d == worst else 0.9,
-                     **series_style(d + 1, markers=False), label=device_label(d))  # fmt: skip
+                     **series_style(d + 1, markers=False), label=device_name(d + 1))  # fmt: skip
     axes[3].axhline(0, color="k", lw=0.6)
     axes[3].set_ylabel("margin [%]")
     if first is not None:
@@ -408,7 +408,7 @@ def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = 
         plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, breakdown=breakdown, ax=ax)
         v, i = check.state.device_v[d], check.state.device_a[d]
         ok = check.margin[d] >= 0
-        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label=f"envelope edge, {device_label(d)}")
+        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label=f"envelope edge, {device_name(d + 1)}")
         if (~ok).any():
             ax.scatter(v[~ok], i[~ok], color=OUTSIDE, marker="x", s=14, zorder=6, label="outside")
             k = int(np.argmax(~ok))
@@ -416,7 +416,7 @@ def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = 
         _zoom(ax, v, i)
         _full_range_inset(ax, check.stage.part, [(v, i)])
         _relegend(ax)
-        ax.set_title(f"{check.stage.part.id}, {device_label(d)}: {env.label}", fontsize=9)
+        ax.set_title(f"{check.stage.part.id}, {device_name(d + 1)}: {env.label}", fontsize=9)
     return fig
 
 

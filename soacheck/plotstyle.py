@@ -71,11 +71,6 @@ def series_style(n: int, *, markers: bool = True) -> dict[str, Any]:
     return style
 
 
-def device_label(index: int) -> str:
-    """A device as a person names it: Q1 for the first (index 0)."""
-    return f"Q{index + 1}"
-
-
 # --------------------------------------------------------------------------- axes
 
 VOLTAGE_LABEL = r"voltage $V_{CE}$ / $V_{DS}$ [V]"
