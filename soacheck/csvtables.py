@@ -137,7 +137,8 @@ def read_table(
         raw = pd.read_csv(
             path,
             sep=sep,
-            dtype={name: str for name in names if name not in numeric},
+            # text as categories: each distinct cell is one Python string, each row a code
+            dtype={name: "category" for name in names if name not in numeric},
             keep_default_na=False,
             skipinitialspace=True,
             decimal="," if sep == ";" else ".",
@@ -167,14 +168,11 @@ def read_table(
                 frame[name] = values
                 continue
             raw[name] = _column_text(path, sep, name)  # name the bad cell as written
+        if name in text:
+            frame[name] = _text_cells(table, name, raw[name])
+            continue
         codes, distinct = pd.factorize(raw[name].astype(str))  # each distinct cell stripped once
         cells = pd.Series(distinct.str.strip().to_numpy(object)[codes], index=raw.index)
-        if name in text:
-            empty = np.flatnonzero((cells == "").to_numpy())
-            if empty.size:
-                raise SoacheckError(f"{table.where(int(empty[0]))}: column '{name}' is empty; fill it in")
-            frame[name] = cells.to_numpy(object)
-            continue
         values = pd.to_numeric(cells.str.replace(",", ".", regex=False), errors="coerce").to_numpy(float)
         bad = np.flatnonzero(~np.isfinite(values))
         if bad.size:
@@ -240,6 +238,20 @@ def _plain_columns(
             return None
         columns[name] = values
     return {name: columns[name] for name in known if name in columns}
+
+
+def _text_cells(table: Table, name: str, cells: pd.Series) -> np.ndarray:
+    """A text column read as categories, as Python strings ``(rows,)``, each distinct cell stripped once.
+
+    A cell left empty, or missing from a short row (code -1), is an error naming its line.
+    """
+    codes = cells.cat.codes.to_numpy()
+    texts = np.array([str(text).strip() for text in cells.cat.categories], dtype=object)
+    blank = np.append(texts == "", True)  # the last entry answers code -1
+    if blank[codes].any():
+        row = int(np.argmax(blank[codes]))
+        raise SoacheckError(f"{table.where(row)}: column '{name}' is empty; fill it in")
+    return texts[codes]
 
 
 def _column_text(path: Path, sep: str, name: str):

@@ -44,7 +44,7 @@ def read_points(path: str | Path) -> Table:
     Voltage and current must be above zero (they go on log axes); ``case_temp`` is in °C;
     ``pulse`` is ``dc`` or a width such as ``1ms``; ``duty`` is the duty cycle of a pulse
     train in (0, 1], or 0 for a single pulse; ``idle_current`` is the current standing
-    between pulses at the same voltage, in A, 0 or more. The frame gains a column
+    between pulses at the same voltage, in A, 0 or more. The columns (and the frame) gain
     ``pulse_s`` (seconds, ``inf`` for DC) when ``pulse`` is present.
     """
     table = read_table(
@@ -54,27 +54,28 @@ def read_points(path: str | Path) -> Table:
         optional=("case_temp", "pulse", "duty", "idle_current"),
         positive=("voltage", "current"),
     )
-    frame = table.frame
-    VOLTAGE.check_array(frame["voltage"].to_numpy(), lambda k: f"{table.where(k)}: voltage")
-    CURRENT.check_array(frame["current"].to_numpy(), lambda k: f"{table.where(k)}: current")
-    if "case_temp" in frame:
-        TEMPERATURE.check_array(frame["case_temp"].to_numpy(), lambda k: f"{table.where(k)}: case_temp")
-    if "pulse" in frame:
-        frame["pulse_s"] = parse_each_once(
-            frame["pulse"],
+    columns = table.columns  # pulse_s is added before the frame is made from them
+    VOLTAGE.check_array(columns["voltage"], lambda k: f"{table.where(k)}: voltage")
+    CURRENT.check_array(columns["current"], lambda k: f"{table.where(k)}: current")
+    if "case_temp" in columns:
+        TEMPERATURE.check_array(columns["case_temp"], lambda k: f"{table.where(k)}: case_temp")
+    if "pulse" in columns:
+        columns["pulse_s"] = parse_each_once(
+            columns["pulse"],
             lambda text, where: parse_duration(str(text), where=where),
             lambda k: f"{table.where(k)}: pulse",
         )
-    if "duty" in frame:
-        bad = np.flatnonzero((frame["duty"] < 0) | (frame["duty"] > 1))
+    if "duty" in columns:
+        duty = columns["duty"]
+        bad = np.flatnonzero((duty < 0) | (duty > 1))
         if bad.size:
             row = int(bad[0])
             raise SoacheckError(
-                f"{table.where(row)}: duty {frame['duty'].iloc[row]:g} is outside 0 to 1; write the duty cycle "
+                f"{table.where(row)}: duty {duty[row]:g} is outside 0 to 1; write the duty cycle "
                 "tp/T as a fraction (0.1 for 10 %), or 0 for a single pulse"
             )
-    if "idle_current" in frame:
-        IDLE_CURRENT.check_array(frame["idle_current"].to_numpy(), lambda k: f"{table.where(k)}: idle_current")
+    if "idle_current" in columns:
+        IDLE_CURRENT.check_array(columns["idle_current"], lambda k: f"{table.where(k)}: idle_current")
     return table
 
 

@@ -243,12 +243,12 @@ def check(
     if points is not None:
         if voltage is not None or current is not None:
             raise SoacheckError("give either --points FILE or --voltage and --current, not both")
-        frame = _points_frame(points)
-        v, i = frame["voltage"].to_numpy(), frame["current"].to_numpy()
-        tc = frame["case_temp"].to_numpy() if "case_temp" in frame else np.asarray(case_temp, dtype=float)
-        tp = frame["pulse_s"].to_numpy() if "pulse_s" in frame else pulse_s
-        d = frame["duty"].to_numpy() if "duty" in frame else duty_value
-        idle = frame["idle_current"].to_numpy() if "idle_current" in frame else np.asarray(idle_current, dtype=float)
+        given = _points_columns(points)
+        v, i = given["voltage"], given["current"]
+        tc = given["case_temp"] if "case_temp" in given else np.asarray(case_temp, dtype=float)
+        tp = given["pulse_s"] if "pulse_s" in given else pulse_s
+        d = given["duty"] if "duty" in given else duty_value
+        idle = given["idle_current"] if "idle_current" in given else np.asarray(idle_current, dtype=float)
     else:
         if voltage is None or current is None:
             raise SoacheckError("give --voltage and --current (in V and A), or --points FILE")
@@ -256,26 +256,28 @@ def check(
         _check_all(CURRENT, current, "--current")
         v, i, tc, tp, d = voltage, current, np.asarray(case_temp, dtype=float), pulse_s, duty_value
         idle = np.asarray(idle_current, dtype=float)
-    if points is not None and "idle_current" in frame:
+    if points is not None and "idle_current" in given:
         IDLE_CURRENT.check_array(np.ravel(idle), lambda k: f"points row {k + 1}: idle_current")
     loaded = _under(load_part(part, library=library), policy)
     result = check_points(v, i, loaded, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=chosen)
     return CheckResult(loaded, result, chosen)
 
 
-def _points_frame(points: PathLike | pd.DataFrame) -> pd.DataFrame:
+def _points_columns(points: PathLike | pd.DataFrame) -> dict[str, np.ndarray]:
+    """The columns of a points file or frame as arrays ``(n,)``, ``pulse_s`` [s] parsed from ``pulse``."""
     if isinstance(points, str | Path):
-        return read_points(points).frame
-    frame = points.copy()
+        return read_points(points).columns
     for name in ("voltage", "current"):
-        if name not in frame:
+        if name not in points:
             raise SoacheckError(f"points: missing column '{name}'; points have the columns voltage,current")
-        bad = np.flatnonzero(~(np.isfinite(frame[name].to_numpy(dtype=float)) & (frame[name].to_numpy() > 0)))
+        bad = np.flatnonzero(~(np.isfinite(points[name].to_numpy(dtype=float)) & (points[name].to_numpy() > 0)))
         if bad.size:
             raise SoacheckError(f"points row {int(bad[0]) + 1}: {name} must be a number above zero")
-    if "pulse" in frame:
-        frame["pulse_s"] = parse_each_once(frame["pulse"], _pulse_s, lambda k: f"points row {k + 1}: pulse")
-    return frame
+    names = ("voltage", "current", "case_temp", "duty", "idle_current")
+    columns = {name: points[name].to_numpy() for name in names if name in points}
+    if "pulse" in points:
+        columns["pulse_s"] = parse_each_once(points["pulse"], _pulse_s, lambda k: f"points row {k + 1}: pulse")
+    return columns
 
 
 @dataclass(frozen=True, eq=False, repr=False)
