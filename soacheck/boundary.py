@@ -138,8 +138,13 @@ def _derated_lines(
     if tc_c.size > 1 and tc_c.min() == tc_c.max():  # one case temperature for every point: derate once
         tc_c = tc_c[:1]
     factors = mechanism_factors(tc_c, part, breakdown)
+    stacked = np.empty((len(lines), log_v.size))  # filled in place: no list of lines to stack
     with np.errstate(divide="ignore"):
-        return np.stack([line(log_v) + (np.log(factors[line.mechanism]) if line.derated else 0.0) for line in lines])
+        for row, line in zip(stacked, lines, strict=True):
+            row[...] = line(log_v)
+            if line.derated:
+                row += np.log(factors[line.mechanism])
+    return stacked
 
 
 def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -148,19 +153,42 @@ def _lower_envelope(stacked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.take_along_axis(stacked, which[None], axis=0)[0], which
 
 
+FEW_CONDITIONS = 16
+"""A key column with at most this many distinct values is coded by comparisons, not by a sort."""
+
+
 def distinct_rows(columns: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
     """The distinct rows of the key ``columns`` (each ``(n,)``; sorted) and the index of each row among them,
     shapes ``(k, c)`` and ``(n,)``.
 
     What ``np.unique(np.column_stack(columns), axis=0, return_inverse=True)`` gives for rows
     without NaN, with the common case of a single condition for every point answered from each
-    column's least and greatest value, without stacking them, and otherwise one sort of each
-    column and of the combined codes (sorting the rows as records is ten times slower).
+    column's least and greatest value, without stacking them. Columns of a few distinct values
+    each (pulse widths, duties, flags) are coded by one comparison per value and the rows by
+    their mixed-radix number (first column most significant, so in lexicographic order);
+    otherwise one sort of each column and of the combined codes (sorting the rows as records
+    is ten times slower).
     """
     columns = [np.asarray(c) for c in columns]
     n = columns[0].size
     if n and all(c.min() == c.max() for c in columns):
         return np.array([[float(c[0]) for c in columns]]), np.zeros(n, dtype=np.intp)
+    coded = [_few_values(c) for c in columns]
+    sizes = [0 if found is None else found[0].size for found in coded]
+    if n and all(sizes) and math.prod(sizes) <= max(n, 1 << 16):
+        number = np.zeros(n, dtype=np.intp)
+        for values, code in coded:
+            number *= values.size
+            number += code
+        present = np.flatnonzero(np.bincount(number, minlength=math.prod(sizes)))
+        index = np.zeros(math.prod(sizes), dtype=np.intp)
+        index[present] = np.arange(present.size)
+        rows = np.empty((present.size, len(columns)))
+        rest = present
+        for j in reversed(range(len(columns))):
+            rest, code = np.divmod(rest, sizes[j])
+            rows[:, j] = coded[j][0][code]
+        return rows, index[number]
     keys = np.column_stack(columns).astype(float)
     group = np.zeros(keys.shape[0], dtype=np.int64)
     for column in keys.T:  # codes in sorted order, so the combined codes sort the rows lexicographically
@@ -169,6 +197,27 @@ def distinct_rows(columns: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray
         group = np.ravel(group)
     _, first = np.unique(group, return_index=True)
     return keys[first], group.astype(np.intp)
+
+
+def _few_values(column: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """``np.unique(column, return_inverse=True)`` (values as float) for a column of at most
+    :data:`FEW_CONDITIONS` distinct values and no NaN, by one comparison per value; else None."""
+    if np.unique(column[:256]).size > FEW_CONDITIONS:
+        return None
+    codes = np.full(column.shape, -1, dtype=np.intp)
+    found: list[float] = []
+    open_row = 0
+    while open_row >= 0:
+        value = column[open_row]
+        if value != value or len(found) == FEW_CONDITIONS:  # NaN, or too many: sorted the usual way
+            return None
+        codes[column == value] = len(found)
+        found.append(float(value))
+        open_row = int(np.argmax(codes < 0)) if (codes < 0).any() else -1
+    order = np.argsort(found)
+    rank = np.empty(len(found), dtype=np.intp)
+    rank[order] = np.arange(len(found))
+    return np.array(found)[order], rank[codes]
 
 
 def allowed_current(
@@ -256,17 +305,22 @@ def allowed_current(
     model_applies = use_model and thermal_model(part) is not None
     continuous = np.isinf(tp) | (d >= 1)
     by_model = model_applies & ~continuous
-    by_curve = np.where(
-        continuous | (d > 0) | (idle > 0), DC, part.pulse_widths_s[part.curve_index(np.where(valid, tp, DC))]
-    )
+    asked = np.where(valid, tp, DC)
+    if asked.size and asked.min() == asked.max():  # one width for every point: one curve
+        curve_s = np.full(asked.shape, part.pulse_widths_s[part.curve_index(asked[0])])
+    else:
+        curve_s = part.pulse_widths_s[part.curve_index(asked)]
+    by_curve = np.where(continuous | (d > 0) | (idle > 0), DC, curve_s)
     keys = [np.where(by_model, tp, by_curve), np.where(by_model, d, 0.0)]
     with np.errstate(divide="ignore", invalid="ignore"):
         log_v = np.log(np.where(valid, v, 1.0))
     if valid.any():
-        conditions, group = distinct_rows([key[valid] for key in keys])
+        all_valid = bool(valid.all())
+        conditions, group = distinct_rows(keys if all_valid else [key[valid] for key in keys])
+        every = all_valid and len(conditions) == 1  # every point under one condition: no index arrays
         rows = np.flatnonzero(valid)
         for k, (width, train) in enumerate(conditions):
-            sel = rows if len(conditions) == 1 else rows[group == k]
+            sel = slice(None) if every else rows if len(conditions) == 1 else rows[group == k]
             bound = pulse_lines(
                 part, pulse_s=width, duty=train, use_model=use_model, beyond_case_k_per_w=beyond_case_k_per_w
             )

@@ -192,7 +192,8 @@ def check_points(
     result = allowed_current(v, part, tc_c=tc, pulse_s=tp, duty=d, idle_current_a=idle, breakdown=breakdown)
     evaluated = np.isfinite(result.current_a) & np.isfinite(i) & (i >= 0)
     inside = evaluated & (i <= result.current_a)
-    limit = np.where(np.isfinite(i) & (i >= 0), result.limit, "invalid")
+    measured = np.isfinite(i) & (i >= 0)
+    limit = result.limit if measured.all() else np.where(measured, result.limit, "invalid")
     to_rating = None
     if part.policy is not None:
         rated = allowed_current(

@@ -90,6 +90,19 @@ def test_distinct_rows_agrees_with_numpy_unique():
         np.testing.assert_array_equal(group, np.ravel(inverse))
 
 
+def test_distinct_rows_of_flags_widths_and_many_values_agree_with_numpy_unique():
+    """Few-valued columns (coded by comparisons), flags, and a column of many values (sorted) alike."""
+    rng = np.random.default_rng(5)
+    widths = rng.choice([1e-2, 1e-3, np.inf, 0.5], 5000)
+    flags = rng.random(5000) < 0.3
+    many = np.round(rng.random(5000), 2)  # about a hundred distinct values
+    for columns in ([widths, flags], [flags, widths, widths * 2], [widths, many], [many, flags]):
+        distinct, group = distinct_rows(columns)
+        want, inverse = np.unique(np.column_stack(columns).astype(float), axis=0, return_inverse=True)
+        np.testing.assert_array_equal(distinct, want)
+        np.testing.assert_array_equal(group, np.ravel(inverse))
+
+
 def test_a_bad_pulse_is_named_at_its_first_row(tmp_path):
     part = write_part(tmp_path / "ref-bjt")
     points = tmp_path / "points.csv"
