@@ -12,7 +12,7 @@ import csv
 import functools
 import re
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -29,13 +29,16 @@ class Table:
     """A CSV table with its columns checked and its numbers parsed.
 
     ``columns`` holds one canonical column per requested name, shape ``(rows,)``
-    (numbers as float64, text as Python str); ``frame`` is the same as a
+    (numbers as float64, text as Python str); ``coded`` the text columns as codes into
+    their distinct texts where the reader had them; ``frame`` is the same as a
     :class:`pandas.DataFrame`, made when first asked for; ``line(i)`` gives the file
     line of row ``i`` for messages.
     """
 
     path: Path
     columns: dict[str, np.ndarray]
+    coded: dict[str, tuple[np.ndarray, np.ndarray]] = field(default_factory=dict)
+    """Text columns read by pandas, each as the index of every row ``(rows,)`` into its distinct texts."""
 
     @functools.cached_property
     def frame(self) -> pd.DataFrame:
@@ -169,7 +172,9 @@ def read_table(
                 continue
             raw[name] = _column_text(path, sep, name)  # name the bad cell as written
         if name in text:
-            frame[name] = _text_cells(table, name, raw[name])
+            table.coded[name] = _text_codes(table, name, raw[name])
+            codes, texts = table.coded[name]
+            frame[name] = texts[codes]
             continue
         codes, distinct = pd.factorize(raw[name].astype(str))  # each distinct cell stripped once
         cells = pd.Series(distinct.str.strip().to_numpy(object)[codes], index=raw.index)
@@ -240,18 +245,21 @@ def _plain_columns(
     return {name: columns[name] for name in known if name in columns}
 
 
-def _text_cells(table: Table, name: str, cells: pd.Series) -> np.ndarray:
-    """A text column read as categories, as Python strings ``(rows,)``, each distinct cell stripped once.
+def _text_codes(table: Table, name: str, cells: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """A text column read as categories: the index of each row ``(rows,)`` into the distinct
+    texts, stripped (Python strings); each distinct cell is stripped once.
 
     A cell left empty, or missing from a short row (code -1), is an error naming its line.
     """
     codes = cells.cat.codes.to_numpy()
-    texts = np.array([str(text).strip() for text in cells.cat.categories], dtype=object)
-    blank = np.append(texts == "", True)  # the last entry answers code -1
+    stripped = [str(text).strip() for text in cells.cat.categories]
+    blank = np.array([text == "" for text in stripped] + [True])  # the last entry answers code -1
     if blank[codes].any():
         row = int(np.argmax(blank[codes]))
         raise SoacheckError(f"{table.where(row)}: column '{name}' is empty; fill it in")
-    return texts[codes]
+    texts = list(dict.fromkeys(stripped))  # cells apart only by trailing spaces are one text
+    index = np.array([texts.index(text) for text in stripped], dtype=np.intp)
+    return index[codes], np.array(texts, dtype=object)
 
 
 def _column_text(path: Path, sep: str, name: str):

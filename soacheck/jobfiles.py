@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -18,23 +18,38 @@ from soacheck.tomlfiles import read_toml
 from soacheck.units import parse_duration
 
 
-def parse_each_once(values: Any, parse: Callable[[Any, str], float], where_row: Callable[[int], str]) -> np.ndarray:
+def parse_each_once(
+    values: Any,
+    parse: Callable[[Any, str], float],
+    where_row: Callable[[int], str],
+    *,
+    coded: tuple[np.ndarray, Sequence[Any]] | None = None,
+) -> np.ndarray:
     """``parse(value, where)`` of every value, each distinct value parsed once, shape ``(n,)``.
 
-    Values are told apart by hashing (no sort of a million texts) and parsed in the order
-    they first appear, so a bad value is reported at the first row that holds it:
-    ``where_row(k)`` names row ``k`` (asked only then: counting a file's lines reads it again).
+    Values are told apart by hashing (no sort of a million texts), or ``coded`` gives them
+    already told apart: the index of each value ``(n,)`` into the distinct values. A bad
+    value is reported at the first row that holds one: ``where_row(k)`` names row ``k``
+    (asked only then: counting a file's lines reads it again).
     """
-    import pandas as pd
+    if coded is None:
+        import pandas as pd
 
-    which, written = pd.factorize(values, use_na_sentinel=False)
+        which, written = pd.factorize(values, use_na_sentinel=False)
+    else:
+        which, written = coded
     parsed = np.empty(len(written))
+    failed: list[int] = []
     for u, value in enumerate(written):
         try:
             parsed[u] = parse(value, "")
-        except SoacheckError:  # again, for the message naming the first row that holds it
-            parse(value, where_row(int(np.argmax(which == u))))
-            raise
+        except SoacheckError as err:
+            failed.append(u)
+            problem = err
+    if failed:  # again, for the message naming the first row that holds a bad value
+        row = min(int(np.argmax(which == u)) for u in failed)
+        parse(written[which[row]], where_row(row))
+        raise problem
     return parsed[which]
 
 
@@ -64,6 +79,7 @@ def read_points(path: str | Path) -> Table:
             columns["pulse"],
             lambda text, where: parse_duration(str(text), where=where),
             lambda k: f"{table.where(k)}: pulse",
+            coded=table.coded.get("pulse"),
         )
     if "duty" in columns:
         duty = columns["duty"]

@@ -112,6 +112,16 @@ def test_a_bad_pulse_is_named_at_its_first_row(tmp_path):
     assert "line 4" in result.stderr, result.stderr
 
 
+def test_of_two_bad_pulses_the_first_in_the_file_is_named(tmp_path):
+    """'zz' (line 4) comes before 'aa' (line 5) in the file, though not in sorted order."""
+    part = write_part(tmp_path / "ref-bjt")
+    points = tmp_path / "points.csv"
+    points.write_text("voltage,current,pulse\n20,1,dc\n20,1, 1ms \n20,1,zz\n20,1,aa\n20,1,1ms\n")
+    result = runner.invoke(app, ["check", str(part), "--points", str(points)])
+    assert result.exit_code == 2, result.output
+    assert "line 4" in result.stderr and "'zz'" in result.stderr, result.stderr
+
+
 def test_a_bad_number_is_named_with_its_text(tmp_path):
     part = write_part(tmp_path / "ref-bjt")
     points = tmp_path / "points.csv"
