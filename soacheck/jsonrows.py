@@ -58,24 +58,48 @@ def json_rows(columns: Mapping[str, np.ndarray], *, rows_per_chunk: int = ROWS_P
     total = len(arrays[0]) if arrays else 0
     keys = [orjson.dumps(str(name)) + b":" for name in names]
     same = [next(j for j, b in enumerate(arrays) if b is a) for a in arrays]  # a column given twice: encoded once
+    constant = {k: written for k, a in enumerate(arrays) if (written := _constant(a)) is not None}
     for start in range(0, total, rows_per_chunk):
         chunk = [a[start : start + rows_per_chunk] for a in arrays]
-        text = _chunk_text(keys, chunk, same)
+        text = _chunk_text(keys, chunk, same, constant)
         yield text[2:] if start == 0 else text
 
 
-def _chunk_text(keys: list[bytes], chunk: list[np.ndarray], same: list[int]) -> bytes:
+def _constant(values: np.ndarray) -> bytes | None:
+    """The text of a column whose every value is written alike (the same bits, or all non-finite: ``null``),
+    found once for the whole column; None for any other column (and for objects)."""
+    import orjson
+
+    if values.size == 0 or values.dtype.kind not in "biufU":
+        return None
+    if values.dtype.kind == "f":
+        if values.dtype != np.float64:
+            return None
+        if not np.isfinite(values[0]):
+            return b"null" if not np.isfinite(values).any() else None
+        bits = values.view(np.uint64)  # alike to the bit: 0.0 and -0.0 are written apart
+        return orjson.dumps(values[0].item()) if bits.min() == bits.max() else None
+    if values.dtype.kind == "U":
+        return orjson.dumps(values[0].item()) if bool((values == values[0]).all()) else None
+    return orjson.dumps(values[0].item()) if values.min() == values.max() else None
+
+
+def _chunk_text(
+    keys: list[bytes], chunk: list[np.ndarray], same: list[int], constant: Mapping[int, bytes] | None = None
+) -> bytes:
     """The rows of one chunk: a byte matrix of fixed pieces and NUL-padded values, NULs dropped.
 
-    ``same[k]`` is the first column holding the very array of column ``k``.
+    ``same[k]`` is the first column holding the very array of column ``k``; ``constant[k]``
+    the text of column ``k`` where it is the same in every row of the table.
     """
+    constant = constant or {}
     rows = len(chunk[0])
     pieces: list[bytes | np.ndarray] = []  # fixed text shared by every row, or one padded value a row
     encoded: list[bytes | np.ndarray] = []
     fixed = ROW_START
     for k, (key, values) in enumerate(zip(keys, chunk, strict=True)):
         fixed += (b"," if k else b"") + key
-        cells = encoded[same[k]] if same[k] < k else _cells(values)
+        cells = constant[k] if k in constant else encoded[same[k]] if same[k] < k else _cells(values)
         encoded.append(cells)
         if isinstance(cells, bytes):
             fixed += cells

@@ -172,6 +172,11 @@ def test_json_rows_equal_a_dict_per_row(rows_per_chunk):
         "names": np.array([f"row {k}" for k in range(n)]),  # more distinct texts than FEW_DISTINCT
         "maybe": np.array([None if k % 3 else k / 7 for k in range(n)], dtype=object),
         "single": np.float32(np.linspace(0.1, 2.0, n)),
+        "all_nan": np.full(n, math.nan),
+        "nan_and_inf": np.where(np.arange(n) % 2, math.nan, math.inf),
+        "one_text": np.full(n, "dc"),
+        "all_true": np.ones(n, dtype=bool),
+        "one_count": np.full(n, 7),
     }
     columns["again"] = columns["many"]  # one array under two names, as margin and margin_to_rating
     fast = b"".join(json_rows(columns, rows_per_chunk=rows_per_chunk))
