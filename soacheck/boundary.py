@@ -173,7 +173,7 @@ def distinct_rows(columns: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray
     n = columns[0].size
     if n and all(c.min() == c.max() for c in columns):
         return np.array([[float(c[0]) for c in columns]]), np.zeros(n, dtype=np.intp)
-    coded = [_few_values(c) for c in columns]
+    coded = [few_values(c) for c in columns]
     sizes = [0 if found is None else found[0].size for found in coded]
     if n and all(sizes) and math.prod(sizes) <= max(n, 1 << 16):
         number = np.zeros(n, dtype=np.intp)
@@ -199,10 +199,11 @@ def distinct_rows(columns: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray
     return keys[first], group.astype(np.intp)
 
 
-def _few_values(column: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
-    """``np.unique(column, return_inverse=True)`` (values as float) for a column of at most
-    :data:`FEW_CONDITIONS` distinct values and no NaN, by one comparison per value; else None."""
-    if np.unique(column[:256]).size > FEW_CONDITIONS:
+def few_values(column: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """``np.unique(column, return_inverse=True)`` (values as float) for a column ``(n,)`` of at most
+    :data:`FEW_CONDITIONS` distinct values and no NaN, by one comparison per value; else None
+    (and for an empty column)."""
+    if column.size == 0 or np.unique(column[:256]).size > FEW_CONDITIONS:
         return None
     codes = np.full(column.shape, -1, dtype=np.intp)
     found: list[float] = []

@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
-from soacheck.boundary import Allowed, allowed_current, distinct_rows, model_consistency
+from soacheck.boundary import Allowed, allowed_current, distinct_rows, few_values, model_consistency
 from soacheck.derating import BreakdownDerating, breakdown_note, policy_note
 from soacheck.instability import instability_notes
 from soacheck.mechanisms import mechanism_lines
@@ -112,6 +112,8 @@ def _durations(seconds: np.ndarray) -> np.ndarray:
     """Each duration as written (``dc``, ``1ms``), "" for NaN; each distinct value formatted once. [s]"""
     if seconds.size and np.all(seconds == seconds[0]):  # the common case: one condition for every point
         distinct, which = seconds[:1], np.zeros(seconds.size, dtype=np.intp)
+    elif (few := few_values(seconds) if seconds.size else None) is not None:  # a few widths: no sort
+        distinct, which = few
     else:
         distinct, which = np.unique(seconds, return_inverse=True)
     text = np.array([format_duration(t) if not math.isnan(t) else "" for t in distinct.tolist()], dtype=str)
