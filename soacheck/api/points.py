@@ -240,6 +240,8 @@ def check(
     duty_value = _duty(duty, pulse_s)
     _check_all(TEMPERATURE, case_temp, "--case-temp")
     _check_all(IDLE_CURRENT, idle_current, "--idle-current")
+    v: Any  # an array from the points, or what the caller gave
+    i: Any
     if points is not None:
         if voltage is not None or current is not None:
             raise SoacheckError("give either --points FILE or --voltage and --current, not both")
