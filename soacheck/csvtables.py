@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.plaintext import plain_lines
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -216,13 +217,9 @@ def _plain_columns(
     """
     if sep != "," or path.stat().st_size > PLAIN_FILE_BYTES:
         return None
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError):
+    lines = plain_lines(path)
+    if lines is None:
         return None
-    if '"' in text or " " in text or "\t" in text or "\r" in text.replace("\r\n", "\n"):
-        return None
-    lines = [line for line in text.replace("\r\n", "\n").split("\n") if line]
     if len(lines) < 2 or [name.lower() for name in lines[0].split(",")] != names:
         return None
     rows = [line.split(",") for line in lines[1:]]

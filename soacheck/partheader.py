@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from soacheck.errors import SoacheckError, did_you_mean
+from soacheck.plaintext import plain_lines
 from soacheck.tomlfiles import check_keys, read_toml, toml_number, toml_text
 from soacheck.units import format_duration, parse_duration
 
@@ -88,13 +89,9 @@ def plain_curve_labels(path: Path) -> list[str] | None:
     does not parse, a curve has fewer than two points or no curve is DC: those files are
     left to ``read_part`` and its messages. The order and shape of each curve are not checked.
     """
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError):
+    lines = plain_lines(path)
+    if lines is None:
         return None
-    if '"' in text or " " in text or "\t" in text or "\r" in text.replace("\r\n", "\n"):
-        return None
-    lines = [line for line in text.replace("\r\n", "\n").split("\n") if line]
     names = [name.lower() for name in lines[0].split(",")] if lines else []
     if sorted(names) != ["current", "pulse", "voltage"]:
         return None
