@@ -19,6 +19,7 @@ from soacheck.filemarks import written_by_soacheck
 from .conftest import BUNDLED_IDS, write_part
 
 ROOT_CURVES = Path(__file__).resolve().parents[1] / "curves"
+ROOT_PACKAGE = Path(__file__).resolve().parents[1] / "soacheck"
 
 runner = CliRunner(env={"COLUMNS": "200", "SOACHECK_LIBRARY": ""})
 
@@ -150,3 +151,20 @@ def test_installed_package_carries_the_bundled_curves():
         )
         for name in names:
             assert installed[0].locate_file(f"soacheck/curves/{part_id}/{name}").is_file()
+    # and every module of the source tree, subpackages included: a package missing from pyproject's
+    # list installs without its modules, and only a non-editable install shows it
+    shipped = {str(f).replace("\\", "/") for f in installed[0].files or ()}
+    source = {f"soacheck/{p.relative_to(ROOT_PACKAGE).as_posix()}" for p in ROOT_PACKAGE.rglob("*.py")}
+    assert source <= shipped, sorted(source - shipped)
+
+
+def test_every_package_folder_is_listed_for_installation():
+    """pyproject's [tool.setuptools] packages names every folder of soacheck/ that holds an __init__.py."""
+    import tomllib
+
+    listed = set(tomllib.loads((ROOT_PACKAGE.parent / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    folders = {
+        ".".join(("soacheck", *init.parent.relative_to(ROOT_PACKAGE).parts))
+        for init in ROOT_PACKAGE.rglob("__init__.py")
+    }
+    assert folders <= listed, sorted(folders - listed)
