@@ -26,6 +26,7 @@ from soacheck.mosfet import (
     transconductance,
 )
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory
+from soacheck.wright_omega import wright_omega
 
 if TYPE_CHECKING:
     from soacheck.stage import Stage
@@ -146,51 +147,6 @@ def share_current(
         step = residual / np.maximum((weight * slope).sum(axis=0), 1e-300)
         vb = vb - np.clip(step, -0.5, 0.5)
     return currents(vb)[0][which]
-
-
-def wright_omega(z: np.ndarray | float) -> np.ndarray:
-    """The Wright omega function on the real axis: the w > 0 with w + ln w = z, elementwise.
-
-    Parameters
-    ----------
-    z
-        Any real values, any shape.
-
-    Returns
-    -------
-    numpy.ndarray
-        ω(z), the shape of ``z``; 0 where e^z underflows (z below about −745).
-
-    Notes
-    -----
-    Starting values: e^z for z ≤ −2, the series 1 + s/2 + s²/16 − s³/192 − s⁴/3072 + 13s⁵/61440
-    (s = z − 1) up to 1, z − ln z + ln z / z above; then two steps of the Fritsch–Shafer–Crowley
-    iteration, r = z − w − ln w, w ← w·[1 + r/(1 + w)·(q − r/2)/(q − r)], q = (1 + w)(1 + w + 2r/3),
-    each of fourth order: within a few units of double precision of
-    ``scipy.special.wrightomega`` (which works in complex arithmetic, about three times slower).
-
-    References
-    ----------
-    P. W. Lawrence, R. M. Corless and D. J. Jeffrey, "Algorithm 917: Complex double-precision
-    evaluation of the Wright ω function", ACM Transactions on Mathematical Software 38(3), 20 (2012).
-    """
-    z = np.asarray(z, dtype=float)
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        lz = np.log(z)
-        w = np.asarray(z - lz + lz / z)
-        low = ~(z > 1.0)
-        if low.any():
-            w = np.array(w, copy=True)
-            zl = z[low]
-            s = zl - 1.0
-            series = 1.0 + s * (1 / 2 + s * (1 / 16 + s * (-1 / 192 + s * (-1 / 3072 + s * 13 / 61440))))
-            w[low] = np.where(zl <= -2.0, np.exp(zl), series)
-        for _ in range(2):
-            r = z - w - np.log(w)
-            wp = 1.0 + w
-            q = wp * (wp + (2.0 / 3.0) * r)
-            w = w * (1.0 + r / wp * (q - 0.5 * r) / (q - r))
-        return np.where(np.isfinite(w), w, 0.0) if low.any() else w
 
 
 def drive_slopes(

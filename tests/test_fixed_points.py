@@ -14,12 +14,11 @@ import math
 import numpy as np
 import pytest
 import scipy.optimize
-import scipy.special
 
 from soacheck.fixed_point import anderson
 from soacheck.partfiles import read_part
 from soacheck.search import fewest_guided
-from soacheck.sharing import share_current, stability_gain, wright_omega
+from soacheck.sharing import share_current, stability_gain
 from soacheck.stage import Cooling, Stage
 from soacheck.steady_state import steady_state
 
@@ -168,33 +167,6 @@ def test_anderson_mixing_solves_linear_fixed_points_column_by_column():
     assert found.settled.all()
     assert found.steps < 20  # plain relaxation at a gain of 0.95 needs about 500 steps to 1e-12
     np.testing.assert_allclose(found.x, expected, atol=1e-10)
-
-
-@pytest.mark.parametrize(
-    "z",
-    [
-        np.linspace(-800.0, 800.0, 20001),
-        np.linspace(-3.0, 3.0, 6001),
-        np.r_[-np.geomspace(1e-12, 1.0, 200), np.geomspace(1e-12, 1e6, 200)],
-    ],
-    ids=["wide", "near the series", "near zero and far"],
-)
-def test_the_real_wright_omega_is_scipys(z):
-    """Against ``scipy.special.wrightomega`` (complex arithmetic): 1e-14 relative (a few units of double
-    precision); 0 where e^z underflows, as scipy gives."""
-    expected = np.real(scipy.special.wrightomega(z))
-    got = wright_omega(z)
-    assert got.shape == z.shape
-    np.testing.assert_allclose(got, expected, rtol=1e-14, atol=0.0)
-
-
-def test_the_real_wright_omega_takes_scalars_and_arrays_alike():
-    """The vectorization contract: a scalar, a list and a 2-D array give the same values (w + ln w = z)."""
-    values = [[-5.0, 0.5], [2.0, 40.0]]
-    grid = wright_omega(np.array(values))
-    assert grid.shape == (2, 2)
-    assert float(wright_omega(2.0)) == grid[1, 0]
-    np.testing.assert_allclose(grid + np.log(grid), values, rtol=1e-14)
 
 
 def test_alike_devices_shared_as_counted_rows_match_every_row():
