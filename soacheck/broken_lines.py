@@ -1,7 +1,7 @@
 """Dashed and dotted curves: how far a trace bridges a gap, the heading at a dot, the pieces' ends.
 
 A broken curve is a row of pieces (dashes or dots) along one line. The column tracer of
-:mod:`soacheck.tracing` bridges the gap after a piece when the next piece lies within
+:mod:`soacheck.curve_following` bridges the gap after a piece when the next piece lies within
 :data:`BRIDGE_DEG` of the curve's heading, the gap at most :func:`bridge_px` long; when
 nothing lies in line, a corner fell in the gap: it is crossed onto the first piece ahead
 within :data:`BEND_DEG` of the heading and within 1.5 times the curve's own longest gap
