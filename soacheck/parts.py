@@ -171,6 +171,7 @@ class Part:
         pulse: str | float = "dc",
         duty: float | None = None,
         *,
+        idle_current: ArrayLike = 0.0,
         breakdown: Literal["auto", "thermal", "none"] = "auto",
         policy: Policy | str | Path | None = None,
     ) -> float | np.ndarray:
@@ -186,6 +187,8 @@ class Part:
             ``"dc"``, a width such as ``"1ms"``, or seconds.
         duty
             Duty cycle of a pulse train in (0, 1]; None for DC or a single pulse. [1]
+        idle_current
+            Current standing between the pulses, at the same voltage, broadcast; 0 for none. [A]
         breakdown
             Second-breakdown derating: ``auto``, ``thermal`` or ``none``.
         policy
@@ -203,7 +206,14 @@ class Part:
 
         part = self if policy is None else self.rated
         return allowed_current(
-            part, voltage, case_temp=case_temp, pulse=pulse, duty=duty, breakdown=breakdown, policy=policy
+            part,
+            voltage,
+            case_temp=case_temp,
+            pulse=pulse,
+            duty=duty,
+            idle_current=idle_current,
+            breakdown=breakdown,
+            policy=policy,
         )
 
     def curve_index(self, pulse_s: np.ndarray | float) -> np.ndarray:

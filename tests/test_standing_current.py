@@ -16,12 +16,13 @@ import pytest
 import scipy.integrate
 from typer.testing import CliRunner
 
+import soacheck
 from soacheck.boundary import allowed_current
 from soacheck.cli import app
 from soacheck.partfiles import read_part
 
 from .conftest import FOUR, THERMAL, write_part
-from .helpers import zth_train_start_closed_form
+from .helpers import zth_train_closed_form, zth_train_start_closed_form
 
 # a FET-like curve with no steep segment: the 15 A current limit, then 125 W to 100 V (constructed)
 POWER_ONLY_SOA = "pulse,voltage,current\ndc,1,15\ndc,8.3333,15\ndc,100,1.25\n"
@@ -196,3 +197,48 @@ def test_an_envelope_with_a_standing_current_fails_where_the_points_check_does(t
     assert not checked.passed and checked.summary()["limit"] == "power"
     allowed = allowed_current(30.0, part, pulse_s=TP_S, duty=DUTY, idle_current_a=1.3).current_a[0]
     assert checked.outside[0]["from_voltage"] <= 300.0 / allowed + 1e-9  # where 300 W/V falls below the allowed
+
+
+@pytest.mark.parametrize("duty", [None, DUTY])
+def test_the_api_allowed_current_on_a_standing_current_is_the_superposition_closed_form(power_only_part, duty):
+    """soacheck.allowed_current(..., idle_current=) against the periodic peak written out by hand.
+
+    The junction of a linear thermal network under pulses of power P on a standing P_idle = V·I_idle
+    peaks at Tj = Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D) (superposition of the standing current's
+    steady rise and the pulses' periodic impedance: elementary for any linear network; the Foster form
+    Zth(tp, D) = Σ Rᵢ (1 − e^(−tp/τᵢ))/(1 − e^(−T/τᵢ)), JEDEC JESD51-14, written out in tests/helpers.py).
+    The constant-power limit is the P with Tj = tj_max:
+
+        P = P_idle + (tj_max − Tc − P_idle·Rth)/Zth(tp, D),  I = P/V,
+
+    with tj_max 150 °C and Rth = Σ Rᵢ = 1.0 K/W (conftest's part). At 60 V the part's only other
+    line is the 15 A current limit, far above; the standing currents stay inside the DC line (125 W
+    at 25 °C, 125·(150 − 70)/125 = 80 W at 70 °C), except 2.5 A (150 W), on which no pulse is allowed.
+    """
+    volts, tc_c, rth = 60.0, np.array([[25.0], [70.0]]), 1.0
+    idle_a = np.array([0.0, 0.5, 1.0, 2.5])
+    z = zth_train_closed_form(1e-3, duty or 0.0)
+    p_idle = volts * idle_a
+    expected = (p_idle + (150.0 - tc_c - p_idle * rth) / z) / volts  # (2, 4)
+    expected[:, idle_a * volts > 125.0] = 0.0
+    got = soacheck.allowed_current(power_only_part, volts, case_temp=tc_c, pulse="1ms", duty=duty, idle_current=idle_a)
+    assert got.shape == (2, 4)
+    np.testing.assert_allclose(got, expected, rtol=1e-9, atol=0.0)
+    # the part's own method and one scalar point give the same
+    assert power_only_part.allowed_current(volts, 70.0, "1ms", duty, idle_current=1.0) == got[1, 2]
+    assert isinstance(soacheck.allowed_current(power_only_part, volts, pulse="1ms", idle_current=1.0), float)
+
+
+def test_the_command_checks_a_standing_current_against_the_api_allowed_current(tmp_path):
+    """check --idle-current reports the allowed current of soacheck.allowed_current(idle_current=),
+    the superposition closed form above: 1 A standing at 60 V under 1 ms pulses, Tc 25 °C."""
+    folder = write_part(tmp_path / "fet-power", soa=POWER_ONLY_SOA, kind="nmos", extra=THERMAL)
+    z = zth_train_closed_form(1e-3, 0.0)
+    expected = (60.0 + (150.0 - 25.0 - 60.0 * 1.0) / z) / 60.0  # A, see the test above
+    args = ["check", str(folder), "-v", "60", "-i", "7", "--pulse", "1ms", "--idle-current", "1", "--json"]
+    result = CliRunner(env={"COLUMNS": "120"}).invoke(app, args)
+    assert result.exit_code == 0, result.output
+    (point,) = json.loads(result.stdout)["points"]
+    assert point["allowed_current"] == pytest.approx(expected, rel=1e-9)
+    api = soacheck.allowed_current(str(folder), 60.0, pulse="1ms", idle_current=1.0)
+    assert point["allowed_current"] == pytest.approx(api, rel=1e-15)

@@ -98,6 +98,7 @@ def allowed_current(
     case_temp: float = ...,
     pulse: Pulse = ...,
     duty: float | None = ...,
+    idle_current: float = ...,
     breakdown: BreakdownDerating = ...,
     policy: PolicyLike = ...,
     library: Library = ...,
@@ -110,6 +111,7 @@ def allowed_current(
     case_temp: ArrayLike = ...,
     pulse: Pulse = ...,
     duty: float | None = ...,
+    idle_current: ArrayLike = ...,
     breakdown: BreakdownDerating = ...,
     policy: PolicyLike = ...,
     library: Library = ...,
@@ -121,6 +123,7 @@ def allowed_current(
     case_temp: ArrayLike = 25.0,
     pulse: Pulse = "dc",
     duty: float | None = None,
+    idle_current: ArrayLike = 0.0,
     breakdown: BreakdownDerating = "auto",
     policy: PolicyLike = None,
     library: Library = None,
@@ -139,6 +142,9 @@ def allowed_current(
         ``"dc"``, or the width of a single pulse (``duty`` None) or of a pulse train.
     duty
         Duty cycle tp/T of a pulse train in (0, 1]; None for DC or a single pulse. [1]
+    idle_current
+        Current standing between the pulses, at the same voltage, broadcast against
+        ``voltage``; 0 for none (``check --idle-current``). Ignored for DC and a duty of 1. [A]
     breakdown
         How second breakdown (or a FET's linear-mode instability) derates: ``auto`` (the
         part's table, else like the constant-power limit), ``thermal``, ``none``.
@@ -153,26 +159,35 @@ def allowed_current(
     Returns
     -------
     float or numpy.ndarray
-        The allowed current [A]: a float for scalar inputs, otherwise an array of the
-        broadcast shape of ``voltage`` and ``case_temp``. 0 above ``v_max`` or with the case
-        at or above ``tj_max``; NaN where the point cannot be evaluated (a voltage not
-        above zero, a non-finite case temperature).
+        The allowed pulse current [A]: a float for scalar inputs, otherwise an array of the
+        broadcast shape of ``voltage``, ``case_temp`` and ``idle_current``. 0 above ``v_max``,
+        with the case at or above ``tj_max``, or where the standing current alone lies outside
+        the DC boundary; NaN where the point cannot be evaluated (a voltage not above zero, a
+        non-finite case temperature, a negative or non-finite standing current).
 
     Notes
     -----
     Below the lowest digitized voltage the first segment extends, capped by the rated
     current; a pulse width between two digitized curves takes the longer one (without a
     thermal model). See :func:`check` for the limit and the margin of each point.
+
+    With a standing current I_idle and the part's thermal model the junction peaks at
+    Tj = Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D), P_idle = V·I_idle (superposition in
+    the linear thermal network; the Foster form: JEDEC JESD51-14), and the constant-power
+    limit is the largest P with Tj ≤ tj_max; second-breakdown and instability lines are
+    derated at the junction temperature where each pulse starts. Without a thermal model a
+    pulse on a standing current is judged as DC (conservative).
     """
     loaded = _under(load_part(part, library=library), policy)
     pulse_s = _pulse_s(pulse)
-    shape = np.broadcast_shapes(np.shape(voltage), np.shape(case_temp))
+    shape = np.broadcast_shapes(np.shape(voltage), np.shape(case_temp), np.shape(idle_current))
     found = boundary_allowed_current(
         np.asarray(voltage, dtype=float),
         loaded,
         tc_c=np.asarray(case_temp, dtype=float),
         pulse_s=pulse_s,
         duty=_duty(duty, pulse_s),
+        idle_current_a=np.asarray(idle_current, dtype=float),
         breakdown=_breakdown(breakdown),
     )
     current = found.current_a.reshape(shape)
