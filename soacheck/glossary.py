@@ -61,6 +61,10 @@ LIMITS: dict[str, str] = {
 }
 """Every value a ``limit`` field can take, with its meaning."""
 
+JUNCTION_LIMITS: tuple[str, ...] = ("tj_max", "tj_ceiling")
+"""The limits a junction temperature passes, not the current boundary: a point past one of them
+fails while its current may still be inside (a margin of 0 or more)."""
+
 VERDICTS: dict[str, str] = {
     "pass": "everything checked is inside its derated safe operating area",
     "fail": "something checked is outside, or reaches a limit",
@@ -83,7 +87,9 @@ _TERMS = [
         "1",
         "1 − I/I_allowed: the fraction of the allowed current still unused; negative outside. Per point at that "
         "point; for a whole result the least over everything checked. A fraction in JSON, a percentage in tables "
-        "and plots; null where nothing is allowed (the limit says why).",
+        "and plots; null where nothing is allowed (the limit says why). It measures the current only: a result "
+        "that fails with a margin of 0 or more failed on another limit (a junction past tj_max or tj_ceiling, "
+        "runaway, drive), which its limit and first_violation_time name.",
         "margin (%)",
     ),
     _t(
@@ -106,7 +112,12 @@ _TERMS = [
         "voltage_fraction, power_fraction (null: no margin on that quantity) and its source; name none: the "
         "absolute ratings",
     ),
-    _t("limit", "", "what bounds the allowed current at that point, or why it fails (see the limits)"),
+    _t(
+        "limit",
+        "",
+        "what bounds the allowed current at that point, or why it fails (see the limits); for a failing test or "
+        "trace, what its first violation passed",
+    ),
     # the design-margin policy (in the policy object)
     _t("tj_ceiling", "°C", "the policy's junction ceiling, in place of tj_max; null: tj_max", "tj ceiling"),
     _t("current_fraction", "1", "the policy's fraction of the derated boundary's current; null: 1"),
@@ -129,7 +140,12 @@ _TERMS = [
     _t("test", "", "the planned test in words (mode, setpoint, battery or ramp)"),
     _t("duration", "s", "length of the test or trace (tables: s, min or h as fits)"),
     _t("samples", "", "number of samples checked"),
-    _t("first_violation_time", "s", "time of the first sample outside, null when none is", "first violation"),
+    _t(
+        "first_violation_time",
+        "s",
+        "time of the first sample outside or past a limit (a junction past tj_max included), null when none is",
+        "first violation",
+    ),
     _t("margin_time", "s", "time at which the least margin occurs", "margin at"),
     _t(
         "dc_margin",
@@ -153,8 +169,8 @@ _TERMS = [
     _t(
         "time_over_tj_max",
         "s",
-        "total time the junction spent above tj_max; under a policy with a tj_ceiling, above that ceiling (the "
-        "limit it was judged against)",
+        "total time the junction (in a stage, any device's) spent above tj_max; under a policy with a tj_ceiling, "
+        "above that ceiling (the limit it was judged against)",
     ),
     _t("excursions", "", "runs of samples above the DC boundary, each judged as a pulse"),
     _t(

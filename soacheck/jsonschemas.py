@@ -173,6 +173,8 @@ STAGE_RUN_FIELDS = (
     f("margin_time", "number", null=True),
     f("device", "integer"),
     f("tj_peak", "number"),
+    f("tj_peak_time", "number"),
+    f("time_over_tj_max", "number"),
     f("case_peak", "number"),
     f("heatsink_peak", "number"),
     f("loop_gain_peak", "number"),

@@ -73,16 +73,35 @@ class StageRun:
     def worst_device(self) -> int:
         return int(np.argmin(np.nanmin(np.where(np.isfinite(self.margin), self.margin, -np.inf), axis=1)))
 
-    def summary(self) -> dict[str, object]:
-        """The verdict and the figures the CLI and reports print."""
+    @property
+    def first_violation(self) -> tuple[int, int] | None:
+        """(device, sample) of the first violation: the earliest sample where a device is not
+        :attr:`inside`, and the first such device there; None when the run passes throughout.
+        Its :attr:`limit` says what was passed there: a mechanism of the SOA boundary, the
+        junction's ``tj_max`` or ``tj_ceiling`` (the current may be inside), ``runaway`` or ``drive``."""
         bad = ~self.inside
-        first = None
-        limit = None
-        if bad.any():
-            k = int(np.argmax(bad.any(axis=0)))
-            first = float(self.time_s[k])
-            device = int(np.argmax(bad[:, k]))
-            limit = str(self.limit[device, k])
+        if not bad.any():
+            return None
+        k = int(np.argmax(bad.any(axis=0)))
+        return int(np.argmax(bad[:, k])), k
+
+    @property
+    def time_over_tj_limit_s(self) -> float:
+        """How long any junction spent above tj_max (under a policy, its ceiling), each sample over
+        it held until the next (zero-order hold, as a trace counts it). [s]"""
+        over = (self.junction_c > self.stage.part.tj_limit_c).any(axis=0)
+        return float(np.sum(np.diff(self.time_s, append=self.time_s[-1])[over]))
+
+    def summary(self) -> dict[str, object]:
+        """The verdict and the figures the CLI and reports print.
+
+        A failing run's ``limit`` and ``first_violation_time`` are its first violation's (see
+        :attr:`first_violation`); ``margin`` stays the least margin to the current boundary, so a
+        run failing on its junction alone has a margin of 0 or more beside the junction limit.
+        """
+        found = self.first_violation
+        first = None if found is None else float(self.time_s[found[1]])
+        limit = None if found is None else str(self.limit[found])
         finite = np.where(np.isfinite(self.margin), self.margin, -np.inf)
         flat = int(np.argmin(finite))
         d, k = np.unravel_index(flat, finite.shape)
@@ -102,6 +121,8 @@ class StageRun:
             "margin_time": float(self.time_s[k]),
             "device": int(d) + 1,
             "tj_peak": float(self.junction_c.max()),
+            "tj_peak_time": float(self.time_s[int(np.argmax(self.junction_c.max(axis=0)))]),
+            "time_over_tj_max": self.time_over_tj_limit_s,
             "case_peak": float(self.case_c.max()),
             "heatsink_peak": float(self.sink_c.max()),
             "loop_gain_peak": float(np.max(self.gain)),
