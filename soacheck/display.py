@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from soacheck.glossary import LIMITS, heading, unit
+from soacheck.glossary import JUNCTION_LIMITS, LIMITS, heading, unit
 
 PERCENT = frozenset(
     {"margin", "margin_to_rating", "equal_share", "worst_share", "mean_worst_share", "runaway_fraction"}
@@ -94,3 +94,29 @@ def limit_text(name: str | None) -> str:
     if not name:
         return "—"
     return name if name in LIMITS else str(name)
+
+
+def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None = None) -> str:
+    """Why a failing result fails, in one line of words, from its JSON figures.
+
+    The first violation's limit and time lead: a junction limit reads ``the junction passes
+    tj_max at 225 ms, peaking at 156.8 °C``; a current outside the boundary ``SUBJECT leaves
+    its safe operating area at 6.25 s (limit power)``; another limit its meaning (``runaway at
+    3 s: ...``). A least margin of 0 or more measures the current only and is said to be so,
+    never left to read as the size of the failure; a negative one follows as it is.
+    """
+    limit, first, margin = summary.get("limit"), summary.get("first_violation_time"), summary.get("margin")
+    when = "" if first is None else f" at {value_text('first_violation_time', first, span_s=span_s)}"
+    inside = isinstance(margin, int | float) and math.isfinite(margin) and margin >= 0
+    if limit in JUNCTION_LIMITS:
+        peak = summary.get("tj_peak")
+        text = f"the junction passes {limit}{when}" + (
+            "" if peak is None else f", peaking at {value_text('tj_peak', peak)}"
+        )
+    elif inside and limit in LIMITS:
+        text = f"{limit}{when}: {LIMITS[limit]}"
+    else:
+        text = f"{subject} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
+    if inside:
+        return text + f"; the current stays inside the SOA boundary (least margin {value_text('margin', margin)})"
+    return text if margin is None else text + f", least margin {value_text('margin', margin)}"

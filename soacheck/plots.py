@@ -18,6 +18,7 @@ from soacheck.boundary import boundary_polyline
 from soacheck.derating import BreakdownDerating
 from soacheck.display import device_name
 from soacheck.envelope import Envelope, EnvelopeCheck
+from soacheck.glossary import JUNCTION_LIMITS
 from soacheck.instability import instability_line
 from soacheck.mechanisms import mechanism_lines
 from soacheck.mosfet import ztc_point
@@ -324,13 +325,13 @@ def plot_stage_run(
         style = series_style(d + 1, markers=False)
         ax_soa.plot(run.device_v[d][shown], run.device_a[d][shown], lw=2.2 if d == worst else 1.4, zorder=6,
                     label=label, **style)  # fmt: skip
-    bad = ~run.inside
-    first = None
-    if bad.any():
-        k = int(np.argmax(bad.any(axis=0)))
-        d = int(np.argmax(bad[:, k]))
-        first = (d, k)
-        mark_violation(ax_soa, float(run.device_v[d, k]), float(run.device_a[d, k]))
+    first = run.first_violation
+    passed = None if first is None else str(run.limit[first])
+    junction = passed in JUNCTION_LIMITS  # the junction passed its limit there, the current may be inside
+    mark = f"{passed} passed" if junction else "first violation"
+    if first is not None:
+        d, k = first
+        mark_violation(ax_soa, float(run.device_v[d, k]), float(run.device_a[d, k]), text=mark)
     _zoom(ax_soa, run.device_v.ravel(), run.device_a.ravel())
     _full_range_inset(ax_soa, part, [(run.device_v[d], run.device_a[d]) for d in devices])
     _relegend(ax_soa)
@@ -349,6 +350,10 @@ def plot_stage_run(
                      label=device_name(d + 1))  # fmt: skip
     axes[1].set_ylabel("device power [W]")
     axes[2].plot(t, run.junction_c[worst], color=OKABE_JUNCTION, label=f"junction {device_name(worst + 1)}")
+    if junction and first[0] != worst:  # the device whose junction passed its limit first
+        axes[2].plot(
+            t, run.junction_c[first[0]], color=OKABE_JUNCTION, ls=":", label=f"junction {device_name(first[0] + 1)}"
+        )
     axes[2].plot(t, run.case_c[worst], color=OKABE_CASE, linestyle="--", label=f"case {device_name(worst + 1)}")
     axes[2].plot(t, run.sink_c, color="#000000", linestyle="-.", label="heatsink")
     axes[2].axhline(part.ratings.tj_max_c, color="k", ls=":", lw=0.8, label="tj_max")
@@ -360,10 +365,12 @@ def plot_stage_run(
                      **series_style(d + 1, markers=False), label=device_name(d + 1))  # fmt: skip
     axes[3].axhline(0, color="k", lw=0.6)
     axes[3].set_ylabel("margin [%]")
-    if first is not None:
+    if first is not None:  # marked on the junction's panel where the junction passed its limit, else the margin's
         d, k = first
-        mark_violation(axes[3], float(t[k]), float(100 * np.clip(run.margin[d, k], -1, 1)))
-        for ax in axes[:3]:
+        marked = 2 if junction else 3
+        at = float(run.junction_c[d, k]) if junction else float(100 * np.clip(run.margin[d, k], -1, 1))
+        mark_violation(axes[marked], float(t[k]), at, text=mark)
+        for ax in axes[:marked] + axes[marked + 1 :]:
             ax.axvline(float(t[k]), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
     for ax in axes:
         grid(ax)

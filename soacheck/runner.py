@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from soacheck.compare import TrajectoryJob, case_temps_in_stage, compare
+from soacheck.display import failure_text
 from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import discharge_from_table
@@ -64,9 +65,14 @@ class JobResult:
         return policy_lines(found) if isinstance(found, dict) else []
 
     def headline(self) -> str:
-        """One line: what limits, and by how much."""
+        """One line: what limits, and by how much. A failing job whose least margin is 0 or more failed on
+        another limit than the current boundary (a junction past tj_max, say): that limit leads, and the
+        margin is said to be the current's (:func:`~soacheck.display.failure_text`)."""
         s = self.summary
         margin = s.get("margin")
+        if not self.passed and isinstance(margin, float) and margin >= 0:
+            subject = "the trace" if self.kind == "trace" else "a device"
+            return failure_text(s, subject=subject, span_s=s.get("duration"))
         parts = []
         if margin is not None and isinstance(margin, float) and math.isfinite(margin):
             parts.append(f"least margin {margin:+.1%}")

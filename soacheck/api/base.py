@@ -122,6 +122,8 @@ class Result(ABC):
 
     def __repr__(self) -> str:
         margin = "—" if not math.isfinite(self.margin) else f"{self.margin:+.1%}"
+        if not self.passed and math.isfinite(self.margin) and self.margin >= 0:  # failed on another limit
+            return f"<{type(self).__name__} fail, limit {self.limit}; the current inside, margin {margin}>"
         return f"<{type(self).__name__} {self.verdict}, margin {margin}, limit {self.limit}>"
 
 

@@ -23,7 +23,7 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import print_assumptions, quantity_table, under_policy
+from soacheck.cli.tables import print_assumptions, print_verdict, quantity_table, under_policy
 from soacheck.filemarks import save_figure
 
 if TYPE_CHECKING:
@@ -45,7 +45,7 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> 
         print_assumptions(console, payload["assumptions"])
         if plot is not None:
             console.print(f"plot written to {plot}", highlight=False)
-        console.print("[green]PASS[/]" if run.passed else "[bold red]FAIL[/]: a device leaves its safe operating area")
+        print_verdict(console, run.passed, payload, subject="a device", span_s=payload.get("duration"))
     raise typer.Exit(0 if run.passed else 1)
 
 

@@ -17,7 +17,7 @@ from rich.markup import escape
 from rich.table import Table
 from rich.text import Text
 
-from soacheck.display import column_heading, value_text
+from soacheck.display import column_heading, failure_text, value_text
 from soacheck.glossary import words
 
 _PASS_STYLE, _FAIL_STYLE = "green", "bold red"
@@ -149,3 +149,12 @@ def named_column(name: str, values: Iterable, *, essential: bool = False, rank: 
     """A column of the JSON name ``name``: glossary heading with unit, values formatted without it."""
     cells = [value_text(name, v, with_unit=False, span_s=span_s) for v in values]
     return Column(column_heading(name), cells, essential=essential, rank=rank)
+
+
+def print_verdict(console: Console, passed: bool, summary: dict, *, subject: str, span_s: float | None = None) -> None:
+    """The closing line of a result over time: PASS, or FAIL and why (:func:`soacheck.display.failure_text`)."""
+    if passed:
+        console.print(f"[{_PASS_STYLE}]PASS[/]")
+    else:
+        why = failure_text(summary, subject=subject, span_s=span_s)
+        console.print(f"[{_FAIL_STYLE}]FAIL[/]: {escape(why)}", highlight=False)

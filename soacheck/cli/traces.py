@@ -23,7 +23,15 @@ from soacheck.cli.base import (
     progress_bar,
     user_errors,
 )
-from soacheck.cli.tables import Column, named_column, print_table, quantity_table, under_policy, verdict_cells
+from soacheck.cli.tables import (
+    Column,
+    named_column,
+    print_table,
+    print_verdict,
+    quantity_table,
+    under_policy,
+    verdict_cells,
+)
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 
@@ -189,4 +197,4 @@ def _print_trace(console: Console, result: TraceResult, plot: Path | None) -> No
         console.print(f"  assumed: {note}", highlight=False, markup=False)
     if plot is not None:
         console.print(f"plot written to {plot}", highlight=False)
-    console.print("[green]PASS[/]" if result.passed else "[bold red]FAIL[/]: the trace leaves the safe operating area")
+    print_verdict(console, result.passed, summary, subject="the trace", span_s=result.duration_s)
