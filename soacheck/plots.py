@@ -206,7 +206,9 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     shows the margin against the boundary that judged each sample: the DC boundary between
     excursions, and inside an excursion its least margin against the pulse curve that
     judged it (:func:`soacheck.thinning.judged_margin_line`), so a passing trace stays at
-    or above zero. The first violation is marked on every panel. Traces are thinned to
+    or above zero. The first violation is marked on the SOA and on the margin panel; where
+    the junction passed its limit first, on the temperature panel instead (the title then
+    calls a margin of 0 or more the current's). Traces are thinned to
     about 20 000 samples for drawing (excursions merged per bin, the worst kept); the
     check itself used every sample.
     """
@@ -227,7 +229,11 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     _full_range_inset(ax_soa, part, [(data["voltage"], data["current"])])
     margin = "—" if result.margin is None else f"{result.margin:+.1%}"
     ax_soa.set_title(f"{part.id}: trajectory ({result.verdict})", fontsize=10)
-    ax_tj.set_title(f"verdict {result.verdict}, margin {margin} (the least, as judged)", fontsize=9)
+    junction = result.limit in JUNCTION_LIMITS and "tj" in data  # the junction passed its limit first
+    if not result.passed and result.margin is not None and result.margin >= 0:  # failed on another limit
+        ax_tj.set_title(f"verdict fail: {result.limit}; the current inside, margin {margin}", fontsize=9)
+    else:
+        ax_tj.set_title(f"verdict {result.verdict}, margin {margin} (the least, as judged)", fontsize=9)
     if "tj" in data:
         ax_tj.plot(t, data["tj"], color=OKABE_JUNCTION, lw=1.2, label="junction Tj")
     ax_tj.plot(t, data["case_temp"], color=OKABE_CASE, lw=1.0, linestyle="--", label="case Tc")
@@ -243,10 +249,15 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     if result.first_violation_time_s is not None:
         tv = result.first_violation_time_s / size_s
         k = int(np.argmin(np.abs(data["time"] - result.first_violation_time_s)))
-        mark_violation(ax_soa, float(data["voltage"][k]), float(data["current"][k]))
-        m = int(np.argmin(np.abs(margin_t_s - result.first_violation_time_s)))
-        mark_violation(ax_margin, float(tv), float(100 * np.clip(margin[m], -1, 1)))
-        ax_tj.axvline(float(tv), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
+        mark = f"{result.limit} passed" if junction else "first violation"
+        mark_violation(ax_soa, float(data["voltage"][k]), float(data["current"][k]), text=mark)
+        if junction:  # on the junction's panel, where it passed its limit; the margin there may be positive
+            mark_violation(ax_tj, float(tv), float(data["tj"][k]), text=mark)
+            ax_margin.axvline(float(tv), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
+        else:
+            m = int(np.argmin(np.abs(margin_t_s - result.first_violation_time_s)))
+            mark_violation(ax_margin, float(tv), float(100 * np.clip(margin[m], -1, 1)))
+            ax_tj.axvline(float(tv), color=OUTSIDE, lw=1.0, ls="--", gid="first-violation-time")
     _relegend(ax_soa)
     for ax in (ax_tj, ax_margin):
         grid(ax)
@@ -301,7 +312,8 @@ def plot_stage_run(
     used at its worst), with the whole SOA in an inset. Right, over time (in s, min or h as
     fits): source voltage and total current; each device's power; junction, case and
     heatsink temperatures; each device's margin. The first violation is marked on the SOA
-    and on every time panel.
+    and on the margin panel, or on the temperature panel where a junction passed its limit
+    (``tj_max passed``), with a line at its time on the other time panels.
 
     ``max_setpoint`` is the most demanding safe setpoint of a ``--find-max`` search and its
     unit (``(7.2, "A")``; the value None when no setpoint is safe): a constant-current one is

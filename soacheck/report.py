@@ -242,11 +242,12 @@ def _section(result: JobResult, figures: list[str]) -> str:
     rows = _rows_table(result.rows) if result.rows else ""
     plots = "".join(f"<figure>{svg}</figure>" for svg in figures)
     state = "" if result.passed else " failed"
+    why = "" if result.passed else f'<p class="why">{e(result.headline())}</p>'  # what failed, first
     return f"""<section class="job{state}" id="job-{e(slug(result.name))}">
 <h2>{e(result.name)} <span class="verdict {result.verdict}">{result.verdict.upper()}</span></h2>
 <div class="meta">{e(result.kind)}</div>
 <div class="answer">
-<div><h3>Answer</h3><table>{answer}</table></div>
+<div><h3>Answer</h3>{why}<table>{answer}</table></div>
 <div><h3>Assumptions</h3><ul class="notes">{notes}</ul>{policy_block}</div>
 </div>
 <h3>Figures</h3>

@@ -226,3 +226,12 @@ def parse_html(text: str) -> HtmlNode:
     parser.feed(text)
     parser.close()
     return root
+
+
+def violation_marks(ax) -> list[tuple[float, float]]:
+    """The (x, y) of every first-violation mark a plot drew on ``ax`` (gid plotstyle.VIOLATION_GID)."""
+    from soacheck.plotstyle import VIOLATION_GID
+
+    return [
+        (float(line.get_xdata()[0]), float(line.get_ydata()[0])) for line in ax.lines if line.get_gid() == VIOLATION_GID
+    ]

@@ -15,12 +15,11 @@ import pytest
 import soacheck
 from soacheck.jobfiles import read_envelope
 from soacheck.plots import POLICY_GID, plot_point_check, plot_stage_run, plot_trace
-from soacheck.plotstyle import VIOLATION_GID
 from soacheck.points import check_points
 from soacheck.policy import BENCH, Policy
 from soacheck.trace import TraceChecker
 
-from .helpers import PULSE_TRAIN_DT_S, PULSE_TRAIN_TP_S, pulse_train_above_dc
+from .helpers import PULSE_TRAIN_DT_S, PULSE_TRAIN_TP_S, pulse_train_above_dc, violation_marks
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 STAGE = EXAMPLES / "stage.toml"
@@ -29,12 +28,6 @@ STAGE = EXAMPLES / "stage.toml"
 def legend_texts(ax) -> list[str]:
     legend = ax.get_legend()
     return [t.get_text() for t in legend.get_texts()] if legend is not None else []
-
-
-def violation_marks(ax) -> list[tuple[float, float]]:
-    return [
-        (float(line.get_xdata()[0]), float(line.get_ydata()[0])) for line in ax.lines if line.get_gid() == VIOLATION_GID
-    ]
 
 
 @pytest.fixture(scope="module")

@@ -18,19 +18,19 @@ from __future__ import annotations
 
 import json
 
+import numpy as np
 import pytest
 from scipy.optimize import brentq
 
 import soacheck
 from soacheck.partfiles import read_part
 from soacheck.plots import plot_stage_run
-from soacheck.plotstyle import VIOLATION_GID
 from soacheck.policy import Policy
 from soacheck.runner import JobResult
 from soacheck.stage import Stage
 
 from .conftest import write_part
-from .helpers import FOUR_R_K_PER_W, FOUR_TAU_S, invoke, zth_closed_form
+from .helpers import FOUR_R_K_PER_W, FOUR_TAU_S, invoke, parse_html, violation_marks, zth_closed_form
 
 R_HOT = tuple(1.2 * r for r in FOUR_R_K_PER_W)  # sums to 1.2 K/W, above rth_jc = 1.0 K/W
 THERMAL_HOT = f"[thermal]\nfoster_r = {list(R_HOT)}\nfoster_tau = {list(FOUR_TAU_S)}\n"
@@ -95,12 +95,7 @@ def test_the_plot_marks_the_junction_where_it_passed_its_limit(hot_zth):
     policy, limit_c, limit, power_w = CASES[0]
     run = power_sweep(hot_zth, policy, power_w).run
     fig = plot_stage_run(run)
-    marks = {
-        ax.get_ylabel(): [
-            (float(m.get_xdata()[0]), float(m.get_ydata()[0])) for m in ax.lines if m.get_gid() == VIOLATION_GID
-        ]
-        for ax in fig.axes
-    }
+    marks = {ax.get_ylabel(): violation_marks(ax) for ax in fig.axes}
     (at,) = marks["°C"]
     t_x = crossing_s(limit_c, power_w)
     assert 1e3 * t_x <= at[0] <= 1e3 * (t_x + DT_S)  # a 0.6 s run: the axis is in ms
@@ -134,3 +129,43 @@ def test_cli_json_and_text_name_the_junction_and_exit_1(hot_zth, tmp_path):
     assert "FAIL: the junction passes tj_max at" in text.stdout
     assert "the current stays inside the SOA boundary (least margin +12.0 %)" in text.stdout
     assert "leaves its safe operating area" not in text.stdout
+
+
+def test_a_plans_table_and_report_say_why_the_job_failed(hot_zth, tmp_path):
+    """The plan's table carries the headline; the report states it at the top of the job's answer."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(
+        'title = "junction"\n[stage]\npart = "hot-zth"\ncount = 1\ncase_temp = 25\n'
+        '[[sweep]]\nname = "hot"\nramp = "power"\nfrom = 20\nto = 30\nat = 110\ntime = "600ms"\n'
+        f"samples = {SAMPLES}\n"
+    )
+    result = soacheck.run_plan(plan, out=tmp_path / "report")
+    (row,) = result.to_frame().to_dict(orient="records")
+    assert row["verdict"] == "fail" and row["limit"] == "tj_max" and row["margin"] > 0
+    assert row["headline"].startswith("the junction passes tj_max at ")
+    (section,) = [
+        node
+        for node in parse_html((tmp_path / "report" / "report.html").read_text(encoding="utf-8")).iter("section")
+        if "job" in node.classes
+    ]
+    (why,) = [p for p in section.iter("p") if "why" in p.classes]
+    assert why.text() == row["headline"]
+
+
+def test_a_trace_failing_on_its_junction_alone_is_drawn_so(hot_zth):
+    """The same 110 W held as a trace (one device, 25 °C case): the first violation is the junction's, at t_x."""
+    import pandas as pd
+
+    from soacheck.plots import plot_trace
+
+    t = np.linspace(0.0, END_S, SAMPLES)
+    result = soacheck.trace(hot_zth, pd.DataFrame({"time": t, "voltage": 20.0, "current": 5.5}), case_temp=25)
+    t_x = crossing_s(150.0, 110.0)
+    assert result.limit == "tj_max" and t_x <= result.trace.first_violation_time_s <= t_x + DT_S
+    fig = plot_trace(read_part(hot_zth), result.trace)
+    marks = {ax.get_ylabel(): violation_marks(ax) for ax in fig.axes}
+    (at,) = marks["temperature [°C]"]
+    assert 1e3 * t_x <= at[0] <= 1e3 * (t_x + DT_S) and at[1] >= 150.0
+    assert marks["margin [%]"] == []
+    (title,) = [ax.get_title() for ax in fig.axes if ax.get_ylabel() == "temperature [°C]"]
+    assert title == "verdict fail: tj_max; the current inside, margin +12.0%"
