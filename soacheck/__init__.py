@@ -29,7 +29,7 @@ The package is organised by domain concept:
 - :mod:`soacheck.plan`, :mod:`soacheck.runner`, :mod:`soacheck.report` -- plans, runs, reports
 - :mod:`soacheck.plots`    -- log-log SOA plots and time plots
 - :mod:`soacheck.api`      -- the public functions, each beside the result object it returns, one
-  room per topic (points, traces, stages, envelopes, comparisons, plans, authoring)
+  room per topic (libraries, points, traces, stages, envelopes, comparisons, plans, authoring)
 - :mod:`soacheck.cli`      -- the ``soacheck`` command, a thin layer over the API
 
 The public surface is what ``__all__`` lists below (see ``docs/python.md``); every other
@@ -54,13 +54,14 @@ _PUBLIC = {
     "EnvelopeResult": "soacheck.api.envelopes",
     "SafeEnvelopeResult": "soacheck.api.envelopes",
     "envelope": "soacheck.api.envelopes",
+    "part_rows": "soacheck.api.libraries",
+    "parts": "soacheck.api.libraries",
     "PlanResult": "soacheck.api.plans",
     "run_plan": "soacheck.api.plans",
     "CheckResult": "soacheck.api.points",
     "allowed_current": "soacheck.api.points",
     "check": "soacheck.api.points",
     "load_part": "soacheck.api.points",
-    "parts": "soacheck.api.points",
     "SharingResult": "soacheck.api.stages",
     "StageRunResult": "soacheck.api.stages",
     "discharge": "soacheck.api.stages",
@@ -108,6 +109,7 @@ __all__ = [
     "lint",
     "load_part",
     "load_stage",
+    "part_rows",
     "parts",
     "run_plan",
     "sharing",
@@ -153,8 +155,9 @@ if TYPE_CHECKING:  # what type checkers and editors see
     from soacheck.api.base import Result, Verdict
     from soacheck.api.comparisons import CompareResult, compare
     from soacheck.api.envelopes import EnvelopeResult, SafeEnvelopeResult, envelope
+    from soacheck.api.libraries import part_rows, parts
     from soacheck.api.plans import PlanResult, run_plan
-    from soacheck.api.points import CheckResult, allowed_current, check, load_part, parts
+    from soacheck.api.points import CheckResult, allowed_current, check, load_part
     from soacheck.api.stages import SharingResult, StageRunResult, discharge, load_stage, sharing, sweep
     from soacheck.api.traces import TraceCheckResult, trace
     from soacheck.battery import Mode, SweepKind

@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+import soacheck
 from soacheck import csvtables
 from soacheck.errors import SoacheckError
 from soacheck.library import bundled_library, part_rows
@@ -38,6 +39,12 @@ def loaded_after(code: str) -> set[str]:
 
 def test_importing_the_command_loads_no_numerics():
     assert not (HEAVY | {"numpy"}) & loaded_after("import soacheck.cli")
+
+
+def test_the_public_listing_loads_no_numerics():
+    """``soacheck.part_rows()``, what ``soacheck parts`` calls: importing and listing the bundled parts."""
+    loaded = loaded_after("import soacheck\nassert soacheck.part_rows()")
+    assert not (HEAVY | {"numpy"}) & loaded, sorted((HEAVY | {"numpy"}) & loaded)
 
 
 @pytest.mark.parametrize(
@@ -97,6 +104,15 @@ def _copy_part(tmp_path: Path, name: str) -> Path:
     (folder / "soa.csv").write_text((source / "soa.csv").read_text())
     (folder / "part.toml").write_text((source / "part.toml").read_text().replace("demo-npn-to3-250w", name))
     return folder
+
+
+@pytest.mark.parametrize("given", [str, Path, lambda p: [p]], ids=["text", "path", "list"])
+def test_the_public_listing_lists_a_user_library_as_loading_shows(tmp_path, given):
+    """A user library given as text, path or list: its part listed as the fully loaded part shows, then the bundled."""
+    folder = _copy_part(tmp_path, "zz-user")
+    rows = soacheck.part_rows(library=given(tmp_path))
+    assert [r for r in rows if r["id"] == "zz-user"] == [_row_of_loaded(folder)]
+    assert {r["id"] for r in rows} >= {p.parent.name for p in bundled_library().glob("*/part.toml")}
 
 
 def test_listing_shows_what_loading_the_parts_shows():

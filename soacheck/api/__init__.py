@@ -14,7 +14,9 @@ One room per topic, each function beside the result object it returns:
 
 - :mod:`soacheck.api.options`     -- the argument types and their checks, shared by every function
 - :mod:`soacheck.api.base`        -- :class:`Result`, the one shape of every result, and its helpers
-- :mod:`soacheck.api.points`      -- ``load_part``, ``parts``, ``allowed_current``, ``check`` → ``CheckResult``
+- :mod:`soacheck.api.libraries`   -- the folders a ``library=`` names; ``parts`` (a DataFrame), ``part_rows`` (plain
+  rows, no numpy or pandas)
+- :mod:`soacheck.api.points`      -- ``load_part``, ``allowed_current``, ``check`` → ``CheckResult``
 - :mod:`soacheck.api.traces`      -- ``trace`` → ``TraceCheckResult``
 - :mod:`soacheck.api.stages`      -- ``load_stage``, ``discharge``, ``sweep`` → ``StageRunResult``;
   ``sharing`` → ``SharingResult``

@@ -8,7 +8,8 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from soacheck.api.base import Result, _pd, _plots
-from soacheck.api.options import Library, _folders
+from soacheck.api.libraries import _folders
+from soacheck.api.options import Library
 from soacheck.jsonvalues import jsonable
 from soacheck.library import find_part_folder
 from soacheck.lint import Finding, lint_part

@@ -9,7 +9,8 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
 from soacheck.api.base import Result, _pd, _plots
-from soacheck.api.options import Library, PartLike, PathLike, PolicyLike, StageLike, _breakdown, _folders
+from soacheck.api.libraries import _folders
+from soacheck.api.options import Library, PartLike, PathLike, PolicyLike, StageLike, _breakdown
 from soacheck.api.stages import load_stage
 from soacheck.battery import Trajectory
 from soacheck.compare import Candidate, TrajectoryJob

@@ -17,7 +17,6 @@ import numpy.typing as npt
 from soacheck.battery import SweepKind
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError, choose
-from soacheck.library import library_folders
 from soacheck.parts import Part
 from soacheck.policy import Policy, resolve_policy
 from soacheck.quantities import DUTY, Quantity
@@ -45,16 +44,6 @@ TraceData: TypeAlias = "PathLike | pd.DataFrame | tuple[ArrayLike, ArrayLike, Ar
 Ramp: TypeAlias = SweepKind
 PolicyLike: TypeAlias = "Policy | str | Path | None"
 """A design-margin policy, a preset name (``"none"``, ``"bench"``) or the path of a policy file (TOML)."""
-
-
-def _folders(library: Library) -> list[Path]:
-    if library is None:
-        extra: list[PathLike] = []
-    elif isinstance(library, str | Path):
-        extra = [library]
-    else:
-        extra = list(library)
-    return library_folders(extra)
 
 
 def _pulse_s(pulse: Pulse, where: str = "--pulse") -> float:

@@ -11,7 +11,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from soacheck.api.base import Result, _least, _pd, _plots
-from soacheck.api.options import Library, PathLike, _folders
+from soacheck.api.libraries import _folders
+from soacheck.api.options import Library, PathLike
 from soacheck.errors import SoacheckError
 from soacheck.jsonvalues import jsonable
 from soacheck.outputs import check_output

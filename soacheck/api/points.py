@@ -1,4 +1,4 @@
-"""Parts and operating points: ``load_part``, ``parts``, ``allowed_current`` and ``check`` with its result."""
+"""Parts and operating points: ``load_part``, ``allowed_current`` and ``check`` with its result."""
 
 from __future__ import annotations
 
@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING, Any, overload
 import numpy as np
 
 from soacheck.api.base import CheckedResult, _plots
+from soacheck.api.libraries import _folders
 from soacheck.api.options import (
     ArrayLike,
     Library,
@@ -21,7 +22,6 @@ from soacheck.api.options import (
     _breakdown,
     _check_all,
     _duty,
-    _folders,
     _pulse_s,
     _under,
 )
@@ -30,7 +30,7 @@ from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.jobfiles import parse_each_once, read_points
 from soacheck.jsonvalues import Columns, json_bytes, json_chunks, jsonable
-from soacheck.library import PART_COLUMNS, find_part, part_rows
+from soacheck.library import find_part
 from soacheck.parts import Part
 from soacheck.points import PointCheck, check_points
 from soacheck.policy import least_margin, policy_of
@@ -67,27 +67,6 @@ def load_part(part: PartLike, *, library: Library = None) -> Part:
     if isinstance(part, Part):
         return part
     return find_part(str(part), _folders(library))
-
-
-def parts(*, library: Library = None) -> pd.DataFrame:
-    """Every part in the libraries (the first of each id), sorted by id.
-
-    Parameters
-    ----------
-    library
-        Folders of user part folders, searched before ``SOACHECK_LIBRARY`` and the bundled parts.
-
-    Returns
-    -------
-    pandas.DataFrame
-        One row per part: ``id``, ``kind``, ``v_max`` [V], ``i_max`` [A], ``p_max`` [W],
-        ``tj_max`` [°C], ``rth_jc`` [K/W], ``curves`` (list of pulse labels, DC last),
-        ``description``, ``folder``. ``soacheck parts --json`` prints
-        ``{"parts": frame.to_dict(orient="records")}``.
-    """
-    import pandas as pd
-
-    return pd.DataFrame(part_rows(_folders(library)), columns=list(PART_COLUMNS))
 
 
 @overload

@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from soacheck.api.base import CheckedResult, Result, _pd, _plots, _trajectory_on_soa
+from soacheck.api.libraries import _folders
 from soacheck.api.options import (
     Library,
     PolicyLike,
@@ -20,7 +21,6 @@ from soacheck.api.options import (
     Ramp,
     StageLike,
     _breakdown,
-    _folders,
     _pulse_s,
     _stage_under,
 )

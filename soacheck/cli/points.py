@@ -197,9 +197,9 @@ def check(
 @user_errors
 def parts(library: LibraryOpt = None, as_json: JsonOpt = False) -> None:
     """List the parts in the libraries, first match of each id."""
-    from soacheck.library import library_folders, part_rows  # soacheck.parts() without its DataFrame
+    import soacheck
 
-    rows = part_rows(library_folders(library or []))
+    rows = soacheck.part_rows(library=library)  # soacheck.parts() without its DataFrame: no numpy, no pandas
     if as_json:
         echo_json({"parts": rows})
         return
