@@ -13,7 +13,15 @@ from typing import Any
 from soacheck.glossary import JUNCTION_LIMITS, LIMITS, heading, unit
 
 PERCENT = frozenset(
-    {"margin", "margin_to_rating", "equal_share", "worst_share", "mean_worst_share", "runaway_fraction"}
+    {
+        "margin",
+        "margin_to_rating",
+        "equal_share",
+        "worst_share",
+        "mean_worst_share",
+        "runaway_fraction",
+        "hogging_fraction",
+    }
 )
 """Fractions shown as percentages in tables and plots (JSON keeps the fraction)."""
 

@@ -53,7 +53,10 @@ LIMITS: dict[str, str] = {
     "case_at_tj_max": "the case is at or above tj_max: nothing is allowed",
     "tj_ceiling": "the junction would exceed the design policy's temperature ceiling, below tj_max",
     "policy_voltage": "above the design policy's fraction of v_max",
-    "runaway": "paralleled devices have no stable shared state: electro-thermal runaway (current hogging)",
+    "runaway": (
+        "paralleled devices have no stable state, neither shared nor with one device taking the current: "
+        "electro-thermal runaway"
+    ),
     "dropout": "the stage's resistors alone would need more than the source voltage",
     "drive": "the base driver cannot supply the drive current the device needs",
     "unclassified": "a digitized segment whose slope names no mechanism, derated conservatively",
@@ -244,7 +247,14 @@ _TERMS = [
     _t("mean_worst_share", "1", "the worst device's share, averaged over the draws"),
     _t("worst_device_current", "A", "the worst device's current at the chosen percentile"),
     _t("percentile", "%", "percentile of the worst share reported"),
-    _t("runaway_fraction", "1", "fraction of random draws that run away thermally"),
+    _t("runaway_fraction", "1", "fraction of random draws that run away thermally (no stable state: limit runaway)"),
+    _t(
+        "hogging_fraction",
+        "1",
+        "fraction of random draws settled in a state where one device takes the current (current hogging): every "
+        "draw that settles where the matched devices' equal split cannot hold (see stage_gain_peak), and any whose "
+        "own shared state could not; their shares are that state's",
+    ),
     _t("draws", "", "Monte Carlo draws of the V_BE offsets"),
     _t("seed", "", "random seed, for a repeatable answer"),
     # parts

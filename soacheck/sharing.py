@@ -1,4 +1,4 @@
-"""Current sharing between parallel devices, the electro-thermal loop gain, and its spread.
+"""Current sharing between parallel devices, the electro-thermal loop gain and the whole set's stability.
 
 References
 ----------
@@ -11,13 +11,10 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 
 from soacheck.bipolar import THERMAL_VOLTAGE_V, VBE_TEMPCO_V_PER_K
-from soacheck.errors import SoacheckError
 from soacheck.mosfet import (
     TransferCurves,
     current_for_drive,
@@ -25,11 +22,7 @@ from soacheck.mosfet import (
     temperature_coefficient,
     transconductance,
 )
-from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory
 from soacheck.wright_omega import wright_omega
-
-if TYPE_CHECKING:
-    from soacheck.stage import Stage
 
 
 def share_current(
@@ -336,102 +329,3 @@ def _groups(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in rows])
     keep = np.unique(which, return_index=True)[1]
     return which, keep, np.bincount(which)
-
-
-@dataclass(frozen=True)
-class SharingSpread:
-    """The worst device's share of the total current over random V_BE offsets."""
-
-    percentile: float
-    worst_share: float
-    mean_share: float
-    equal_share: float
-    draws: int
-    runaway_fraction: float
-
-
-def sharing_margins(part, device_a: float) -> dict[str, object]:
-    """The worst device's current against the continuous current rating, under the part's policy and at rating.
-
-    ``margin`` = 1 − I/(f·i_max) with f the policy's current fraction (1 without one),
-    ``margin_to_rating`` = 1 − I/i_max, and the policy as its JSON object.
-    """
-    from soacheck.policy import policy_of
-
-    policy = policy_of(part.policy)
-    rated = part.ratings.i_max_a
-    return {
-        "margin": 1.0 - device_a / (policy.current_factor * rated),
-        "margin_to_rating": 1.0 - device_a / rated,
-        "policy": policy.to_dict(),
-    }
-
-
-def sharing_monte_carlo(
-    stage: Stage,
-    total_a: float,
-    source_v: float,
-    *,
-    draws: int = 10000,
-    percentile: float = 99.0,
-    seed: int = 0,
-    sink_c: float | None = None,
-    batch: int = 2000,
-    progress=None,
-) -> SharingSpread:
-    """Steady-state sharing over random V_BE offsets, uniform in the spread band.
-
-    Each draw is solved to its electro-thermal fixed point with the junctions at
-    sink + P·(rth_jc + R_cs) (the sink at ``sink_c``, or the stage's steady state at the
-    equal-sharing power). Vectorized over draws, in batches; ``progress(done, total)``
-    is called after each batch.
-    """
-    n = stage.count
-    DRAWS.check(draws, "draws")
-    # about 8 arrays of (devices, batch) float64 per batch; the work grows with devices x draws
-    check_memory(
-        8 * 8 * n * min(batch, draws),
-        f"Monte Carlo batches of {min(batch, draws)} draws of {n} devices",
-        "use fewer devices",
-    )
-    if n * draws > MAX_DEVICE_DRAWS:
-        raise SoacheckError(
-            f"{draws} draws of {n} devices is {n * draws:.3g} device solutions, more than the "
-            f"{MAX_DEVICE_DRAWS:.0e} soacheck does in one run (minutes of work); use fewer draws"
-        )
-    rng = np.random.default_rng(seed)
-    part = stage.part
-    r_cs = stage.cooling.case_sink_k_per_w if stage.cooling else 0.0
-    if sink_c is None:
-        if stage.cooling is not None:
-            c = stage.cooling
-            p_total = max(source_v - total_a * stage.series_ohm, 0.0) * total_a
-            sink_c = c.ambient_c + p_total * c.sink_ambient_k_per_w
-        else:
-            sink_c = stage.case_temp_c
-    rth = part.ratings.rth_jc_k_per_w + r_cs
-    shares, runaway = [], 0
-    done = 0
-    while done < draws:
-        size = min(batch, draws - done)
-        offsets = rng.uniform(0.0, stage.vbe_spread_v, (n, size))
-        total = np.full(size, float(total_a))
-        tj = np.full((n, size), float(sink_c))
-        cur = None
-        for _ in range(200):
-            cur = stage.share(total, tj, offsets, start_a=cur)  # Newton starts from the last step's sharing
-            vce = stage.device_voltage(source_v, total_a, cur)
-            tj_new = sink_c + rth * np.maximum(vce, 0) * cur
-            if np.max(np.abs(tj_new - tj)) < 1e-6:
-                break
-            tj = tj_new
-        # the whole set's exact condition, not one device's gain
-        runaway += int((stage.stability_gain(cur, vce, tj, z_self_k_per_w=rth) >= 1).sum())
-        shares.append(cur.max(axis=0) / total_a)
-        done += size
-        if progress is not None:
-            progress(done, draws)
-    share = np.concatenate(shares)
-    return SharingSpread(
-        percentile, float(np.percentile(share, percentile)), float(share.mean()), 1.0 / n, draws, runaway / draws
-    )

@@ -59,6 +59,7 @@ def steady_state(
     duty: float = 1.0,
     idle_a: np.ndarray | float = 0.0,
     sink: Literal["each", "worst"] = "each",
+    offsets_v: np.ndarray | None = None,
     max_iterations: int = 2000,
 ) -> SteadyState:
     """Each device at each operating point once the temperatures have settled.
@@ -77,6 +78,9 @@ def steady_state(
     sink
         ``each``: every point with the heatsink at its own steady state; ``worst``: every point
         with the heatsink at the steady state of the hottest point (an envelope's worst power).
+    offsets_v
+        V_BE (V_GS) offset of each device at each point, shape ``(n, m)`` (random draws); None:
+        the stage's worst case, Q1 at the bottom of the spread band and the others at its top. [V]
 
     Notes
     -----
@@ -84,7 +88,8 @@ def steady_state(
     the fixed case temperature), Tj_k = Tc_k + P_idle,k·Rth + (P_k − P_idle,k)·Z (superposition),
     solved together with the sharing as a fixed point, first from equal
     temperatures; where that state is unstable (:meth:`Stage.stability_gain` ≥ 1), again
-    from Q1 hot, and that state is taken where it settles and is stable.
+    with the device of the lowest offset hot (Q1 in the worst case), and that state is taken
+    where it settles and is stable.
     """
     part = stage.part
     src = np.asarray(source_v, dtype=float)
@@ -101,17 +106,19 @@ def steady_state(
     z_shared = cooling.sink_ambient_k_per_w * average if cooling and sink == "each" else 0.0
     # Q1 and the others alike: two rows, the second standing for n − 1 devices (the same
     # equations, solved once); not where a FET without ballast or curves hands one device everything
-    alike = n > 2 and (part.is_bipolar or stage.ballast_ohm > 0 or part.transfer is not None)
+    alike = offsets_v is None and n > 2 and (part.is_bipolar or stage.ballast_ohm > 0 or part.transfer is not None)
     which = np.minimum(np.arange(n), 1) if alike else np.arange(n)
     counts = np.bincount(which).astype(float)
-    offsets = stage.offsets_v[: counts.size]
+    given = stage.offsets_v[: counts.size, None] if offsets_v is None else np.asarray(offsets_v, dtype=float)
+    offsets = np.broadcast_to(given, (counts.size, m))
+    lowest = np.argmin(offsets, axis=0)  # the device that takes the current where the shared state cannot hold
     start_c = np.full((counts.size, m), cooling.ambient_c if cooling else stage.case_temp_c)
 
-    law = {"z": z, "rth": rth, "average": average, "sink": sink, "offsets": offsets, "counts": counts}
+    law = {"z": z, "rth": rth, "average": average, "sink": sink, "counts": counts}
     gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared, "counts": counts}
 
     def step_for(cols: np.ndarray) -> Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]:
-        return _relaxation_step(stage, src[cols], total[cols], idle_total[cols], **law)
+        return _relaxation_step(stage, src[cols], total[cols], idle_total[cols], offsets=offsets[:, cols], **law)
 
     def fast(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
         """Accelerated; settled only where plain relaxation converges too (every eigenvalue inside the unit circle)."""
@@ -134,7 +141,7 @@ def steady_state(
         hogging = np.zeros(start.shape[1], dtype=bool)
         if unstable.any():
             hot = start.copy()
-            hot[0] += HOG_START_K
+            hot[lowest[cols], np.arange(hot.shape[1])] += HOG_START_K
             other, other_settled, other_gain = solve(hot, cols)
             hogging = unstable & other_settled & (other_gain < 1.0)
             state = tuple(np.where(hogging, b, a) for a, b in zip(state, other, strict=True))
@@ -187,7 +194,8 @@ def _relaxation_step(
     ``counts[k]`` alike devices.
 
     ``src``, ``total`` and ``idle_total`` are the source voltage [V], the total pulse current [A]
-    and the total standing current [A] at each point ``(m,)``; ``z`` is the junction's rise per watt
+    and the total standing current [A] at each point ``(m,)``, ``offsets`` each row's offset at
+    each point ``(rows, m)`` [V]; ``z`` is the junction's rise per watt
     of the pulse, ``rth`` per watt standing [K/W]; ``average`` the duty the heatsink averages over [1].
     Each step's sharing starts Newton from the previous step's currents.
     """

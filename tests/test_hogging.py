@@ -118,6 +118,19 @@ def bjt(tmp_path):
     return read_part(write_part(tmp_path / "bjt"))  # rth_jc 1.0 K/W, tj_max 150 °C, no thermal model
 
 
+def hog_split(volts: float) -> tuple[float, float]:
+    """The matched pair's stable state with Q1 taking the current, 3 A at ``volts`` on cases held at 25 °C,
+    rth_jc 1 K/W, no emitter resistors: x = ln I₂, I₁ = 3 − eˣ, V_T ln(I₁/I₂) = |φ|·V·(I₁ − I₂), by brentq. [A]"""
+    vt = THERMAL_VOLTAGE_V
+    x = scipy.optimize.brentq(
+        lambda x: vt * (math.log(3 - math.exp(x)) - x) - abs(PHI) * volts * (3 - 2 * math.exp(x)),
+        -volts,
+        0.0,
+        xtol=1e-14,
+    )
+    return 3 - math.exp(x), math.exp(x)
+
+
 def test_past_runaway_one_device_takes_the_current(bjt):
     """Two matched bipolars, no emitter resistors, 3 A at 60 V on a case held at 25 °C.
 
@@ -125,14 +138,12 @@ def test_past_runaway_one_device_takes_the_current(bjt):
     state: x = ln I₂, I₁ = 3 − eˣ, with V_T ln(I₁/I₂) = |φ|·(T₁ − T₂) = |φ|·60·(I₁ − I₂), by brentq.
     """
     vt = THERMAL_VOLTAGE_V
-    x = scipy.optimize.brentq(
-        lambda x: vt * (math.log(3 - math.exp(x)) - x) - abs(PHI) * 60 * (3 - 2 * math.exp(x)), -60, 0.0, xtol=1e-14
-    )
+    i1, i2 = hog_split(60.0)
     stage = Stage(bjt, 2, case_temp_c=25.0)
     state = steady_state(stage, np.array([60.0]), np.array([3.0]))
     assert state.hogging[0] and not state.runaway_at[0]
-    assert state.device_a[1, 0] == pytest.approx(math.exp(x), rel=1e-4)
-    assert state.device_a[0, 0] == pytest.approx(3 - math.exp(x), rel=1e-9)
+    assert state.device_a[1, 0] == pytest.approx(i2, rel=1e-4)
+    assert state.device_a[0, 0] == pytest.approx(i1, rel=1e-9)
     assert state.stage_gain[0] < 1
     # the equal split would have been reported before: its gain, by the closed form above
     equal = stability_gain(
@@ -237,3 +248,82 @@ def test_a_stage_file_drive_limit_fails_a_sweep_with_the_limit_drive(tmp_path):
     hfe = 800 * (12 / 10) ** (math.log(300 / 800) / math.log(1.5))
     assert payload["drive_current_peak"] == pytest.approx(12 / (hfe + 1), rel=1e-6)
     assert payload["limit"] == "drive"
+
+
+# --------------------------------------------------------------------------- the sharing command's hog state
+
+
+def sharing_json(tmp_path, stage_text: str, *args: str) -> tuple[int, dict, str]:
+    """``soacheck sharing`` on a stage file written beside the ``bjt`` part folder: exit code, JSON, text output."""
+    import json
+
+    from typer.testing import CliRunner
+
+    from soacheck.cli import app
+
+    stage = tmp_path / "stage.toml"
+    stage.write_text(stage_text)
+    runner = CliRunner(env={"COLUMNS": "120"})
+    as_json = runner.invoke(app, ["sharing", str(stage), *args, "--draws", "200", "--json"])
+    text = runner.invoke(app, ["sharing", str(stage), *args, "--draws", "200"])
+    assert as_json.exit_code == text.exit_code, as_json.output + text.output
+    return as_json.exit_code, json.loads(as_json.stdout), text.stdout
+
+
+def test_sharing_of_a_stable_pair_reports_the_closed_form_stage_gain(bjt, tmp_path):
+    """Two matched bipolars with 0.1 Ω emitter resistors, 4 A at 20 V, cases held at 25 °C, rth_jc 1 K/W.
+
+    Each carries 2 A; by the pair's eigenvalue above, Z|φ|(d₁ + d₂)/(r₁ + r₂) with d = V − I·R_E =
+    (20 − 2·0.1) − 2·0.1 = 19.6 V and r = R_E + V_T/I = 0.1 + V_T/2, so G = 0.002·19.6/r = 0.347 < 1:
+    the shared state holds, no draw hogs or runs away, exit code 0.
+    """
+    code, payload, text = sharing_json(
+        tmp_path, 'part = "bjt"\ncount = 2\nballast = 0.1\ncase_temp = 25\n', "-i", "4", "-v", "20"
+    )
+    assert code == 0, text
+    expected = abs(PHI) * 19.6 / (0.1 + THERMAL_VOLTAGE_V / 2.0)
+    assert payload["stage_gain_peak"] == pytest.approx(expected, rel=1e-6)
+    assert (payload["verdict"], payload["hogging_fraction"], payload["runaway_fraction"]) == ("pass", 0.0, 0.0)
+    assert payload["worst_share"] == pytest.approx(0.5, rel=1e-9)
+    assert "stage gain peak 0.347" in text and "hogging fraction 0.0 %" in text and "PASS" in text
+
+
+def test_sharing_past_runaway_reports_hogging_and_the_share_of_the_hog(bjt, tmp_path):
+    """The matched pair of ``test_past_runaway_one_device_takes_the_current``: 3 A at 60 V, no emitter resistors.
+
+    The equal split's eigenvalue is 7.0 ≥ 1: every draw settles where Q1 takes I₁ of the current (hog_split),
+    a stable state whose eigenvalue |φ|·Z·(60 + 60)/(V_T/I₁ + V_T/I₂) is below 1. The command reports
+    hogging in every draw, the hog's share and that gain, and passes (nothing runs away).
+    """
+    vt = THERMAL_VOLTAGE_V
+    i1, i2 = hog_split(60.0)
+    code, payload, text = sharing_json(tmp_path, 'part = "bjt"\ncount = 2\ncase_temp = 25\n', "-i", "3", "-v", "60")
+    assert code == 0, text
+    assert payload["hogging_fraction"] == 1.0 and payload["runaway_fraction"] == 0.0
+    assert payload["worst_share"] == pytest.approx(i1 / 3, rel=1e-6)
+    assert payload["stage_gain_peak"] == pytest.approx(abs(PHI) * 120 / (vt / i1 + vt / i2), rel=1e-4)
+    assert payload["stage_gain_peak"] < 1
+    assert "hogging fraction 100.0 %" in text and "takes the current" in text
+
+
+def test_with_a_spread_every_draw_hogs_at_least_as_hard_as_the_matched_pair(bjt):
+    """The same pair with a 5 mV spread: the device of the lower V_BE hogs, and its offset Δ ≥ 0 only adds to
+    V_T ln(I₁/I₂) = |φ|·60·(I₁ − I₂) + Δ, so every draw's worst share is at least the matched hog's (brentq)."""
+    import soacheck
+
+    stage = Stage(bjt, 2, case_temp_c=25.0, vbe_spread_v=0.005)
+    result = soacheck.sharing(stage, current=3.0, voltage=60.0, draws=500, percentile=1.0)
+    assert result.spread.hogging_fraction == 1.0 and result.passed
+    assert result.spread.worst_share >= hog_split(60.0)[0] / 3 * (1 - 1e-9)
+
+
+def test_sharing_exits_1_where_the_set_runs_away(bjt, tmp_path):
+    """The matched pair at 400 V, 3 A: the equal split's eigenvalue 400·0.002/(V_T/1.5 A) = 46.7 ≥ 1, and the only
+    stable state left, Q1 taking I₁ (hog_split at 400 V), puts its junction at 25 + 400·I₁·1 K/W ≈ 1225 °C,
+    far past any tj_max, where soacheck abandons a fixed point (1000 °C): no stable state, limit runaway, exit 1."""
+    assert 25 + 400 * hog_split(400.0)[0] * 1.0 > 1000.0
+    assert 400 * abs(PHI) / (THERMAL_VOLTAGE_V / 1.5) >= 1
+    code, payload, text = sharing_json(tmp_path, 'part = "bjt"\ncount = 2\ncase_temp = 25\n', "-i", "3", "-v", "400")
+    assert code == 1, text
+    assert (payload["verdict"], payload["limit"], payload["runaway_fraction"]) == ("fail", "runaway", 1.0)
+    assert "FAIL" in text and "run away thermally (limit runaway)" in text

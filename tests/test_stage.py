@@ -19,7 +19,8 @@ from soacheck.battery import PRESETS, Battery, Chemistry, discharge, discharge_c
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
 from soacheck.partfiles import read_part
-from soacheck.sharing import loop_gain, share_current, sharing_monte_carlo
+from soacheck.sharing import loop_gain, share_current
+from soacheck.sharing_spread import sharing_monte_carlo
 from soacheck.stage import Stage
 from soacheck.stage_run import run_stage
 

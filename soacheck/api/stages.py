@@ -46,7 +46,7 @@ from soacheck.quantities import (
     SETPOINT,
     VOLTAGE,
 )
-from soacheck.sharing import SharingSpread, sharing_margins, sharing_monte_carlo
+from soacheck.sharing_spread import SharingSpread, sharing_margins, sharing_monte_carlo
 from soacheck.stage import Stage
 from soacheck.stage_run import StageRun, run_stage, setpoint_limits
 
@@ -266,7 +266,9 @@ def sharing(
     Returns
     -------
     SharingResult
-        ``verdict`` ``fail`` when any draw runs away thermally.
+        ``verdict`` ``fail`` when any draw runs away thermally (no stable state, neither shared
+        nor with one device taking the current); ``hogging_fraction``, the draws in which one
+        device takes the current, and ``stage_gain_peak``, as the other stage jobs report it.
     """
     CURRENT.check(current, "--current")
     VOLTAGE.check(voltage, "--voltage")
@@ -363,9 +365,12 @@ class StageRunResult(CheckedResult):
 class SharingResult(Result):
     """How unevenly the devices of a stage share a current, over random V_BE offsets (``sharing``).
 
-    The verdict fails when any draw runs away thermally; ``margin`` is then −inf and
-    ``limit`` is ``runaway``. Otherwise the margin is the worst device's current against its
-    continuous rating at the percentile reported.
+    Each draw is settled as every stage job settles its points: where its shared state cannot
+    hold (``stage_gain_peak`` 1 or more), the stable state with one device taking the current
+    is taken (``hogging_fraction`` counts those draws); a draw with no stable state runs away.
+    The verdict fails when any draw runs away (``runaway_fraction`` above 0); ``margin`` is then
+    −inf and ``limit`` is ``runaway``. Otherwise the margin is the worst device's current
+    against its continuous rating at the percentile reported.
     """
 
     stage: Stage
@@ -394,7 +399,17 @@ class SharingResult(Result):
         return (
             f"V_BE offsets uniform in a band of {self.stage.vbe_spread_v * 1e3:g} mV, {self.spread.draws} draws, "
             f"seed {self.seed}",
-            "each draw at its electro-thermal steady state; junctions at the heatsink (or case) plus P·(rth_jc + R_cs)",
+            "each draw at its electro-thermal steady state; junctions at the heatsink (or case) plus "
+            "P·(rth_jc + R_cs), the heatsink at its steady state under the devices' total power",
+            *(
+                ()
+                if not self.spread.hogging_fraction
+                else (
+                    f"in {self.spread.hogging_fraction:.1%} of draws the shared state is unstable (the whole set's "
+                    "electro-thermal Jacobian has an eigenvalue ≥ 1): the state in which the device of the lowest "
+                    "V_BE takes the current is reported",
+                )
+            ),
         )
 
     def to_dict(self) -> dict[str, Any]:
@@ -403,12 +418,16 @@ class SharingResult(Result):
             {
                 "stage": self.stage_label,
                 "count": self.stage.count,
+                "verdict": self.verdict,
+                "limit": self.limit,
                 "equal_share": s.equal_share,
                 "worst_share": s.worst_share,
                 "percentile": s.percentile,
                 "mean_worst_share": s.mean_share,
                 "worst_device_current": s.worst_share * self.current_a,
                 "runaway_fraction": s.runaway_fraction,
+                "hogging_fraction": s.hogging_fraction,
+                "stage_gain_peak": s.stage_gain_peak,
                 "draws": s.draws,
                 "seed": self.seed,
                 **sharing_margins(self.stage.part, s.worst_share * self.current_a),

@@ -24,7 +24,9 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.cli.tables import print_assumptions, print_verdict, quantity_table, under_policy
+from soacheck.display import value_text
 from soacheck.filemarks import save_figure
+from soacheck.glossary import words
 
 if TYPE_CHECKING:
     from soacheck.api.stages import StageRunResult
@@ -176,6 +178,12 @@ def sharing(
             f"{percentile:g}th percentile of {draws} draws; equal sharing would be {spread.equal_share:.1%}.",
             highlight=False,
         )
-        if spread.runaway_fraction:
-            console.print(f"[bold red]{spread.runaway_fraction:.1%} of draws run away thermally[/]")
-    raise typer.Exit(1 if spread.runaway_fraction else 0)
+        stability = ("stage_gain_peak", "hogging_fraction", "runaway_fraction")
+        console.print("; ".join(f"{words(k)} {value_text(k, payload[k])}" for k in stability), highlight=False)
+        print_assumptions(console, result.assumptions)
+        console.print(
+            "[green]PASS[/]"
+            if result.passed
+            else f"[bold red]FAIL[/]: {spread.runaway_fraction:.1%} of draws run away thermally (limit runaway)"
+        )
+    raise typer.Exit(0 if result.passed else 1)

@@ -1,0 +1,169 @@
+"""How unevenly paralleled devices share over random V_BE offsets, and whether each draw holds.
+
+Each draw of offsets, uniform in the stage's spread band, is one operating point of
+:func:`~soacheck.steady_state.steady_state`: the settled sharing, and where the shared state
+cannot hold (the whole set's electro-thermal Jacobian has an eigenvalue at or above 1) the
+stable state in which one device takes the current (hogging), else runaway: the same states,
+found the same way, as every other stage job reports.
+
+Whether the shared state can hold is a property of the set at the operating point, decided
+on the matched set (no offsets), whose shared state is the equal split: with offsets the
+relaxation may settle straight into the state where the device of the lowest V_BE takes the
+current, without passing the shared state it replaces.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from soacheck.errors import SoacheckError
+from soacheck.parts import Part
+from soacheck.policy import policy_of
+from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
+from soacheck.stage import Stage
+from soacheck.steady_state import steady_state
+
+
+@dataclass(frozen=True)
+class SharingSpread:
+    """The worst device's share of the total current over random V_BE offsets, and the draws' stability.
+
+    Attributes
+    ----------
+    percentile
+        Percentile of the worst share reported, in (0, 100]. [%]
+    worst_share, mean_share, equal_share
+        The worst device's share at that percentile and averaged over the draws; each
+        device's share if all shared evenly. [1]
+    draws
+        Draws of the offsets.
+    runaway_fraction
+        Draws with no stable state, neither shared nor with one device taking the current. [1]
+    hogging_fraction
+        Draws settled in a state where one device takes the current: all that settle where the
+        matched set's shared state cannot hold, and any whose own shared state could not. [1]
+    stage_gain_peak
+        The highest stability gain over the draws (of the state reported: where a draw hogs,
+        that state's). [1]
+    """
+
+    percentile: float
+    worst_share: float
+    mean_share: float
+    equal_share: float
+    draws: int
+    runaway_fraction: float
+    hogging_fraction: float = 0.0
+    stage_gain_peak: float = 0.0
+
+
+def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
+    """The worst device's current against the continuous current rating, under the part's policy and at rating.
+
+    ``margin`` = 1 − I/(f·i_max) with f the policy's current fraction (1 without one),
+    ``margin_to_rating`` = 1 − I/i_max, and the policy as its JSON object.
+    """
+    policy = policy_of(part.policy)
+    rated = part.ratings.i_max_a
+    return {
+        "margin": 1.0 - device_a / (policy.current_factor * rated),
+        "margin_to_rating": 1.0 - device_a / rated,
+        "policy": policy.to_dict(),
+    }
+
+
+BATCH_DRAWS = 2000
+"""Draws solved together at most (fewer where the devices' arrays would pass the memory budget)."""
+
+
+def _bytes_per_draw(count: int) -> int:
+    """Memory one draw of ``count`` devices takes in :func:`steady_state`: about 32 arrays of (devices,)
+    (the fixed point's history and state) and 3 of (devices, devices) (the Jacobian and its
+    eigenvalue solver), float64. [bytes]"""
+    return 8 * (32 * count + 3 * count * count)
+
+
+def sharing_monte_carlo(
+    stage: Stage,
+    total_a: float,
+    source_v: float,
+    *,
+    draws: int = 10000,
+    percentile: float = 99.0,
+    seed: int = 0,
+    progress: Callable[[int, int], None] | None = None,
+) -> SharingSpread:
+    """Steady-state sharing over random V_BE offsets, uniform in the spread band.
+
+    Parameters
+    ----------
+    stage
+        The stage: its part, count, resistors, cooling and spread band.
+    total_a
+        Total current. [A]
+    source_v
+        Source voltage at the load's input. [V]
+    draws
+        Draws of the offsets, at most :data:`~soacheck.quantities.MAX_DEVICE_DRAWS` device solutions.
+    percentile
+        Percentile of the worst device's share to report, in (0, 100]. [%]
+    seed
+        Random seed: the same seed gives the same draws.
+    progress
+        Called as ``progress(draws done, draws)`` after each batch.
+
+    Returns
+    -------
+    SharingSpread
+        The shares, and the fractions of draws that hog or run away.
+
+    Notes
+    -----
+    Each draw is a DC operating point of :func:`~soacheck.steady_state.steady_state` with its
+    own offsets: junctions at case + P·rth_jc, cases P·R_cs above the heatsink, the heatsink at
+    its steady state under the devices' total power (or the cases held). Vectorized over draws,
+    in batches of at most :data:`BATCH_DRAWS`. The matched set at the same point is settled once
+    the same way: where its equal split is unstable, every draw that settles is hogging.
+    """
+    n = stage.count
+    DRAWS.check(draws, "draws")
+    if n * draws > MAX_DEVICE_DRAWS:
+        raise SoacheckError(
+            f"{draws} draws of {n} devices is {n * draws:.3g} device solutions, more than the "
+            f"{MAX_DEVICE_DRAWS:.0e} soacheck does in one run (minutes of work); use fewer draws"
+        )
+    batch = max(1, min(BATCH_DRAWS, draws, memory_budget_bytes() // _bytes_per_draw(n)))
+    check_memory(batch * _bytes_per_draw(n), f"Monte Carlo draws of {n} devices", "use fewer devices")
+    point_v, point_a = np.array([float(source_v)]), np.array([float(total_a)])
+    matched = steady_state(dataclasses.replace(stage, vbe_spread_v=0.0), point_v, point_a)
+    cannot_share = bool(matched.runaway_at[0] or (matched.hogging is not None and matched.hogging[0]))
+    rng = np.random.default_rng(seed)
+    shares, gains, runaway, hogging = [], [], 0, 0
+    done = 0
+    while done < draws:
+        size = min(batch, draws - done)
+        offsets = rng.uniform(0.0, stage.vbe_spread_v, (n, size))
+        state = steady_state(stage, np.full(size, float(source_v)), np.full(size, float(total_a)), offsets_v=offsets)
+        runaway += int(state.runaway_at.sum())
+        own = state.hogging if state.hogging is not None else np.zeros(size, dtype=bool)
+        hogging += int((own | (cannot_share & ~state.runaway_at)).sum())
+        gains.append(state.stage_gain if state.stage_gain is not None else np.zeros(size))
+        shares.append(state.device_a.max(axis=0) / total_a)
+        done += size
+        if progress is not None:
+            progress(done, draws)
+    share = np.concatenate(shares)
+    return SharingSpread(
+        percentile,
+        float(np.percentile(share, percentile)),
+        float(share.mean()),
+        1.0 / n,
+        draws,
+        runaway / draws,
+        hogging / draws,
+        float(np.max(np.concatenate(gains))),
+    )
