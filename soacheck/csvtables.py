@@ -87,6 +87,19 @@ def _sniff(path: Path) -> tuple[str, list[str]]:
     return sep, names
 
 
+def fields_message(path: Path, sep: str, error: str, lines_before: int = 0) -> str:
+    """The message for pandas' complaint ``error`` about a line with more fields than the header;
+    ``lines_before`` lines of the file came before the text pandas was given."""
+    found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", error)
+    detail = (
+        f"line {int(found.group(2)) + lines_before} has {found.group(3)} fields where the header has {found.group(1)}"
+        if found
+        else "a row has more fields than the header"
+    )
+    hint = "; a spreadsheet export with decimal commas must separate columns with ';'" if sep == "," else ""
+    return f"{path}: {detail}{hint}"
+
+
 def read_table(
     path: str | Path,
     *,
@@ -149,14 +162,7 @@ def read_table(
             encoding="utf-8-sig",
         )
     except pd.errors.ParserError as err:
-        found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(err))
-        detail = (
-            f"line {found.group(2)} has {found.group(3)} fields where the header has {found.group(1)}"
-            if found
-            else "a row has more fields than the header"
-        )
-        hint = "; a spreadsheet export with decimal commas must separate columns with ';'" if sep == "," else ""
-        raise SoacheckError(f"{path}: {detail}{hint}") from None
+        raise SoacheckError(fields_message(path, sep, str(err))) from None
     raw.columns = [c.strip().lower() for c in raw.columns]
     if raw.empty:
         raise SoacheckError(f"{path}: the file has a header but no rows; add at least one row")
