@@ -14,6 +14,7 @@ from soacheck.battery import Trajectory
 from soacheck.csvtables import _sniff
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
+from soacheck.thermal_response import step_range
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -32,11 +33,18 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
     """
     path = Path(path)
     if path.suffix.lower() in (".parquet", ".pq"):
-        chunks = _read_ahead(_parquet_chunks(path, chunk_rows))
-    else:
-        chunks = _read_ahead(_csv_chunks(path, chunk_rows))
+        read = _parquet_chunks(path, chunk_rows)
+    else:  # parsed on several threads (soacheck.csvblocks)
+        read = _csv_chunks(path, chunk_rows)
+    chunks = _read_ahead(_vetted(path, read))  # read and vetted ahead of the caller's work on the chunk before
     with contextlib.closing(chunks):
-        yield from _checked_chunks(path, chunks)
+        yield from chunks
+
+
+def _vetted(path: Path, read):
+    """:func:`_checked_chunks` of ``read``, which is closed with it (its parsing threads stop)."""
+    with contextlib.closing(read):
+        yield from _checked_chunks(path, read)
 
 
 def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: int = 1_000_000):
@@ -55,10 +63,10 @@ def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: i
 
 
 def _read_ahead(chunks):
-    """The same chunks, the next one read in a thread while the caller works on this one.
+    """The same chunks, the next one made in a thread while the caller works on this one.
 
-    Parsing CSV and decoding Parquet release the GIL, as does most of the check's array
-    work, so on two cores reading and checking overlap. At most one chunk waits in the
+    Parsing CSV and decoding Parquet release the GIL, as does most of the array work of
+    vetting the samples and of the check, so on two cores reading and checking overlap. At most one chunk waits in the
     queue, so memory stays at a few chunks whatever the length of the file. An error while
     reading is raised in the caller at the chunk where it happened; closing the generator
     stops the thread.
@@ -113,7 +121,7 @@ def _clean(t: np.ndarray, v: np.ndarray, i: np.ndarray, last_t: float | None) ->
     quantities = (TIME, SAMPLE_VOLTAGE, SAMPLE_CURRENT)  # their ranges exclude negative voltage and current
     if not all(q.holds(x) for q, x in zip(quantities, (t, v, i), strict=True)):
         return False
-    rising = t.size < 2 or np.diff(t).min() > 0
+    rising = t.size < 2 or step_range(t)[0] > 0  # a block at a time, no array of every step (a NaN step is not > 0)
     return bool(rising and (last_t is None or t[0] > last_t))
 
 
@@ -164,8 +172,8 @@ def _checked_chunks(path: Path | str, chunks):
         raise SoacheckError(f"{path}: the trace has a header but no samples")
 
 
-def _csv_chunks(path: Path, chunk_rows: int):
-    import pandas as pd  # deferred: a command that reads no table starts without it
+def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
+    from soacheck.csvblocks import CsvLayout, numeric_chunks
 
     sep, names = _sniff(path)
     for name in names:
@@ -177,27 +185,8 @@ def _csv_chunks(path: Path, chunk_rows: int):
     for name in TRACE_COLUMNS:
         if name not in names:
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
-    decimal = "," if sep == ";" else "."
-    offset = 0
-    with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
-        for raw in reader:
-            raw.columns = [c.strip().lower() for c in raw.columns]
-            columns = []
-            for name in TRACE_COLUMNS:
-                if pd.api.types.is_numeric_dtype(raw[name]):
-                    columns.append(raw[name].to_numpy(dtype=float))
-                    continue
-                numbers = pd.to_numeric(raw[name], errors="coerce")
-                bad = np.flatnonzero(numbers.isna().to_numpy() & raw[name].notna().to_numpy())
-                if bad.size:
-                    k = int(bad[0])
-                    raise SoacheckError(
-                        f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; "
-                        "write a plain number"
-                    )
-                columns.append(numbers.to_numpy(dtype=float))
-            offset += len(raw)
-            yield tuple(columns)
+    layout = CsvLayout(sep, "," if sep == ";" else ".", names)
+    return numeric_chunks(path, layout, TRACE_COLUMNS, chunk_rows, threads=threads)
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):

@@ -191,17 +191,24 @@ def test_time_going_backwards_across_a_chunk_border_is_caught(tmp_path):
     assert result.exit_code == 2 and "data row 3" in result.stderr, result.output
 
 
-def test_a_trace_read_ahead_stops_its_reader_when_the_check_stops_early(tmp_path):
-    # the next chunk is read in a thread; leaving after the first chunk must not leave it running
+@pytest.mark.parametrize("suffix", [".csv", ".parquet"])
+def test_a_trace_read_ahead_stops_its_reader_when_the_check_stops_early(tmp_path, suffix):
+    # the next chunks are read in threads; leaving after the first chunk must not leave one running
     import threading
 
-    path = tmp_path / "long.csv"
+    path = tmp_path / f"long{suffix}"
     t = np.arange(5000) * 1e-3
-    pd.DataFrame({"time": t, "voltage": 10.0, "current": 1.0}).to_csv(path, index=False)
+    frame = pd.DataFrame({"time": t, "voltage": 10.0, "current": 1.0})
+    if suffix == ".csv":
+        frame.to_csv(path, index=False)
+    else:
+        pytest.importorskip("pyarrow")
+        frame.to_parquet(path)
     chunks = iter_trace(path, chunk_rows=100)
     next(chunks)
     chunks.close()
-    assert not [thread for thread in threading.enumerate() if thread.name == "soacheck-trace-reader"]
+    readers = ("soacheck-trace", "soacheck-csv")
+    assert not [thread for thread in threading.enumerate() if thread.name.startswith(readers)]
 
 
 def test_a_bad_value_in_a_late_chunk_read_ahead_names_its_row(tmp_path):
