@@ -16,7 +16,7 @@ against ``pyarrow.parquet.read_table`` (target: at most 3x). Ratios, not seconds
 machines are shared and noisy: the reference and the check take turns over ``--runs``
 rounds and the best of each is kept.
 
-Run: ``python benchmarks/trace_check.py [--samples N] [--runs N] [--no-files]``.
+Run: ``python benchmarks/trace_check.py [--samples N] [--runs N] [--no-files | --files-only]``.
 """
 
 from __future__ import annotations
@@ -77,13 +77,14 @@ def main() -> None:
     parser.add_argument("--samples", type=int, default=10_000_000)
     parser.add_argument("--chunk", type=int, default=1_000_000)
     parser.add_argument("--no-files", action="store_true", help="skip the end-to-end runs from CSV and Parquet")
+    parser.add_argument("--files-only", action="store_true", help="only the end-to-end runs from CSV and Parquet")
     parser.add_argument("--runs", type=int, default=5, help="rounds; the best of each is kept (shared machines)")
     args = parser.parse_args()
     part = read_part(bundled_library() / "demo-npn-to3-250w")  # invented demo part, 4-term Foster network
     n = args.samples
     waveforms = {f"{p:.0%} above DC": (lambda p=p: above_dc(part, n, p)) for p in (0.0, 0.1, 0.3)}
     waveforms["pulsed 8 A, 1 ms in 10 ms, 40 V"] = lambda: pulsed(n)
-    for name, make in waveforms.items():
+    for name, make in waveforms.items() if not args.files_only else ():
         t, v, i = make()
         share = float(np.mean(i > allowed_current(v, part, tc_c=CASE_C).current_a)) if n <= 2e7 else float("nan")
         result = check_arrays(part, t, v, i, args.chunk)  # warm-up, and the answer

@@ -8,7 +8,6 @@ References
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass
 
@@ -80,44 +79,21 @@ def temperature_rise(
     step = (t[-1] - t[0]) / (t.size - 1) if t.size > 1 else 0.0
     a = np.exp(-step / network.tau_s)
     b = network.r_k_per_w * (1.0 - a)
+    out = None
     last = np.empty_like(theta0)
-
-    def run(group: tuple[int, ...]) -> np.ndarray:
+    for group in _pairs(a, t.size):
         if len(group) == 2:
             i, j = group
             y, last[i], last[j] = _pair_uniform(p, a[i], b[i], theta0[i], a[j], b[j], theta0[j])
-            return y
-        (i,) = group
-        y = _branch_uniform(p, a[i], b[i], theta0[i])
-        last[i] = y[-1]
-        return y
-
-    groups = _pairs(a, t.size)
-    if not groups:
-        return np.zeros(t.size), ThermalState(last)
-    if t.size >= _SHARED_SAMPLES and len(groups) > 1:
-        # lfilter releases the GIL: on a long chunk the other groups run on a second core meanwhile
-        later = [_helper().submit(run, g) for g in groups[1:]]
-        out = run(groups[0])
-        rest = [future.result() for future in later]
-    else:
-        out = run(groups[0])
-        rest = [run(g) for g in groups[1:]]
-    for y in rest:  # summed in the order of the groups, whichever thread ran them
-        out += y
-    return out, ThermalState(last)
-
-
-_SHARED_SAMPLES = 1 << 16
-"""Samples from which a chunk's filter passes are shared with a second thread."""
-
-
-@functools.cache
-def _helper():
-    """One thread that runs filter passes beside the caller's (made when first needed)."""
-    from concurrent.futures import ThreadPoolExecutor
-
-    return ThreadPoolExecutor(max_workers=1, thread_name_prefix="soacheck-thermal")
+        else:
+            (i,) = group
+            y = _branch_uniform(p, a[i], b[i], theta0[i])
+            last[i] = y[-1]
+        if out is None:
+            out = y
+        else:
+            out += y
+    return (np.zeros(t.size) if out is None else out), ThermalState(last)
 
 
 _STEP_BLOCK = 1 << 15

@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from soacheck.battery import Trajectory
-from soacheck.csvtables import _sniff
+from soacheck.csvtables import _sniff, fields_message
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 from soacheck.thermal_response import step_range
@@ -34,7 +34,7 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
     path = Path(path)
     if path.suffix.lower() in (".parquet", ".pq"):
         read = _parquet_chunks(path, chunk_rows)
-    else:  # parsed on several threads (soacheck.csvblocks)
+    else:
         read = _csv_chunks(path, chunk_rows)
     chunks = _read_ahead(_vetted(path, read))  # read and vetted ahead of the caller's work on the chunk before
     with contextlib.closing(chunks):
@@ -172,8 +172,8 @@ def _checked_chunks(path: Path | str, chunks):
         raise SoacheckError(f"{path}: the trace has a header but no samples")
 
 
-def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
-    from soacheck.csvblocks import CsvLayout, numeric_chunks
+def _csv_chunks(path: Path, chunk_rows: int):
+    import pandas as pd  # deferred: a command that reads no table starts without it
 
     sep, names = _sniff(path)
     for name in names:
@@ -185,8 +185,50 @@ def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
     for name in TRACE_COLUMNS:
         if name not in names:
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
-    layout = CsvLayout(sep, "," if sep == ";" else ".", names)
-    return numeric_chunks(path, layout, TRACE_COLUMNS, chunk_rows, threads=threads)
+    decimal = "," if sep == ";" else "."
+    offset = 0
+    try:
+        with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
+            for raw in reader:
+                if offset == 0 and not isinstance(raw.index, pd.RangeIndex):
+                    # a first row wider than the header: pandas takes the extra fields as an index
+                    # (its "implicit index") and shifts the columns instead of refusing the row
+                    error = f"Expected {len(raw.columns)} fields in line {_first_data_line(path)}, saw "
+                    raise SoacheckError(fields_message(path, sep, error + str(len(raw.columns) + raw.index.nlevels)))
+                raw.columns = [c.strip().lower() for c in raw.columns]
+                yield tuple(_numbers(path, raw, name, offset) for name in TRACE_COLUMNS)
+                offset += len(raw)
+    except pd.errors.ParserError as err:  # a later row wider than the header; pandas counts file lines
+        raise SoacheckError(fields_message(path, sep, str(err))) from None
+    except UnicodeDecodeError:
+        raise SoacheckError(f"{path}: is not a UTF-8 text file; save it as CSV (UTF-8)") from None
+
+
+def _numbers(path: Path, raw: pd.DataFrame, name: str, offset: int) -> np.ndarray:
+    """A parsed column as float64; a cell that is not a number names its data row."""
+    import pandas as pd
+
+    if pd.api.types.is_numeric_dtype(raw[name]):
+        return raw[name].to_numpy(dtype=float)
+    numbers = pd.to_numeric(raw[name], errors="coerce")
+    bad = np.flatnonzero(numbers.isna().to_numpy() & raw[name].notna().to_numpy())
+    if bad.size:
+        k = int(bad[0])
+        raise SoacheckError(
+            f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; write a plain number"
+        )
+    return numbers.to_numpy(dtype=float)
+
+
+def _first_data_line(path: Path) -> int:
+    """File line (1-based) of the first data row: the second non-blank line."""
+    with open(path, encoding="utf-8-sig", errors="replace") as handle:
+        seen = 0
+        for number, text in enumerate(handle, start=1):
+            seen += bool(text.strip())
+            if seen == 2:
+                return number
+    return 2
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):
