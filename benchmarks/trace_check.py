@@ -33,6 +33,7 @@ from soacheck.boundary import allowed_current
 from soacheck.library import bundled_library
 from soacheck.partfiles import read_part
 from soacheck.trace import TraceChecker
+from soacheck.tracechunks import DEFAULT_CHUNK_ROWS
 from soacheck.tracefiles import iter_trace
 
 CASE_C = 40.0
@@ -75,7 +76,9 @@ def check_file(part, path: Path, chunk: int):
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--samples", type=int, default=10_000_000)
-    parser.add_argument("--chunk", type=int, default=1_000_000)
+    parser.add_argument(
+        "--chunk", type=int, default=DEFAULT_CHUNK_ROWS, help="samples a chunk (default: the command's)"
+    )
     parser.add_argument("--no-files", action="store_true", help="skip the end-to-end runs from CSV and Parquet")
     parser.add_argument("--files-only", action="store_true", help="only the end-to-end runs from CSV and Parquet")
     parser.add_argument("--runs", type=int, default=5, help="rounds; the best of each is kept (shared machines)")

@@ -19,6 +19,7 @@ from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.stage import Cooling
+from soacheck.tracechunks import DEFAULT_CHUNK_ROWS
 
 TRACE_SUFFIXES = (".csv", ".tsv", ".txt", ".parquet", ".pq")
 """Files taken from a folder: traces as CSV (or tab separated) and Parquet."""
@@ -96,7 +97,7 @@ def check_archive(
     case_temp: float | None = None,
     cooling: Cooling | None = None,
     breakdown: BreakdownDerating = "auto",
-    chunk_rows: int = 1_000_000,
+    chunk_rows: int = DEFAULT_CHUNK_ROWS,
     jobs: int | None = None,
     dask_address: str | None = None,
     progress: Callable[[int, int], None] | None = None,

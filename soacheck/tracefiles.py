@@ -15,6 +15,7 @@ from soacheck.csvtables import _sniff, fields_message
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 from soacheck.thermal_response import step_range
+from soacheck.tracechunks import DEFAULT_CHUNK_ROWS
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -23,7 +24,7 @@ if TYPE_CHECKING:
 TRACE_COLUMNS = ("time", "voltage", "current")
 
 
-def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
+def iter_trace(path: str | Path, *, chunk_rows: int = DEFAULT_CHUNK_ROWS):
     """Read a V–I trace in chunks: columns ``time,voltage,current`` in s, V and A.
 
     CSV (with the same separator rules as :func:`read_table`), or Parquet when pyarrow is
@@ -33,21 +34,23 @@ def iter_trace(path: str | Path, *, chunk_rows: int = 1_000_000):
     """
     path = Path(path)
     if path.suffix.lower() in (".parquet", ".pq"):
-        read = _parquet_chunks(path, chunk_rows)
+        # decoding is quick beside the check: the samples are vetted on the reading thread too
+        chunks = _read_ahead(_vetted(path, _parquet_chunks(path, chunk_rows)))
+        with contextlib.closing(chunks):
+            yield from chunks
     else:
-        read = _csv_chunks(path, chunk_rows)
-    chunks = _read_ahead(_vetted(path, read))  # read and vetted ahead of the caller's work on the chunk before
-    with contextlib.closing(chunks):
-        yield from chunks
+        # parsing is slow beside the check (pandas parses a chunk on one thread): vetted here
+        chunks = _read_ahead(_csv_chunks(path, chunk_rows))
+        yield from _vetted(path, chunks)
 
 
 def _vetted(path: Path, read):
-    """:func:`_checked_chunks` of ``read``, which is closed with it (its parsing threads stop)."""
+    """:func:`_checked_chunks` of ``read``, which is closed with it (a reading thread stops)."""
     with contextlib.closing(read):
         yield from _checked_chunks(path, read)
 
 
-def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: int = 1_000_000):
+def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: int = DEFAULT_CHUNK_ROWS):
     """A trace already in memory, columns ``time,voltage,current``, checked and yielded like :func:`iter_trace`.
 
     ``where`` names the trace in messages (``trace data row 7: ...``).

@@ -24,6 +24,7 @@ from soacheck.stage import Cooling, Stage
 from soacheck.thinning import judged_margins
 from soacheck.trace import TraceChecker
 from soacheck.trace_result import TraceResult
+from soacheck.tracechunks import DEFAULT_CHUNK_ROWS
 from soacheck.tracefiles import iter_trace, iter_trace_frame
 
 if TYPE_CHECKING:  # pandas, matplotlib and the report load only when a table, a plot or a report is asked for
@@ -54,7 +55,7 @@ def trace(
     cooling: Cooling | None = None,
     breakdown: BreakdownDerating = "auto",
     policy: PolicyLike = None,
-    chunk_rows: int = 1_000_000,
+    chunk_rows: int = DEFAULT_CHUNK_ROWS,
     library: Library = None,
     progress: Callable[[int], None] | None = None,
 ) -> TraceCheckResult:

@@ -34,6 +34,7 @@ from soacheck.cli.tables import (
 )
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
+from soacheck.tracechunks import DEFAULT_CHUNK_ROWS
 
 if TYPE_CHECKING:  # the domain modules load when a command runs, not for --help
     from soacheck.trace_result import TraceResult
@@ -67,7 +68,9 @@ def trace(
     plot: Annotated[
         Path | None, typer.Option("--plot", help="Write the trajectory and Tj plot (.png, .svg, .pdf).")
     ] = None,
-    chunk_rows: Annotated[int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")] = 1_000_000,
+    chunk_rows: Annotated[
+        int, typer.Option("--chunk-rows", help="Samples read and checked at a time.")
+    ] = DEFAULT_CHUNK_ROWS,
     jobs: Annotated[
         int | None,
         typer.Option("--jobs", "-j", help="Files checked at once, each in its own process [default: the core count]."),
