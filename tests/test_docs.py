@@ -156,3 +156,13 @@ def test_no_file_cites_a_guide_outside_the_repository():
         and outside in path.read_text(encoding="utf-8", errors="replace")
     ]
     assert not citing, f"cite the published source instead of {outside} in: {citing}"
+
+
+def test_the_contributor_guide_maps_every_module():
+    """DEVELOPERS.md's module map names every module of the package (a new one must say what it is)."""
+    guide = (ROOT / "DEVELOPERS.md").read_text(encoding="utf-8")
+    modules = [path.relative_to(ROOT).as_posix() for path in (ROOT / "soacheck").glob("*.py")]
+    missing = [
+        name for name in modules if f"`{name}`" not in guide and not name.endswith(("__init__.py", "__main__.py"))
+    ]
+    assert not missing, f"DEVELOPERS.md has no row for {missing}"
