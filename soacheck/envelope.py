@@ -25,7 +25,7 @@ from soacheck.instability import instability_notes
 from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
-from soacheck.stage_run import check_devices
+from soacheck.stage_run import judge_steady_state
 from soacheck.steady_state import SteadyState, steady_state
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
@@ -178,28 +178,6 @@ class EnvelopeCheck:
         }
 
 
-def _judge(stage: Stage, state: SteadyState, pulse_s: float, duty: float, breakdown: BreakdownDerating):
-    """Allowed, margin and limit per device and point, with dropout and tj_max folded in."""
-    allowed, margin, limit = check_devices(
-        stage,
-        state.device_v,
-        state.device_a,
-        state.case_c,
-        state.junction_c,
-        state.runaway_at,
-        pulse_s=pulse_s,
-        duty=0.0 if math.isinf(pulse_s) else duty,
-        idle_current_a=state.idle_a if state.idle_a is not None else 0.0,
-        breakdown=breakdown,
-    )
-    dropout = state.device_v <= 0
-    limit = np.where(dropout, "dropout", limit)
-    margin = np.where(dropout, -np.inf, margin)
-    hot = state.junction_c > stage.part.tj_limit_c
-    margin = np.where(hot | np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
-    return allowed, margin, limit
-
-
 def check_envelope(
     stage: Stage, envelope: Envelope, *, breakdown: BreakdownDerating = "auto", points: int = 400
 ) -> EnvelopeCheck:
@@ -232,11 +210,11 @@ def check_envelope(
             "Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D) (superposition; without a thermal model as DC), the heatsink "
             "sees D·P + (1 − D)·P_idle, and repeated pulses are judged where the junction starts them"
         )
-    allowed, margin, limit = _judge(placed, state, envelope.pulse_s, envelope.duty, breakdown)
+    allowed, margin, limit = judge_steady_state(placed, state, envelope.pulse_s, envelope.duty, breakdown)
     to_rating = None
     if placed.part.policy is not None:  # the same steady states, judged against the absolute ratings
         rated = placed.with_part(placed.part.rated)
-        to_rating = _judge(rated, state, envelope.pulse_s, envelope.duty, breakdown)[1]
+        to_rating = judge_steady_state(rated, state, envelope.pulse_s, envelope.duty, breakdown)[1]
     bad = (margin < 0).any(axis=0)
     outside = []
     if bad.any():
@@ -311,7 +289,7 @@ def largest_safe_envelope(
 
     def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, idle_a=idle_current_a, sink="each")
-        _, margin, limit = _judge(stage, state, pulse_s, duty, breakdown)
+        _, margin, limit = judge_steady_state(stage, state, pulse_s, duty, breakdown)
         d = np.argmin(margin, axis=0)
         return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
 

@@ -289,6 +289,13 @@ SCHEMAS: dict[str, Schema] = {
         f("count", "integer"),
         f("verdict", "verdict"),
         f("limit", "limit"),
+        f(
+            "device",
+            "integer",
+            null=True,
+            text="the device outside where the margin is least, numbered from 1 (Q1, Q2 ...), in the draw where it "
+            "is least; null when every device of every settled draw is inside",
+        ),
         f("equal_share", "number"),
         f("worst_share", "number"),
         f("percentile", "number"),
@@ -299,7 +306,14 @@ SCHEMAS: dict[str, Schema] = {
         f("stage_gain_peak", "number"),
         f("draws", "integer"),
         f("seed", "integer"),
-        f("margin", "number", text="the worst device's current against the policy's share of i_max"),
+        f(
+            "margin",
+            "number",
+            null=True,
+            text="the worst device's current against the policy's share of i_max; where a device of a settled draw "
+            "is outside its derated DC SOA, past its junction limit or above that share (verdict fail), that "
+            "device's least margin, null when not a number",
+        ),
         MARGIN_TO_RATING,
         POLICY,
     ),

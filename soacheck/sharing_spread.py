@@ -15,6 +15,7 @@ current, without passing the shared state it replaces.
 from __future__ import annotations
 
 import dataclasses
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -25,7 +26,8 @@ from soacheck.parts import Part
 from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
-from soacheck.steady_state import steady_state
+from soacheck.stage_run import judge_steady_state
+from soacheck.steady_state import SteadyState, steady_state
 
 
 @dataclass(frozen=True)
@@ -49,6 +51,14 @@ class SharingSpread:
     stage_gain_peak
         The highest stability gain over the draws (of the state reported: where a draw hogs,
         that state's). [1]
+    device_margin, device_margin_to_rating
+        The least margin of any device in any draw that settles, 1 − I/I_allowed against its DC
+        SOA derated at its own case temperature and against the current rating (the policy's
+        fraction of i_max; the least of the two), under the part's policy and at the ratings;
+        −inf where a device could not be evaluated, inf without a draw that settles. [1]
+    device, device_limit
+        The device (numbered from 1) and its limit where ``device_margin`` is least; 0 and
+        empty without a draw that settles.
     """
 
     percentile: float
@@ -59,6 +69,15 @@ class SharingSpread:
     runaway_fraction: float
     hogging_fraction: float = 0.0
     stage_gain_peak: float = 0.0
+    device_margin: float = math.inf
+    device_margin_to_rating: float = math.inf
+    device: int = 0
+    device_limit: str = ""
+
+    @property
+    def outside(self) -> bool:
+        """Whether a device of a draw that settles is outside its SOA or its current rating, or is not evaluated."""
+        return not self.device_margin >= 0
 
 
 def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
@@ -74,6 +93,30 @@ def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
         "margin_to_rating": 1.0 - device_a / rated,
         "policy": policy.to_dict(),
     }
+
+
+def judge_draws(stage: Stage, state: SteadyState) -> tuple[np.ndarray, np.ndarray]:
+    """Margin [1] and limit of every device in every draw that settles, each ``(n, m)``.
+
+    Each device is judged as the other stage jobs judge a steady state
+    (:func:`~soacheck.stage_run.judge_steady_state`, DC), and against the current rating too,
+    1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
+    kept. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
+    """
+    _, margin, limit = judge_steady_state(stage, state)
+    policy = policy_of(stage.part.policy)
+    rating = 1.0 - state.device_a / (policy.current_factor * stage.part.ratings.i_max_a)
+    rated = rating < margin
+    margin = np.where(rated, rating, margin)
+    limit = np.where(rated, "current", limit)
+    return np.where(state.runaway_at[None, :], np.inf, margin), limit
+
+
+def _least(margin: np.ndarray, limit: np.ndarray) -> tuple[float, int, str]:
+    """The least margin (NaN as −inf: never safe), its device (from 1) and limit, over ``(n, m)``."""
+    filled = np.where(np.isnan(margin), -np.inf, margin)
+    d, k = np.unravel_index(int(np.argmin(filled)), filled.shape)
+    return float(filled[d, k]), int(d) + 1, str(limit[d, k])
 
 
 BATCH_DRAWS = 2000
@@ -119,7 +162,8 @@ def sharing_monte_carlo(
     Returns
     -------
     SharingSpread
-        The shares, and the fractions of draws that hog or run away.
+        The shares, the fractions of draws that hog or run away, and the least margin of any
+        device in any draw that settles (:func:`judge_draws`) with its device and limit.
 
     Notes
     -----
@@ -141,6 +185,8 @@ def sharing_monte_carlo(
     point_v, point_a = np.array([float(source_v)]), np.array([float(total_a)])
     matched = steady_state(dataclasses.replace(stage, vbe_spread_v=0.0), point_v, point_a)
     cannot_share = bool(matched.runaway_at[0] or (matched.hogging is not None and matched.hogging[0]))
+    rated = stage.with_part(stage.part.rated) if stage.part.policy is not None else None
+    least, least_to_rating, device, device_limit = math.inf, math.inf, 0, ""
     rng = np.random.default_rng(seed)
     shares, gains, runaway, hogging = [], [], 0, 0
     done = 0
@@ -153,6 +199,12 @@ def sharing_monte_carlo(
         hogging += int((own | (cannot_share & ~state.runaway_at)).sum())
         gains.append(state.stage_gain if state.stage_gain is not None else np.zeros(size))
         shares.append(state.device_a.max(axis=0) / total_a)
+        margin, limit = judge_draws(stage, state)
+        found = _least(margin, limit)
+        if found[0] < least:
+            least, device, device_limit = found
+        to_rating = found[0] if rated is None else _least(*judge_draws(rated, state))[0]
+        least_to_rating = min(least_to_rating, to_rating)
         done += size
         if progress is not None:
             progress(done, draws)
@@ -166,4 +218,8 @@ def sharing_monte_carlo(
         runaway / draws,
         hogging / draws,
         float(np.max(np.concatenate(gains))),
+        least,
+        least_to_rating,
+        device,
+        device_limit,
     )

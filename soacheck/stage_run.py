@@ -10,6 +10,7 @@ reported as a failure with the limit ``runaway``.
 from __future__ import annotations
 
 import dataclasses
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -26,7 +27,7 @@ from soacheck.policy import least_margin, policy_of
 from soacheck.quantities import check_memory
 from soacheck.search import max_safe_setpoint
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
-from soacheck.steady_state import HOG_START_K, TIP_V
+from soacheck.steady_state import HOG_START_K, TIP_V, SteadyState
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import temperature_rise
@@ -351,6 +352,36 @@ def check_devices(
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))
     return allowed_a, margin, limit
+
+
+def judge_steady_state(
+    stage: Stage, state: SteadyState, pulse_s: float = DC, duty: float = 1.0, breakdown: BreakdownDerating = "auto"
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Allowed current [A], margin [1] and limit of every device at every steady-state point, each ``(n, m)``.
+
+    :func:`check_devices` on the settled state, with ``dropout`` (V_CE at or below zero: margin
+    −inf) folded in, and a margin just below zero wherever the junction passes its limit, the
+    stage runs away or the driver falls short: those points fail whatever their current.
+    Envelopes, the largest safe envelope and ``sharing`` judge their steady states here.
+    """
+    allowed, margin, limit = check_devices(
+        stage,
+        state.device_v,
+        state.device_a,
+        state.case_c,
+        state.junction_c,
+        state.runaway_at,
+        pulse_s=pulse_s,
+        duty=0.0 if math.isinf(pulse_s) else duty,
+        idle_current_a=state.idle_a if state.idle_a is not None else 0.0,
+        breakdown=breakdown,
+    )
+    dropout = state.device_v <= 0
+    limit = np.where(dropout, "dropout", limit)
+    margin = np.where(dropout, -np.inf, margin)
+    hot = state.junction_c > stage.part.tj_limit_c
+    margin = np.where(hot | np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
+    return allowed, margin, limit
 
 
 def _temperatures(stage: Stage, junction: Foster, t: np.ndarray, power: np.ndarray):

@@ -286,19 +286,31 @@ def test_sharing_of_a_stable_pair_reports_the_closed_form_stage_gain(bjt, tmp_pa
     assert (payload["verdict"], payload["hogging_fraction"], payload["runaway_fraction"]) == ("pass", 0.0, 0.0)
     assert payload["worst_share"] == pytest.approx(0.5, rel=1e-9)
     assert "stage gain peak 0.347" in text and "hogging fraction 0.0 %" in text and "PASS" in text
+    # each device inside its SOA: 2 A at 20 − 0.2 = 19.8 V, under the 125 W line's 125/19.8 = 6.3 A at 25 °C case,
+    # junction 25 + 39.6 °C; the answer stays the worst share's: 1 − 2 A/i_max 15 A, limit current, no device named
+    assert (payload["limit"], payload["device"]) == ("current", None)
+    assert payload["margin"] == pytest.approx(1 - 2.0 / 15.0, rel=1e-9)
 
 
-def test_sharing_past_runaway_reports_hogging_and_the_share_of_the_hog(bjt, tmp_path):
+def test_sharing_past_runaway_reports_hogging_and_fails_on_the_hog_outside_its_soa(bjt, tmp_path):
     """The matched pair of ``test_past_runaway_one_device_takes_the_current``: 3 A at 60 V, no emitter resistors.
 
     The equal split's eigenvalue is 7.0 ≥ 1: every draw settles where Q1 takes I₁ of the current (hog_split),
-    a stable state whose eigenvalue |φ|·Z·(60 + 60)/(V_T/I₁ + V_T/I₂) is below 1. The command reports
-    hogging in every draw, the hog's share and that gain, and passes (nothing runs away).
+    a stable state whose eigenvalue |φ|·Z·(60 + 60)/(V_T/I₁ + V_T/I₂) is below 1: the set does not run away.
+    But Q1 at 60 V (no resistors: V_CE = 60 V) is allowed only the reference curve's DC second-breakdown line
+    there, 3.125·(60/40)^-2 = 1.389 A at its case held at 25 °C (constructed curve, no derating at 25 °C), so
+    its margin is 1 − I₁/1.389 A < 0: verdict fail, exit 1, limit second_breakdown, device 1.
     """
     vt = THERMAL_VOLTAGE_V
     i1, i2 = hog_split(60.0)
+    allowed = 3.125 * (60.0 / 40.0) ** -2
+    assert i1 > allowed > i2  # the hot device outside its DC boundary, the cold one inside
     code, payload, text = sharing_json(tmp_path, 'part = "bjt"\ncount = 2\ncase_temp = 25\n', "-i", "3", "-v", "60")
-    assert code == 0, text
+    assert code == 1, text
+    assert (payload["verdict"], payload["limit"], payload["device"]) == ("fail", "second_breakdown", 1)
+    assert payload["margin"] == pytest.approx(1 - i1 / allowed, rel=1e-6)
+    assert payload["margin_to_rating"] == payload["margin"]  # no policy
+    assert "FAIL" in text and "Q1" in text and "second_breakdown" in text
     assert payload["hogging_fraction"] == 1.0 and payload["runaway_fraction"] == 0.0
     assert payload["worst_share"] == pytest.approx(i1 / 3, rel=1e-6)
     assert payload["stage_gain_peak"] == pytest.approx(abs(PHI) * 120 / (vt / i1 + vt / i2), rel=1e-4)
@@ -313,7 +325,7 @@ def test_with_a_spread_every_draw_hogs_at_least_as_hard_as_the_matched_pair(bjt)
 
     stage = Stage(bjt, 2, case_temp_c=25.0, vbe_spread_v=0.005)
     result = soacheck.sharing(stage, current=3.0, voltage=60.0, draws=500, percentile=1.0)
-    assert result.spread.hogging_fraction == 1.0 and result.passed
+    assert result.spread.hogging_fraction == 1.0 and result.spread.runaway_fraction == 0.0
     assert result.spread.worst_share >= hog_split(60.0)[0] / 3 * (1 - 1e-9)
 
 
@@ -326,4 +338,84 @@ def test_sharing_exits_1_where_the_set_runs_away(bjt, tmp_path):
     code, payload, text = sharing_json(tmp_path, 'part = "bjt"\ncount = 2\ncase_temp = 25\n', "-i", "3", "-v", "400")
     assert code == 1, text
     assert (payload["verdict"], payload["limit"], payload["runaway_fraction"]) == ("fail", "runaway", 1.0)
-    assert "FAIL" in text and "run away thermally (limit runaway)" in text
+    assert payload["device"] is None  # no draw settles: no device state to name
+    assert "FAIL" in text and "(limit runaway)" in text
+
+
+def spread_split(delta_v: float, volts: float = 30.0, total_a: float = 8.0, r_e: float = 0.1) -> float:
+    """The current of the lower-V_BE device of a matched bipolar pair whose V_BE are ``delta_v`` apart, with
+    emitter resistors ``r_e`` on cases held at 25 °C, rth_jc 1 K/W, in steady state. [A]
+
+    Equal base voltage, V_BE = V_T ln(I/I_S) + φ(T_j − 25 °C) (Sedra & Smith, from memory), T_k = 25 + V_k·I_k:
+    V_T ln(I₁/I₂) + (I₁ − I₂)R_E − |φ|·(V_1·I₁ − V_2·I₂) = Δ, V_k = V − I_k·R_E, I₂ = I − I₁, by brentq.
+    """
+
+    def mismatch(i1):
+        i2 = total_a - i1
+        heat = (volts - i1 * r_e) * i1 - (volts - i2 * r_e) * i2
+        return VT * math.log(i1 / i2) + (i1 - i2) * r_e - abs(PHI) * heat - delta_v
+
+    return scipy.optimize.brentq(mismatch, total_a / 2, total_a - 1e-9, xtol=1e-14)
+
+
+def power_margin(i1: float, volts: float = 30.0, r_e: float = 0.1) -> float:
+    """1 − I₁/I_allowed with I_allowed = 125 W/V_CE, the reference curve's DC constant-power line (8.33-40 V)
+    at a 25 °C case, V_CE = V − I₁·R_E. [1]"""
+    return 1.0 - i1 / (125.0 / (volts - i1 * r_e))
+
+
+def test_sharing_fails_where_a_spread_puts_the_hotter_device_past_its_dc_boundary(bjt, tmp_path):
+    """Two bipolars, 0.1 Ω emitter resistors, 8 A at 30 V, cases held at 25 °C, V_BE band 50 mV.
+
+    Matched, each takes 4 A at 29.6 V, inside the 125 W line (4.223 A, margin +5.3 %), and the pair's
+    eigenvalue |φ|(d₁ + d₂)/(r₁ + r₂) = 0.002·59.2/(2·(0.1 + V_T/4)) = 0.56 < 1: no hogging, no runaway.
+    Offsets Δ apart put the lower-V_BE device at spread_split(Δ), outside from Δ ≈ 21.7 mV (brentq), so
+    draws apart by more than that fail (a third of them, for a uniform band: (1 − 21.7/50)² = 0.32). The least
+    margin lies between that of the band's whole width, 50 mV, and that of 40 mV, which 200 draws pass
+    (the chance of none doing so is (1 − 0.04)^200 ≈ 3e-4). The hot device is either of the pair.
+    """
+    assert power_margin(spread_split(0.0)) > 0 > power_margin(spread_split(0.0217 + 1e-4))
+    stage = 'part = "bjt"\ncount = 2\nballast = 0.1\ncase_temp = 25\nvbe_spread = 0.05\n'
+    code, payload, text = sharing_json(tmp_path, stage, "-i", "8", "-v", "30")
+    assert code == 1, text
+    assert (payload["verdict"], payload["limit"], payload["runaway_fraction"]) == ("fail", "power", 0.0)
+    assert payload["device"] in (1, 2)
+    assert power_margin(spread_split(0.05)) * (1 + 1e-6) <= payload["margin"] <= power_margin(spread_split(0.04))
+    assert "FAIL" in text and f"Q{payload['device']} in the worst draw leaves its safe operating area" in text
+
+
+def test_sharing_passes_where_even_the_widest_spread_keeps_every_device_inside(bjt, tmp_path):
+    """The same pair with a 10 mV band: at the full 10 mV the lower-V_BE device takes spread_split(0.01) =
+    4.10 A, inside 125 W/29.59 V (margin +2.8 %), so every draw is inside: pass, exit 0, the answer the
+    worst share's current against i_max 15 A, no device named."""
+    assert power_margin(spread_split(0.01)) > 0
+    stage = 'part = "bjt"\ncount = 2\nballast = 0.1\ncase_temp = 25\nvbe_spread = 0.01\n'
+    code, payload, text = sharing_json(tmp_path, stage, "-i", "8", "-v", "30")
+    assert code == 0, text
+    assert (payload["verdict"], payload["limit"], payload["device"]) == ("pass", "current", None)
+    assert payload["margin"] == pytest.approx(1 - payload["worst_device_current"] / 15.0, rel=1e-12)
+    assert "PASS" in text
+
+
+def test_a_device_that_cannot_be_evaluated_is_never_inside(bjt):
+    """A draw whose second device's current is NaN: its margin is NaN, counted as −inf, never as safe; the
+    other device, 1 A at 5 V on a 25 °C case (inside the 15 A segment to 8.33 V, hand value), is judged as usual."""
+    from soacheck.sharing_spread import SharingSpread, _least, judge_draws
+    from soacheck.steady_state import SteadyState
+
+    one = np.ones((2, 1))
+    state = SteadyState(
+        device_a=np.array([[1.0], [np.nan]]),
+        device_v=5.0 * one,
+        device_w=np.array([[5.0], [np.nan]]),
+        case_c=25.0 * one,
+        junction_c=np.array([[30.0], [np.nan]]),
+        sink_c=np.array([25.0]),
+        gain=0.0 * one,
+        runaway_at=np.array([False]),
+    )
+    margin, limit = judge_draws(Stage(bjt, 2, case_temp_c=25.0), state)
+    assert margin[0, 0] == pytest.approx(1 - 1.0 / 15.0, rel=1e-12) and np.isnan(margin[1, 0])
+    least, device, _ = _least(margin, limit)
+    assert (least, device) == (-math.inf, 2)
+    assert SharingSpread(99.0, 0.5, 0.5, 0.5, 1, 0.0, device_margin=least).outside

@@ -267,7 +267,9 @@ def sharing(
     -------
     SharingResult
         ``verdict`` ``fail`` when any draw runs away thermally (no stable state, neither shared
-        nor with one device taking the current); ``hogging_fraction``, the draws in which one
+        nor with one device taking the current), or when any device of any draw is outside its
+        DC SOA at its own case temperature or above the policy's fraction of i_max (``limit``
+        and ``device`` name it, ``margin`` is its); ``hogging_fraction``, the draws in which one
         device takes the current, and ``stage_gain_peak``, as the other stage jobs report it.
     """
     CURRENT.check(current, "--current")
@@ -369,8 +371,12 @@ class SharingResult(Result):
     hold (``stage_gain_peak`` 1 or more), the stable state with one device taking the current
     is taken (``hogging_fraction`` counts those draws); a draw with no stable state runs away.
     The verdict fails when any draw runs away (``runaway_fraction`` above 0); ``margin`` is then
-    −inf and ``limit`` is ``runaway``. Otherwise the margin is the worst device's current
-    against its continuous rating at the percentile reported.
+    −inf and ``limit`` is ``runaway``. It fails too when any device of any draw that settles is
+    outside its DC SOA derated at its own case temperature, past its junction limit, or above
+    the policy's fraction of i_max, or could not be evaluated (see
+    :func:`~soacheck.sharing_spread.judge_draws`): ``margin`` (also in the JSON) is then the least
+    such margin, ``limit`` and ``device`` that device's. Otherwise the margin is the worst
+    device's current against its continuous rating at the percentile reported.
     """
 
     stage: Stage
@@ -382,17 +388,32 @@ class SharingResult(Result):
 
     @property
     def passed(self) -> bool:
-        return not self.spread.runaway_fraction
+        return not self.spread.runaway_fraction and not self.spread.outside
 
     @property
     def margin(self) -> float:
-        if not self.passed:
+        if self.spread.runaway_fraction:
             return -math.inf
-        return float(sharing_margins(self.stage.part, self.spread.worst_share * self.current_a)["margin"])  # type: ignore[arg-type]
+        return self._margins()["margin"]  # type: ignore[return-value]
 
     @property
     def limit(self) -> str | None:
-        return "runaway" if not self.passed else "current"
+        if self.spread.runaway_fraction:
+            return "runaway"
+        return self.spread.device_limit if self.spread.outside else "current"
+
+    @property
+    def device(self) -> int | None:
+        """The device outside where the margin is least (numbered from 1), None where no device of a settled draw is."""
+        return self.spread.device if self.spread.outside and not self.spread.runaway_fraction else None
+
+    def _margins(self) -> dict[str, object]:
+        """``margin``, ``margin_to_rating``, ``policy``: the worst share's; the least device's where one is outside."""
+        s = self.spread
+        found = sharing_margins(self.stage.part, s.worst_share * self.current_a)
+        if s.outside and not s.runaway_fraction:
+            found.update(margin=s.device_margin, margin_to_rating=s.device_margin_to_rating)
+        return found
 
     @property
     def assumptions(self) -> tuple[str, ...]:
@@ -420,6 +441,7 @@ class SharingResult(Result):
                 "count": self.stage.count,
                 "verdict": self.verdict,
                 "limit": self.limit,
+                "device": self.device,
                 "equal_share": s.equal_share,
                 "worst_share": s.worst_share,
                 "percentile": s.percentile,
@@ -430,7 +452,7 @@ class SharingResult(Result):
                 "stage_gain_peak": s.stage_gain_peak,
                 "draws": s.draws,
                 "seed": self.seed,
-                **sharing_margins(self.stage.part, s.worst_share * self.current_a),
+                **self._margins(),
             }
         )
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
@@ -24,7 +25,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.cli.tables import print_assumptions, print_verdict, quantity_table, under_policy
-from soacheck.display import value_text
+from soacheck.display import device_name, value_text
 from soacheck.filemarks import save_figure
 from soacheck.glossary import words
 
@@ -181,9 +182,7 @@ def sharing(
         stability = ("stage_gain_peak", "hogging_fraction", "runaway_fraction")
         console.print("; ".join(f"{words(k)} {value_text(k, payload[k])}" for k in stability), highlight=False)
         print_assumptions(console, result.assumptions)
-        console.print(
-            "[green]PASS[/]"
-            if result.passed
-            else f"[bold red]FAIL[/]: {spread.runaway_fraction:.1%} of draws run away thermally (limit runaway)"
-        )
+        summary = {**payload, "margin": result.margin if math.isfinite(result.margin) else None}
+        subject = "a device" if result.device is None else f"{device_name(result.device)} in the worst draw"
+        print_verdict(console, result.passed, summary, subject=subject)
     raise typer.Exit(0 if result.passed else 1)
