@@ -25,7 +25,7 @@ from soacheck.instability import instability_notes
 from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
-from soacheck.stage_run import judge_steady_state
+from soacheck.stage_run import first_outside, hot_junction_outside, judge_steady_state
 from soacheck.steady_state import SteadyState, steady_state
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
@@ -123,8 +123,14 @@ def stage_for(stage: Stage, envelope: Envelope) -> tuple[Stage, list[str]]:
 class EnvelopeCheck:
     """A stage checked against an envelope, along the envelope's upper edge.
 
-    ``outside`` lists the stretches of source voltage where the edge is not covered:
-    dicts with ``from_voltage``, ``to_voltage``, ``limit`` and ``margin`` (the least in that stretch).
+    ``margin`` and ``limit`` are per device and edge point, ``(n, m)``: the margin is the
+    current's (1 − I/I_allowed; −inf at a dropout, just below 0 in runaway or short of drive),
+    so a junction past tj_max (under a policy, its ceiling) keeps its current's margin, which
+    may be 0 or more, and its limit names the junction's limit, as in a stage run.
+    ``outside`` lists the stretches of source voltage where the edge is not covered (some
+    device not :attr:`inside`): dicts with ``from_voltage``, ``to_voltage``, ``limit`` and
+    ``margin`` (the least in that stretch; the limit is where it is least, or, when every
+    current there is inside its boundary, the junction limit of the stretch's first point past it).
     """
 
     envelope: Envelope
@@ -140,8 +146,29 @@ class EnvelopeCheck:
     margin_to_rating: np.ndarray | None = None
 
     @property
+    def inside(self) -> np.ndarray:
+        """(n, m): the current inside its boundary (a margin of 0 or more: no dropout, no runaway, driven) and
+        the junction at or below tj_max (under a policy, its ceiling); a margin that is not a number is not inside."""
+        return _inside(self.stage, self.state, self.margin)
+
+    @property
     def passed(self) -> bool:
         return not self.outside
+
+    @property
+    def first_violation(self) -> tuple[int, int] | None:
+        """(device, point) of the first violation along the edge: the lowest source voltage where a device is
+        not :attr:`inside`, and the first such device there; None when the stage covers the envelope."""
+        return first_outside(self.inside)
+
+    @property
+    def failed_limit(self) -> str:
+        """The limit the answer names: where the margin is least, or, for a check that fails with every current
+        inside its boundary (a least margin of 0 or more), the junction limit its first violation passed."""
+        found = self.first_violation
+        if found is not None and self.min_margin >= 0:
+            return str(self.limit[found])
+        return str(self.limit[self.worst])
 
     @property
     def min_margin(self) -> float:
@@ -164,7 +191,7 @@ class EnvelopeCheck:
             "overload": overload_of(float(self.min_margin)) if np.isfinite(self.min_margin) else None,
             "margin_to_rating": least_margin(self.margin if self.margin_to_rating is None else self.margin_to_rating),
             "policy": policy_of(self.stage.part.policy).to_dict(),
-            "limit": str(self.limit[d, k]),
+            "limit": self.failed_limit,
             "device": d + 1,
             "worst_voltage": float(self.source_v[k]),
             "worst_current": float(self.total_a[k]),
@@ -176,6 +203,11 @@ class EnvelopeCheck:
             "outside": self.outside,
             "assumptions": list(self.assumptions),
         }
+
+
+def _inside(stage: Stage, state: SteadyState, margin: np.ndarray) -> np.ndarray:
+    """(n, m): a margin of 0 or more (not NaN) and the junction at or below tj_max (under a policy, its ceiling)."""
+    return (margin >= 0) & (state.junction_c <= stage.part.tj_limit_c)
 
 
 def check_envelope(
@@ -215,7 +247,8 @@ def check_envelope(
     if placed.part.policy is not None:  # the same steady states, judged against the absolute ratings
         rated = placed.with_part(placed.part.rated)
         to_rating = judge_steady_state(rated, state, envelope.pulse_s, envelope.duty, breakdown)[1]
-    bad = (margin < 0).any(axis=0)
+    inside = _inside(placed, state, margin)
+    bad = (~inside).any(axis=0)
     outside = []
     if bad.any():
         edges = np.diff(bad.astype(np.int8), prepend=np.int8(0), append=np.int8(0))
@@ -223,6 +256,8 @@ def check_envelope(
             block = margin[:, start:stop]
             d, k = np.unravel_index(int(np.argmin(block)), block.shape)
             worst = float(block[d, k])
+            if worst >= 0:  # every current inside: a junction fails the stretch, named at its first point
+                d, k = int(np.argmax(~inside[:, start])), 0
             outside.append(
                 {
                     "from_voltage": float(v[start]),
@@ -290,8 +325,9 @@ def largest_safe_envelope(
     def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, idle_a=idle_current_a, sink="each")
         _, margin, limit = judge_steady_state(stage, state, pulse_s, duty, breakdown)
-        d = np.argmin(margin, axis=0)
-        return (margin >= 0).all(axis=0), limit[d, np.arange(v.size)]
+        ranked = hot_junction_outside(stage, state, margin)  # unsafe, and what limits as a current just outside
+        d = np.argmin(ranked, axis=0)
+        return (ranked >= 0).all(axis=0), limit[d, np.arange(v.size)]
 
     for step in range(iterations):
         mid = 0.5 * (lo + hi)

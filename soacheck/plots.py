@@ -231,7 +231,7 @@ def plot_trace(part: Part, result: TraceResult, *, breakdown: BreakdownDerating 
     ax_soa.set_title(f"{part.id}: trajectory ({result.verdict})", fontsize=10)
     junction = result.limit in JUNCTION_LIMITS and "tj" in data  # the junction passed its limit first
     if not result.passed and result.margin is not None and result.margin >= 0:  # failed on another limit
-        ax_tj.set_title(f"verdict fail: {result.limit}; the current inside, margin {margin}", fontsize=9)
+        ax_tj.set_title(inside_failure_title(result.limit, result.margin), fontsize=9)
     else:
         ax_tj.set_title(f"verdict {result.verdict}, margin {margin} (the least, as judged)", fontsize=9)
     if "tj" in data:
@@ -414,29 +414,68 @@ OKABE_CASE = "#E69F00"
 def plot_envelope_check(check: EnvelopeCheck, *, breakdown: BreakdownDerating = "auto", most: int = 4) -> Figure:
     """The envelope's edge, mapped to each device, over that device's SOA derated at its hottest case.
 
-    One panel per device (the ``most`` worst when there are more); the path is marked where
-    it lies outside (an "outside" entry only when something is), the first point outside
-    ringed, the view zoomed to the path with the whole SOA in an inset.
+    One panel per device (the ``most`` that fail first, then by least margin); the path is
+    marked where it lies outside (``outside``) and where its junction passes tj_max or the
+    policy's tj_ceiling with its current inside (``tj_max passed``), the first point failing
+    ringed, the view zoomed to the path with the whole SOA in an inset. A check failing with
+    every current inside says so in the figure's title, as the trace plot does.
     """
-    devices = np.argsort(np.min(check.margin, axis=1))[:most]
+    devices = envelope_devices(check)[:most]
     fig = Figure(figsize=(6.5 * len(devices), 5.5), layout="constrained")
     axes = np.atleast_1d(fig.subplots(1, len(devices)))
-    env = check.envelope
     for ax, d in zip(axes, devices, strict=True):
-        hottest = float(check.state.case_c[d].max())
-        plot_soa(check.stage.part, case_temps_c=[hottest], pulse_s=env.pulse_s, breakdown=breakdown, ax=ax)
-        v, i = check.state.device_v[d], check.state.device_a[d]
-        ok = check.margin[d] >= 0
-        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label=f"envelope edge, {device_name(d + 1)}")
-        if (~ok).any():
-            ax.scatter(v[~ok], i[~ok], color=OUTSIDE, marker="x", s=14, zorder=6, label="outside")
-            k = int(np.argmax(~ok))
-            mark_violation(ax, float(v[k]), float(i[k]))
+        v, i = envelope_device_panel(ax, check, d, breakdown=breakdown)
         _zoom(ax, v, i)
         _full_range_inset(ax, check.stage.part, [(v, i)])
         _relegend(ax)
-        ax.set_title(f"{check.stage.part.id}, {device_name(d + 1)}: {env.label}", fontsize=9)
+    if not check.passed and check.min_margin >= 0:  # failed on a junction: the margins drawn are the current's
+        fig.suptitle(inside_failure_title(check.failed_limit, check.min_margin), fontsize=10)
     return fig
+
+
+def envelope_devices(check: EnvelopeCheck) -> np.ndarray:
+    """The devices of an envelope check in the order a plot shows them: those not inside somewhere first,
+    each group by least margin (the JSON's ``device`` leads when something is outside on its current)."""
+    least = np.min(check.margin, axis=1)
+    return np.lexsort((least, check.inside.all(axis=1)))
+
+
+def envelope_device_panel(
+    ax: Axes, check: EnvelopeCheck, d: int, *, breakdown: BreakdownDerating = "auto"
+) -> tuple[np.ndarray, np.ndarray]:
+    """Device ``d``'s share of the envelope's edge on its SOA derated at its hottest case, on ``ax``.
+
+    Points where its current is outside are crossed (``outside``); points where only its junction
+    passes its limit are marked ``tj_max passed, current inside`` (or ``tj_ceiling ...``); its first
+    point failing is ringed (``first violation``, or ``tj_max passed`` there).
+    Returns the device's (V, I) path. [V], [A]
+    """
+    env = check.envelope
+    part = check.stage.part
+    plot_soa(part, case_temps_c=[float(check.state.case_c[d].max())], pulse_s=env.pulse_s, breakdown=breakdown, ax=ax)
+    v, i = check.state.device_v[d], check.state.device_a[d]
+    inside = check.inside[d]
+    current_out = ~(check.margin[d] >= 0)
+    junction_only = ~inside & ~current_out
+    hot = f"{part.tj_limit} passed"
+    ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label=f"envelope edge, {device_name(d + 1)}")
+    if current_out.any():
+        ax.scatter(v[current_out], i[current_out], color=OUTSIDE, marker="x", s=14, zorder=6, label="outside")
+    if junction_only.any():
+        ax.scatter(v[junction_only], i[junction_only], facecolors="none", edgecolors=OUTSIDE, marker="^", s=18,
+                   zorder=6, label=f"{hot}, current inside")  # fmt: skip
+    if (~inside).any():
+        k = int(np.argmax(~inside))
+        mark_violation(ax, float(v[k]), float(i[k]), text=hot if junction_only[k] else "first violation")
+    ax.set_title(f"{part.id}, {device_name(d + 1)}: {env.label}", fontsize=9)
+    return v, i
+
+
+def inside_failure_title(limit: str | None, margin: float | None) -> str:
+    """A plot's title for a result that fails with its current inside: the limit it passed, and the current's
+    margin said to be the current's (``verdict fail: tj_max; the current inside, margin +12.0%``)."""
+    shown = "—" if margin is None else f"{margin:+.1%}"
+    return f"verdict fail: {limit}; the current inside, margin {shown}"
 
 
 def plot_compare(

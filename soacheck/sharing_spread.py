@@ -26,7 +26,7 @@ from soacheck.parts import Part
 from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
-from soacheck.stage_run import judge_steady_state
+from soacheck.stage_run import hot_junction_outside, judge_steady_state
 from soacheck.steady_state import SteadyState, steady_state
 
 
@@ -99,11 +99,13 @@ def judge_draws(stage: Stage, state: SteadyState) -> tuple[np.ndarray, np.ndarra
     """Margin [1] and limit of every device in every draw that settles, each ``(n, m)``.
 
     Each device is judged as the other stage jobs judge a steady state
-    (:func:`~soacheck.stage_run.judge_steady_state`, DC), and against the current rating too,
+    (:func:`~soacheck.stage_run.judge_steady_state`, DC; a junction past its limit just below
+    zero, :func:`~soacheck.stage_run.hot_junction_outside`), and against the current rating too,
     1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
     kept. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
     """
     _, margin, limit = judge_steady_state(stage, state)
+    margin = hot_junction_outside(stage, state, margin)
     policy = policy_of(stage.part.policy)
     rating = 1.0 - state.device_a / (policy.current_factor * stage.part.ratings.i_max_a)
     rated = rating < margin

@@ -80,11 +80,7 @@ class StageRun:
         :attr:`inside`, and the first such device there; None when the run passes throughout.
         Its :attr:`limit` says what was passed there: a mechanism of the SOA boundary, the
         junction's ``tj_max`` or ``tj_ceiling`` (the current may be inside), ``runaway`` or ``drive``."""
-        bad = ~self.inside
-        if not bad.any():
-            return None
-        k = int(np.argmax(bad.any(axis=0)))
-        return int(np.argmax(bad[:, k])), k
+        return first_outside(self.inside)
 
     @property
     def time_over_tj_limit_s(self) -> float:
@@ -134,6 +130,16 @@ class StageRun:
             "energy": energy_wh,
             "duration": float(self.time_s[-1] - self.time_s[0]),
         }
+
+
+def first_outside(inside: np.ndarray) -> tuple[int, int] | None:
+    """(device, point) of the first point along axis 1 of ``inside`` ``(n, m)`` where a device is not inside, and
+    the first such device there; None when every device is inside everywhere."""
+    bad = ~inside
+    if not bad.any():
+        return None
+    k = int(np.argmax(bad.any(axis=0)))
+    return int(np.argmax(bad[:, k])), k
 
 
 def _junction_network(part: Part) -> tuple[Foster, str]:
@@ -360,9 +366,11 @@ def judge_steady_state(
     """Allowed current [A], margin [1] and limit of every device at every steady-state point, each ``(n, m)``.
 
     :func:`check_devices` on the settled state, with ``dropout`` (V_CE at or below zero: margin
-    −inf) folded in, and a margin just below zero wherever the junction passes its limit, the
-    stage runs away or the driver falls short: those points fail whatever their current.
-    Envelopes, the largest safe envelope and ``sharing`` judge their steady states here.
+    −inf) folded in, and a margin just below zero wherever the stage runs away or the driver
+    falls short: those points fail whatever their current. A junction past its limit keeps its
+    current's margin and is labelled ``tj_max`` (``tj_ceiling``) where its current is inside, as
+    in a stage run; :func:`hot_junction_outside` counts it as just outside where an answer needs
+    one number. Envelopes, the largest safe envelope and ``sharing`` judge their steady states here.
     """
     allowed, margin, limit = check_devices(
         stage,
@@ -379,9 +387,20 @@ def judge_steady_state(
     dropout = state.device_v <= 0
     limit = np.where(dropout, "dropout", limit)
     margin = np.where(dropout, -np.inf, margin)
-    hot = state.junction_c > stage.part.tj_limit_c
-    margin = np.where(hot | np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
+    margin = np.where(np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
     return allowed, margin, limit
+
+
+def hot_junction_outside(stage: Stage, state: SteadyState, margin: np.ndarray) -> np.ndarray:
+    """``margin`` ``(n, m)`` with every junction past tj_max (under a policy, its ceiling) just below zero.
+
+    For answers that judge by one number whatever failed: the largest safe envelope's search
+    and what limits it, and ``sharing``'s draws. A check that reports its margin keeps the
+    current's margin and names the junction limit instead (:meth:`StageRun.summary`,
+    :meth:`soacheck.envelope.EnvelopeCheck.summary`).
+    """
+    hot = state.junction_c > stage.part.tj_limit_c
+    return np.where(hot, np.minimum(margin, -1e-9), margin)
 
 
 def _temperatures(stage: Stage, junction: Foster, t: np.ndarray, power: np.ndarray):

@@ -235,3 +235,13 @@ def violation_marks(ax) -> list[tuple[float, float]]:
     return [
         (float(line.get_xdata()[0]), float(line.get_ydata()[0])) for line in ax.lines if line.get_gid() == VIOLATION_GID
     ]
+
+
+def only_job_why(report_folder) -> str:
+    """The text of the one job's ``<p class="why">`` (its headline) in a report of one job."""
+    from pathlib import Path
+
+    page = parse_html((Path(report_folder) / "report.html").read_text(encoding="utf-8"))
+    (section,) = [node for node in page.iter("section") if "job" in node.classes]
+    (why,) = [p for p in section.iter("p") if "why" in p.classes]
+    return why.text()

@@ -30,7 +30,7 @@ from soacheck.runner import JobResult
 from soacheck.stage import Stage
 
 from .conftest import write_part
-from .helpers import FOUR_R_K_PER_W, FOUR_TAU_S, invoke, parse_html, violation_marks, zth_closed_form
+from .helpers import FOUR_R_K_PER_W, FOUR_TAU_S, invoke, only_job_why, violation_marks, zth_closed_form
 
 R_HOT = tuple(1.2 * r for r in FOUR_R_K_PER_W)  # sums to 1.2 K/W, above rth_jc = 1.0 K/W
 THERMAL_HOT = f"[thermal]\nfoster_r = {list(R_HOT)}\nfoster_tau = {list(FOUR_TAU_S)}\n"
@@ -143,13 +143,7 @@ def test_a_plans_table_and_report_say_why_the_job_failed(hot_zth, tmp_path):
     (row,) = result.to_frame().to_dict(orient="records")
     assert row["verdict"] == "fail" and row["limit"] == "tj_max" and row["margin"] > 0
     assert row["headline"].startswith("the junction passes tj_max at ")
-    (section,) = [
-        node
-        for node in parse_html((tmp_path / "report" / "report.html").read_text(encoding="utf-8")).iter("section")
-        if "job" in node.classes
-    ]
-    (why,) = [p for p in section.iter("p") if "why" in p.classes]
-    assert why.text() == row["headline"]
+    assert only_job_why(tmp_path / "report") == row["headline"]
 
 
 def test_a_trace_failing_on_its_junction_alone_is_drawn_so(hot_zth):

@@ -27,7 +27,6 @@ from soacheck.api.options import (
 )
 from soacheck.api.stages import load_stage
 from soacheck.derating import BreakdownDerating
-from soacheck.display import device_name
 from soacheck.envelope import Envelope, EnvelopeCheck, SafeEnvelope, check_envelope, largest_safe_envelope
 from soacheck.jobfiles import read_envelope
 from soacheck.jsonvalues import jsonable
@@ -188,6 +187,12 @@ class EnvelopeResult(CheckedResult):
     def envelope(self) -> Envelope:
         return self.check.envelope
 
+    @property
+    def limit(self) -> str | None:
+        """What bounds the current where the margin is least; for a check failing with every current inside
+        its boundary, the junction limit passed (``tj_max`` or ``tj_ceiling``), as the JSON's ``limit``."""
+        return self.check.failed_limit
+
     def to_dict(self) -> dict[str, Any]:
         return jsonable(self.check.summary())
 
@@ -212,25 +217,14 @@ class EnvelopeResult(CheckedResult):
         )
 
     def plot(self, ax: Axes | None = None) -> Axes:
-        """Without ``ax``: one panel per device (the four worst); the worst device's axes is returned.
-        With ``ax``: the worst device's panel only."""
+        """Without ``ax``: one panel per device (the four that fail first, then by least margin); the first
+        device's axes is returned. With ``ax``: that device's panel only."""
+        plots = _plots()
         if ax is None:
-            return _plots().plot_envelope_check(self.check, breakdown=self.breakdown).axes[0]
-        c = self.check
-        d = c.worst[0]  # the device of the JSON's least margin
-        _plots().plot_soa(
-            c.stage.part,
-            case_temps_c=[float(c.state.case_c[d].max())],
-            pulse_s=c.envelope.pulse_s,
-            breakdown=self.breakdown,
-            ax=ax,
-        )
-        v, i = c.state.device_v[d], c.state.device_a[d]
-        ok = c.margin[d] >= 0
-        ax.plot(v, i, color="#444444", lw=1.0, zorder=5, label="envelope edge, this device")
-        ax.scatter(v[~ok], i[~ok], color="#c0392b", s=10, zorder=6, label="outside")
+            return plots.plot_envelope_check(self.check, breakdown=self.breakdown).axes[0]
+        first = int(plots.envelope_devices(self.check)[0])
+        plots.envelope_device_panel(ax, self.check, first, breakdown=self.breakdown)
         ax.legend(fontsize=7, loc="lower left")
-        ax.set_title(f"{c.stage.part.id}, {device_name(d + 1)}: {c.envelope.label}", fontsize=9)
         return ax
 
 

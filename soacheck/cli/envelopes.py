@@ -30,6 +30,7 @@ from soacheck.cli.tables import (
     named_column,
     print_assumptions,
     print_table,
+    print_verdict,
     quantity_table,
     under_policy,
     verdict_cells,
@@ -96,11 +97,7 @@ def envelope(
                     ],
                 )
             print_assumptions(console, result.assumptions)
-            console.print(
-                "[green]PASS[/]: the stage covers the envelope"
-                if result.passed
-                else "[bold red]FAIL[/]: part of the envelope lies outside"
-            )
+            print_verdict(console, result.passed, payload, subject="a device", covered="the stage covers the envelope")
         raise typer.Exit(0 if result.passed else 1)
     from soacheck.limit_table import export_writer
     from soacheck.quantities import VOLTAGE

@@ -151,10 +151,13 @@ def named_column(name: str, values: Iterable, *, essential: bool = False, rank: 
     return Column(column_heading(name), cells, essential=essential, rank=rank)
 
 
-def print_verdict(console: Console, passed: bool, summary: dict, *, subject: str, span_s: float | None = None) -> None:
-    """The closing line of a result over time: PASS, or FAIL and why (:func:`soacheck.display.failure_text`)."""
+def print_verdict(
+    console: Console, passed: bool, summary: dict, *, subject: str, span_s: float | None = None, covered: str = ""
+) -> None:
+    """The closing line of a result: PASS (and ``covered``, what passing means there), or FAIL and why
+    (:func:`soacheck.display.failure_text`)."""
     if passed:
-        console.print(f"[{_PASS_STYLE}]PASS[/]")
+        console.print(f"[{_PASS_STYLE}]PASS[/]" + (f": {escape(covered)}" if covered else ""))
     else:
         why = failure_text(summary, subject=subject, span_s=span_s)
         console.print(f"[{_FAIL_STYLE}]FAIL[/]: {escape(why)}", highlight=False)
