@@ -92,7 +92,7 @@ _TERMS = [
         "point; for a whole result the least over everything checked. A fraction in JSON, a percentage in tables "
         "and plots; null where nothing is allowed (the limit says why). It measures the current only: a result "
         "that fails with a margin of 0 or more failed on another limit (a junction past tj_max or tj_ceiling, "
-        "runaway, drive), which its limit and first_violation_time name.",
+        "runaway, drive), which its limit names (and, over time, its first_violation_time).",
         "margin (%)",
     ),
     _t(
@@ -222,7 +222,12 @@ _TERMS = [
     _t("worst_voltage", "V", "source voltage where the least margin occurs"),
     _t("worst_current", "A", "total current where the least margin occurs"),
     _t("heatsink_temp", "°C", "the heatsink's steady temperature at the envelope's worst power"),
-    _t("outside", "", "the stretches of source voltage that lie outside, each with its limit"),
+    _t(
+        "outside",
+        "",
+        "the stretches of source voltage that lie outside or where a junction passes tj_max (tj_ceiling), each "
+        "with its limit and least margin",
+    ),
     _t("from_voltage", "V", "start of a stretch outside", "from"),
     _t("to_voltage", "V", "end of a stretch outside", "to"),
     _t("max_current", "A", "the largest safe total current at that source voltage, rounded down", "max current"),

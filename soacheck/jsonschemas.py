@@ -138,7 +138,7 @@ OUTSIDE_STRETCH = obj(
     f("to_voltage", "number"),
     f("limit", "limit"),
     f("margin", "number", null=True),
-    text="a stretch of source voltage where the envelope's edge lies outside",
+    text="a stretch of source voltage where the envelope's edge lies outside or a junction passes its limit",
 )
 
 TRACE_FIELDS = (
