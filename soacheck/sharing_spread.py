@@ -26,7 +26,7 @@ from soacheck.parts import Part
 from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
-from soacheck.stage_run import hot_junction_outside, judge_steady_state
+from soacheck.stage_run import judge_steady_state
 from soacheck.steady_state import SteadyState, steady_state
 
 
@@ -55,10 +55,17 @@ class SharingSpread:
         The least margin of any device in any draw that settles, 1 − I/I_allowed against its DC
         SOA derated at its own case temperature and against the current rating (the policy's
         fraction of i_max; the least of the two), under the part's policy and at the ratings;
-        −inf where a device could not be evaluated, inf without a draw that settles. [1]
+        −inf where a device could not be evaluated, inf without a draw that settles. The
+        current's margin: a junction past its limit does not change it (``hot_junction``). [1]
     device, device_limit
-        The device (numbered from 1) and its limit where ``device_margin`` is least; 0 and
-        empty without a draw that settles.
+        The device (numbered from 1) where ``device_margin`` is least, and its limit or, where
+        that margin is 0 or more and a junction is past its limit, the junction limit (``tj_max``,
+        under a policy with a ceiling ``tj_ceiling``), as a stage run names them; 0 and empty
+        without a draw that settles.
+    hot_junction
+        Whether a junction of a draw that settles is past tj_max (under a policy, its ceiling).
+    tj_peak
+        The hottest junction of any draw that settles; −inf without one. [°C]
     """
 
     percentile: float
@@ -73,11 +80,14 @@ class SharingSpread:
     device_margin_to_rating: float = math.inf
     device: int = 0
     device_limit: str = ""
+    hot_junction: bool = False
+    tj_peak_c: float = -math.inf
 
     @property
     def outside(self) -> bool:
-        """Whether a device of a draw that settles is outside its SOA or its current rating, or is not evaluated."""
-        return not self.device_margin >= 0
+        """Whether a device of a draw that settles is outside its SOA or its current rating, is not evaluated,
+        or has its junction past tj_max (under a policy, its ceiling)."""
+        return not self.device_margin >= 0 or self.hot_junction
 
 
 def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
@@ -99,19 +109,26 @@ def judge_draws(stage: Stage, state: SteadyState) -> tuple[np.ndarray, np.ndarra
     """Margin [1] and limit of every device in every draw that settles, each ``(n, m)``.
 
     Each device is judged as the other stage jobs judge a steady state
-    (:func:`~soacheck.stage_run.judge_steady_state`, DC; a junction past its limit just below
-    zero, :func:`~soacheck.stage_run.hot_junction_outside`), and against the current rating too,
+    (:func:`~soacheck.stage_run.judge_steady_state`, DC), and against the current rating too,
     1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
-    kept. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
+    kept. The margin is the current's: a junction past tj_max (under a policy, its ceiling)
+    keeps it, and its limit names the junction limit where that margin is 0 or more, as in a
+    stage run. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
     """
     _, margin, limit = judge_steady_state(stage, state)
-    margin = hot_junction_outside(stage, state, margin)
     policy = policy_of(stage.part.policy)
     rating = 1.0 - state.device_a / (policy.current_factor * stage.part.ratings.i_max_a)
     rated = rating < margin
     margin = np.where(rated, rating, margin)
-    limit = np.where(rated, "current", limit)
+    hot = (state.junction_c > stage.part.tj_limit_c) & (margin >= 0) & ~state.runaway_at[None, :]
+    limit = np.where(hot, stage.part.tj_limit, np.where(rated, "current", limit))
     return np.where(state.runaway_at[None, :], np.inf, margin), limit
+
+
+def _hottest_c(state: SteadyState) -> float:
+    """The hottest junction of the draws that settle (NaN never the hottest); −inf without one. [°C]"""
+    settled = ~state.runaway_at[None, :] & ~np.isnan(state.junction_c)
+    return float(np.max(np.where(settled, state.junction_c, -np.inf)))
 
 
 def _least(margin: np.ndarray, limit: np.ndarray) -> tuple[float, int, str]:
@@ -164,8 +181,10 @@ def sharing_monte_carlo(
     Returns
     -------
     SharingSpread
-        The shares, the fractions of draws that hog or run away, and the least margin of any
-        device in any draw that settles (:func:`judge_draws`) with its device and limit.
+        The shares, the fractions of draws that hog or run away, the least margin of any
+        device in any draw that settles (:func:`judge_draws`) with its device and limit (where
+        every current is inside and a junction is past its limit: the junction limit), and the
+        hottest junction.
 
     Notes
     -----
@@ -189,6 +208,7 @@ def sharing_monte_carlo(
     cannot_share = bool(matched.runaway_at[0] or (matched.hogging is not None and matched.hogging[0]))
     rated = stage.with_part(stage.part.rated) if stage.part.policy is not None else None
     least, least_to_rating, device, device_limit = math.inf, math.inf, 0, ""
+    tj_peak_c = -math.inf
     rng = np.random.default_rng(seed)
     shares, gains, runaway, hogging = [], [], 0, 0
     done = 0
@@ -207,10 +227,14 @@ def sharing_monte_carlo(
             least, device, device_limit = found
         to_rating = found[0] if rated is None else _least(*judge_draws(rated, state))[0]
         least_to_rating = min(least_to_rating, to_rating)
+        tj_peak_c = max(tj_peak_c, _hottest_c(state))
         done += size
         if progress is not None:
             progress(done, draws)
     share = np.concatenate(shares)
+    hot_junction = tj_peak_c > stage.part.tj_limit_c
+    if hot_junction and least >= 0:  # every current inside: a junction fails the answer, named by its limit
+        device_limit = stage.part.tj_limit
     return SharingSpread(
         percentile,
         float(np.percentile(share, percentile)),
@@ -224,4 +248,6 @@ def sharing_monte_carlo(
         least_to_rating,
         device,
         device_limit,
+        hot_junction,
+        tj_peak_c,
     )

@@ -395,9 +395,10 @@ def hot_junction_outside(stage: Stage, state: SteadyState, margin: np.ndarray) -
     """``margin`` ``(n, m)`` with every junction past tj_max (under a policy, its ceiling) just below zero.
 
     For answers that judge by one number whatever failed: the largest safe envelope's search
-    and what limits it, and ``sharing``'s draws. A check that reports its margin keeps the
-    current's margin and names the junction limit instead (:meth:`StageRun.summary`,
-    :meth:`soacheck.envelope.EnvelopeCheck.summary`).
+    and what limits it. A check that reports its margin keeps the current's margin and names
+    the junction limit instead (:meth:`StageRun.summary`,
+    :meth:`soacheck.envelope.EnvelopeCheck.summary`, ``sharing``'s
+    :func:`~soacheck.sharing_spread.sharing_monte_carlo`).
     """
     hot = state.junction_c > stage.part.tj_limit_c
     return np.where(hot, np.minimum(margin, -1e-9), margin)

@@ -269,8 +269,11 @@ def sharing(
         ``verdict`` ``fail`` when any draw runs away thermally (no stable state, neither shared
         nor with one device taking the current), or when any device of any draw is outside its
         DC SOA at its own case temperature or above the policy's fraction of i_max (``limit``
-        and ``device`` name it, ``margin`` is its); ``hogging_fraction``, the draws in which one
-        device takes the current, and ``stage_gain_peak``, as the other stage jobs report it.
+        and ``device`` name it, ``margin`` is its), or has its junction past tj_max (under a
+        policy, its ceiling; with every current inside, ``limit`` names the junction limit and
+        ``margin`` stays the current's, 0 or more);
+        ``hogging_fraction``, the draws in which one device takes the current, and
+        ``stage_gain_peak``, as the other stage jobs report it.
     """
     CURRENT.check(current, "--current")
     VOLTAGE.check(voltage, "--voltage")
@@ -375,8 +378,10 @@ class SharingResult(Result):
     outside its DC SOA derated at its own case temperature, past its junction limit, or above
     the policy's fraction of i_max, or could not be evaluated (see
     :func:`~soacheck.sharing_spread.judge_draws`): ``margin`` (also in the JSON) is then the least
-    such margin, ``limit`` and ``device`` that device's. Otherwise the margin is the worst
-    device's current against its continuous rating at the percentile reported.
+    such margin, ``limit`` and ``device`` that device's. Where every current is inside and a
+    junction is past its limit, ``margin`` and ``device`` stay the least margin's, the current's
+    (0 or more), and ``limit`` names the junction limit, as a stage run does. Otherwise the
+    margin is the worst device's current against its continuous rating at the percentile reported.
     """
 
     stage: Stage
