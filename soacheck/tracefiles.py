@@ -69,8 +69,9 @@ def _read_ahead(chunks):
     """The same chunks, the next one made in a thread while the caller works on this one.
 
     Parsing CSV and decoding Parquet release the GIL, as does most of the array work of
-    vetting the samples and of the check, so on two cores reading and checking overlap. At most one chunk waits in the
-    queue, so memory stays at a few chunks whatever the length of the file. An error while
+    vetting the samples and of the check, so on two cores reading and checking overlap.
+    At most one chunk waits in the queue, so memory stays at a few chunks whatever the
+    length of the file. An error while
     reading is raised in the caller at the chunk where it happened; closing the generator
     stops the thread.
     """
