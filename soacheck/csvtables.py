@@ -11,7 +11,7 @@ from __future__ import annotations
 import csv
 import functools
 import re
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -62,9 +62,15 @@ class Table:
 
 
 def _data_lines(path: Path) -> list[int]:
+    return list(data_line_numbers(path))
+
+
+def data_line_numbers(path: Path) -> Iterator[int]:
+    """File line (1-based) of each data row, in order: the non-blank lines after the first (the header)."""
     with open(path, encoding="utf-8-sig", errors="replace") as handle:
-        lines = [n for n, text in enumerate(handle, start=1) if text.strip()]
-    return lines[1:]
+        lines = (n for n, text in enumerate(handle, start=1) if text.strip())
+        next(lines, None)
+        yield from lines
 
 
 def _sniff(path: Path) -> tuple[str, list[str]]:

@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from soacheck.battery import Trajectory
-from soacheck.csvtables import _sniff, fields_message
+from soacheck.csvtables import _sniff, data_line_numbers, fields_message
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 from soacheck.thermal_response import step_range
@@ -197,7 +197,7 @@ def _csv_chunks(path: Path, chunk_rows: int):
                 if offset == 0 and not isinstance(raw.index, pd.RangeIndex):
                     # a first row wider than the header: pandas takes the extra fields as an index
                     # (its "implicit index") and shifts the columns instead of refusing the row
-                    error = f"Expected {len(raw.columns)} fields in line {_first_data_line(path)}, saw "
+                    error = f"Expected {len(raw.columns)} fields in line {next(data_line_numbers(path), 2)}, saw "
                     raise SoacheckError(fields_message(path, sep, error + str(len(raw.columns) + raw.index.nlevels)))
                 raw.columns = [c.strip().lower() for c in raw.columns]
                 yield tuple(_numbers(path, raw, name, offset) for name in TRACE_COLUMNS)
@@ -222,17 +222,6 @@ def _numbers(path: Path, raw: pd.DataFrame, name: str, offset: int) -> np.ndarra
             f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; write a plain number"
         )
     return numbers.to_numpy(dtype=float)
-
-
-def _first_data_line(path: Path) -> int:
-    """File line (1-based) of the first data row: the second non-blank line."""
-    with open(path, encoding="utf-8-sig", errors="replace") as handle:
-        seen = 0
-        for number, text in enumerate(handle, start=1):
-            seen += bool(text.strip())
-            if seen == 2:
-                return number
-    return 2
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):
