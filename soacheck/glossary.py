@@ -285,7 +285,6 @@ _TERMS = [
     # plans and reports
     _t("title", "", "the plan's title"),
     _t("plan", "", "the plan file"),
-    _t("soacheck", "", "the version of soacheck that wrote the report"),
     _t("jobs", "", "each job's answer, failures first"),
     _t("name", "", "the job's name, as the plan gives it"),
     _t("summary", "", "a job's figures: the same names as its command's JSON"),

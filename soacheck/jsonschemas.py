@@ -358,9 +358,9 @@ SCHEMAS: dict[str, Schema] = {
         ),
     ),
     "run": obj(
+        f("written_by", "string"),
         f("title", "string"),
         f("plan", "string"),
-        f("soacheck", "string"),
         f("verdict", "verdict"),
         f(
             "stage",

@@ -18,6 +18,7 @@ from matplotlib.figure import Figure
 
 from soacheck import __version__
 from soacheck.display import column_heading, limit_text, value_text
+from soacheck.filemarks import json_mark
 from soacheck.glossary import words
 from soacheck.jsonvalues import json_text
 from soacheck.library import stage_table
@@ -89,12 +90,16 @@ def slug(text: str) -> str:
 
 
 def report_json(plan: Plan, results: list[JobResult], plot_files: dict[str, list[str]]) -> dict[str, Any]:
-    """The whole run as plain data: failures first."""
+    """The whole run as plain data: failures first.
+
+    Its first key, ``written_by``, names the program and version that wrote it, as every JSON
+    file soacheck writes does (:func:`soacheck.filemarks.json_mark`).
+    """
     ordered = failures_first(results)
     return {
+        **json_mark(),
         "title": plan.title,
         "plan": str(plan.path),
-        "soacheck": __version__,
         "verdict": "pass" if all(r.passed for r in results) else "fail",
         "stage": stage_table(plan.stage),
         "jobs": [

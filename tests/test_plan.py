@@ -46,6 +46,22 @@ def test_demo_plan_runs_end_to_end_with_every_job_kind(demo_report):
     assert html.count("<svg") == sum(len(job["plots"]) for job in report["jobs"])
 
 
+def test_the_report_json_names_the_program_and_version_that_wrote_it_first(demo_report):
+    """report.json starts with ``written_by``, "soacheck" and the version pyproject.toml gives (read here with
+    tomllib), as every JSON file soacheck writes; so a file named report.json is known for soacheck's own."""
+    import tomllib
+
+    from soacheck.filemarks import written_by_soacheck
+
+    version = tomllib.loads((EXAMPLES.parent / "pyproject.toml").read_text())["project"]["version"]
+    path = demo_report / "report.json"
+    report = json.loads(path.read_text(encoding="utf-8"))
+    assert next(iter(report)) == "written_by", list(report)[:3]
+    assert report["written_by"] == f"soacheck {version}"
+    assert "soacheck" not in report  # one key for one thing: the version is in written_by only
+    assert written_by_soacheck(path)
+
+
 def test_failures_come_first_in_the_report(demo_report):
     report = json.loads((demo_report / "report.json").read_text())
     verdicts = [job["verdict"] for job in report["jobs"]]
