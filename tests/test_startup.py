@@ -210,3 +210,35 @@ def test_a_reader_that_stops_early_ends_the_command_quietly(tmp_path, json_flag,
         errors = child.stderr.read().decode()
         assert child.wait(timeout=120) == 141, errors
     assert errors == ""
+
+
+@pytest.mark.parametrize("args", [["--help"], ["sharing", "--help"], ["check", "-h"]], ids=" ".join)
+def test_help_into_a_pipe_whose_reader_is_gone_ends_quietly(args):
+    """``soacheck --help | head -1`` through a real pipe whose reader has already gone (so the first write fails,
+    every time): no traceback, nothing on stderr, exit 141 as for a command's output above, never 1 (unsafe).
+
+    141 = 128 + SIGPIPE (13) (POSIX shell, "Exit Status for Commands"); common practice, no source for the choice.
+    """
+    reader, writer = os.pipe()
+    os.close(reader)  # the reader goes away before anything is written
+    env = {**os.environ, "COLUMNS": "100", "PYTHONPATH": str(ROOT), "SOACHECK_LIBRARY": ""}
+    try:
+        done = subprocess.run(
+            [sys.executable, "-m", "soacheck", *args], cwd=ROOT, env=env, stdout=writer, stderr=subprocess.PIPE
+        )
+    finally:
+        os.close(writer)
+    assert (done.returncode, done.stderr.decode()) == (141, "")
+
+
+def test_every_command_prints_its_help_through_the_class_that_ends_quietly_on_a_closed_pipe():
+    """The pipe test above runs three commands; every other command is built the same way, which this holds."""
+    import typer
+
+    from soacheck.cli import app
+    from soacheck.cli.base import _QuietOnClosedPipe
+
+    group = typer.main.get_command(app)
+    commands: dict = group.commands  # type: ignore[attr-defined]
+    assert isinstance(group, _QuietOnClosedPipe) and "sharing" in commands
+    assert [name for name, command in commands.items() if not isinstance(command, _QuietOnClosedPipe)] == []

@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 from rich.console import Console
-from typer.core import TyperGroup
+from typer.core import TyperCommand, TyperGroup
 
 from soacheck import __version__
 from soacheck.errors import SoacheckError, choose
@@ -53,8 +53,36 @@ def _tidy_help(params) -> None:
             param.metavar = _plain_metavar(param)
 
 
-class _Commands(TyperGroup):
-    """The command group: every parameter gets a plain label in help (see :func:`_tidy_help`)."""
+class _QuietOnClosedPipe:
+    """Help that ends quietly with :data:`CLOSED_PIPE_EXIT` when stdout's reader goes away
+    (``soacheck --help | head -1``), as a command's output does.
+
+    typer prints help through a rich console of its own, which ends a closed pipe with exit
+    code 1 (``rich.console.Console.on_broken_pipe`` raises ``SystemExit(1)``: soacheck's
+    "unsafe"); click's line after it raises :class:`BrokenPipeError` where the reader left
+    later, which typer turns into 1 as well.
+    """
+
+    def get_help(self, ctx):  # noqa: D102
+        try:
+            return super().get_help(ctx)  # type: ignore[misc]
+        except SystemExit:  # printing help exits only where rich's console met a closed pipe
+            raise typer.Exit(_closed_pipe()) from None
+
+    def make_context(self, *args, **kwargs):  # noqa: D102
+        try:
+            return super().make_context(*args, **kwargs)  # type: ignore[misc]
+        except BrokenPipeError:  # the line click writes after the help (eager --help runs here)
+            raise typer.Exit(_closed_pipe()) from None
+
+
+class _Command(_QuietOnClosedPipe, TyperCommand):
+    """A command: its help ends quietly on a closed pipe (:class:`_QuietOnClosedPipe`)."""
+
+
+class _Commands(_QuietOnClosedPipe, TyperGroup):
+    """The command group: every parameter gets a plain label in help (see :func:`_tidy_help`); help ends quietly
+    on a closed pipe (:class:`_QuietOnClosedPipe`)."""
 
     def get_params(self, ctx):  # noqa: D102
         params = super().get_params(ctx)
@@ -68,7 +96,14 @@ class _Commands(TyperGroup):
         return command
 
 
-app = typer.Typer(
+class _App(typer.Typer):
+    """The typer app whose every command is a :class:`_Command` unless it names its own class."""
+
+    def command(self, name=None, *, cls=None, **kwargs):  # noqa: D102
+        return super().command(name, cls=cls or _Command, **kwargs)
+
+
+app = _App(
     name="soacheck",
     cls=_Commands,
     help="Check linear-mode operating points of power transistors against their derated safe operating area.",
