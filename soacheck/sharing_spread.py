@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.policy import policy_of
@@ -105,17 +106,20 @@ def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
     }
 
 
-def judge_draws(stage: Stage, state: SteadyState) -> tuple[np.ndarray, np.ndarray]:
+def judge_draws(
+    stage: Stage, state: SteadyState, breakdown: BreakdownDerating = "auto"
+) -> tuple[np.ndarray, np.ndarray]:
     """Margin [1] and limit of every device in every draw that settles, each ``(n, m)``.
 
     Each device is judged as the other stage jobs judge a steady state
-    (:func:`~soacheck.stage_run.judge_steady_state`, DC), and against the current rating too,
+    (:func:`~soacheck.stage_run.judge_steady_state`, DC, second breakdown derated as
+    ``breakdown`` says), and against the current rating too,
     1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
     kept. The margin is the current's: a junction past tj_max (under a policy, its ceiling)
     keeps it, and its limit names the junction limit where that margin is 0 or more, as in a
     stage run. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
     """
-    _, margin, limit = judge_steady_state(stage, state)
+    _, margin, limit = judge_steady_state(stage, state, breakdown=breakdown)
     policy = policy_of(stage.part.policy)
     rating = 1.0 - state.device_a / (policy.current_factor * stage.part.ratings.i_max_a)
     rated = rating < margin
@@ -157,6 +161,7 @@ def sharing_monte_carlo(
     draws: int = 10000,
     percentile: float = 99.0,
     seed: int = 0,
+    breakdown: BreakdownDerating = "auto",
     progress: Callable[[int, int], None] | None = None,
 ) -> SharingSpread:
     """Steady-state sharing over random V_BE offsets, uniform in the spread band.
@@ -175,6 +180,9 @@ def sharing_monte_carlo(
         Percentile of the worst device's share to report, in (0, 100]. [%]
     seed
         Random seed: the same seed gives the same draws.
+    breakdown
+        Second-breakdown derating of the devices' DC SOA: ``auto``, ``thermal`` or ``none``
+        (:data:`~soacheck.derating.BreakdownDerating`).
     progress
         Called as ``progress(draws done, draws)`` after each batch.
 
@@ -221,11 +229,11 @@ def sharing_monte_carlo(
         hogging += int((own | (cannot_share & ~state.runaway_at)).sum())
         gains.append(state.stage_gain if state.stage_gain is not None else np.zeros(size))
         shares.append(state.device_a.max(axis=0) / total_a)
-        margin, limit = judge_draws(stage, state)
+        margin, limit = judge_draws(stage, state, breakdown)
         found = _least(margin, limit)
         if found[0] < least:
             least, device, device_limit = found
-        to_rating = found[0] if rated is None else _least(*judge_draws(rated, state))[0]
+        to_rating = found[0] if rated is None else _least(*judge_draws(rated, state, breakdown))[0]
         least_to_rating = min(least_to_rating, to_rating)
         tj_peak_c = max(tj_peak_c, _hottest_c(state))
         done += size

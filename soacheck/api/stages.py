@@ -27,7 +27,7 @@ from soacheck.api.options import (
 from soacheck.battery import MODES, Mode
 from soacheck.battery import discharge as battery_discharge
 from soacheck.battery import sweep as battery_sweep
-from soacheck.derating import BreakdownDerating
+from soacheck.derating import BreakdownDerating, breakdown_note
 from soacheck.display import device_name
 from soacheck.errors import SoacheckError, choose
 from soacheck.jobfiles import battery_from
@@ -237,6 +237,7 @@ def sharing(
     draws: int = 10000,
     percentile: float = 99.0,
     seed: int = 0,
+    breakdown: BreakdownDerating = "auto",
     policy: PolicyLike = None,
     library: Library = None,
     progress: Callable[[int, int], None] | None = None,
@@ -257,6 +258,8 @@ def sharing(
         Percentile of the worst device's share to report, in (0, 100].
     seed
         Random seed: the same seed gives the same answer.
+    breakdown
+        Second-breakdown derating of each device's DC SOA: ``auto``, ``thermal`` or ``none``.
     policy
         Design margins: the worst device's current is judged against the policy's current
         fraction of ``i_max`` (see :func:`check` for the forms accepted).
@@ -275,6 +278,7 @@ def sharing(
         ``hogging_fraction``, the draws in which one device takes the current, and
         ``stage_gain_peak``, as the other stage jobs report it.
     """
+    chosen = _breakdown(breakdown)
     CURRENT.check(current, "--current")
     VOLTAGE.check(voltage, "--voltage")
     DRAWS.check(draws, "--draws")
@@ -282,9 +286,9 @@ def sharing(
     SEED.check(seed, "--seed")
     loaded = _stage_under(load_stage(stage, library=library), policy)
     spread = sharing_monte_carlo(
-        loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, progress=progress
+        loaded, current, voltage, draws=draws, percentile=percentile, seed=seed, breakdown=chosen, progress=progress
     )
-    return SharingResult(loaded, loaded.name, float(current), float(voltage), seed, spread)
+    return SharingResult(loaded, loaded.name, float(current), float(voltage), seed, spread, chosen)
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -382,6 +386,7 @@ class SharingResult(Result):
     junction is past its limit, ``margin`` and ``device`` stay the least margin's, the current's
     (0 or more), and ``limit`` names the junction limit, as a stage run does. Otherwise the
     margin is the worst device's current against its continuous rating at the percentile reported.
+    ``breakdown`` is the second-breakdown derating the devices were judged with.
     """
 
     stage: Stage
@@ -390,6 +395,7 @@ class SharingResult(Result):
     voltage_v: float
     seed: int
     spread: SharingSpread
+    breakdown: BreakdownDerating = "auto"
 
     @property
     def passed(self) -> bool:
@@ -427,6 +433,8 @@ class SharingResult(Result):
             f"seed {self.seed}",
             "each draw at its electro-thermal steady state; junctions at the heatsink (or case) plus "
             "P·(rth_jc + R_cs), the heatsink at its steady state under the devices' total power",
+            "each device judged against its DC SOA at its own case temperature; "
+            + breakdown_note(self.stage.part, self.breakdown),
             *(
                 ()
                 if not self.spread.hogging_fraction
