@@ -111,7 +111,9 @@ def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None 
     tj_max at 225 ms, peaking at 156.8 °C``; a current outside the boundary ``SUBJECT leaves
     its safe operating area at 6.25 s (limit power)``; another limit its meaning (``runaway at
     3 s: ...``). A least margin of 0 or more measures the current only and is said to be so,
-    never left to read as the size of the failure; a negative one follows as it is.
+    never left to read as the size of the failure; a negative one follows as it is. A runaway
+    without a margin (``sharing``: no stable state in a draw) says what runaway is and that
+    there is no current margin.
     """
     limit, first, margin = summary.get("limit"), summary.get("first_violation_time"), summary.get("margin")
     when = "" if first is None else f" at {value_text('first_violation_time', first, span_s=span_s)}"
@@ -125,6 +127,8 @@ def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None 
         text = f"{limit}{when}: {LIMITS[limit]}"
     else:
         text = f"{subject} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
+    if margin is None and limit == "runaway":  # no stable state: no current to measure a margin on
+        return text + f": {LIMITS[limit]}; no current margin, as no stable current exists"
     if inside:
         return text + f"; the current stays inside the SOA boundary (least margin {value_text('margin', margin)})"
     return text if margin is None else text + f", least margin {value_text('margin', margin)}"

@@ -90,9 +90,10 @@ _TERMS = [
         "1",
         "1 − I/I_allowed: the fraction of the allowed current still unused; negative outside. Per point at that "
         "point; for a whole result the least over everything checked. A fraction in JSON, a percentage in tables "
-        "and plots; null where nothing is allowed (the limit says why). It measures the current only: a result "
-        "that fails with a margin of 0 or more failed on another limit (a junction past tj_max or tj_ceiling, "
-        "runaway, drive), which its limit names (and, over time, its first_violation_time).",
+        "and plots; null where nothing is allowed, or where paralleled devices have no stable state to measure a "
+        "current in (sharing's runaway): the limit says why. It measures the current only: a result that fails "
+        "with a margin of 0 or more failed on another limit (a junction past tj_max or tj_ceiling, runaway, drive), "
+        "which its limit names (and, over time, its first_violation_time).",
         "margin (%)",
     ),
     _t(
@@ -252,7 +253,12 @@ _TERMS = [
     _t("mean_worst_share", "1", "the worst device's share, averaged over the draws"),
     _t("worst_device_current", "A", "the worst device's current at the chosen percentile"),
     _t("percentile", "%", "percentile of the worst share reported"),
-    _t("runaway_fraction", "1", "fraction of random draws that run away thermally (no stable state: limit runaway)"),
+    _t(
+        "runaway_fraction",
+        "1",
+        "fraction of random draws that run away thermally (no stable state: limit runaway, margin null, as "
+        "there is no current to measure)",
+    ),
     _t(
         "hogging_fraction",
         "1",

@@ -312,7 +312,8 @@ SCHEMAS: dict[str, Schema] = {
             null=True,
             text="the worst device's current against the policy's share of i_max; where a device of a settled draw "
             "is outside its derated DC SOA, past its junction limit or above that share (verdict fail), that "
-            "device's least margin, null when not a number",
+            "device's least margin; null when not a number, and where a draw runs away (limit runaway: no stable "
+            "state, no current to measure)",
         ),
         MARGIN_TO_RATING,
         POLICY,

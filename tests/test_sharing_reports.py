@@ -1,4 +1,4 @@
-"""``sharing``'s options and what its failures carry: the second-breakdown derating.
+"""``sharing``'s options and what its failures carry: the second-breakdown derating, a set that runs away.
 
 Construction: the reference part (conftest: DC current line 15 A to 8.33 V, constant-power line 125 W to
 40 V, second-breakdown line I = 3.125·(40/V)² = 5000/V² A to 100 V; tj_max 150 °C, rth_jc 1.0 K/W, i_max
@@ -23,9 +23,12 @@ The shared state holds: the pair's eigenvalue Z|φ|(d₁ + d₂)/(r₁ + r₂) (
 
 from __future__ import annotations
 
+import math
+
 import pytest
 
 import soacheck
+from soacheck.bipolar import THERMAL_VOLTAGE_V
 
 from .conftest import write_part
 from .helpers import exit_code_for, invoke, validate_output
@@ -81,7 +84,7 @@ def test_sharing_names_the_option_of_a_breakdown_choice_it_does_not_know(hot_cas
     assert done.exit_code == 2, done.output
     assert "--breakdown-derating" in done.output and "thermal" in done.output
     with pytest.raises(soacheck.SoacheckError, match="--breakdown-derating"):
-        soacheck.sharing(hot_case_stage, current=TOTAL_A, voltage=SOURCE_V, draws=20, breakdown="gentle")  # type: ignore[arg-type]
+        soacheck.sharing(hot_case_stage, current=1.0, voltage=SOURCE_V, breakdown="gentle")  # type: ignore[arg-type]
 
 
 def test_sharing_offers_the_breakdown_option_as_the_other_checking_commands_do():
@@ -93,3 +96,33 @@ def test_sharing_offers_the_breakdown_option_as_the_other_checking_commands_do()
         return page[start : page.index("[default: auto]", start)].replace("│", " ")
 
     assert " ".join(option_help("sharing").split()) == " ".join(option_help("check").split())
+
+
+def test_a_set_that_runs_away_has_no_current_margin(tmp_path):
+    """The matched pair of test_hogging on cases held at 25 °C, no emitter resistors, 3 A at 400 V: the equal split's
+    eigenvalue 400·|φ|/(V_T/1.5 A) = 46.7 ≥ 1, and the one stable state left, Q1 taking I₁ (test_hogging's
+    hog_split, brentq), would hold its junction at 25 + 400·I₁·1 K/W, past 1000 °C, where soacheck abandons a
+    fixed point: every draw runs away. No device settles, so there is no current to judge: margin and
+    margin_to_rating null (−inf in Python, as where nothing is allowed), limit runaway, no device, exit 1; not
+    the worst share's 1 − 1.5/15 = 90 %, which the JSON gave before. The text says there is no margin.
+    """
+    from .test_hogging import PHI, hog_split
+
+    assert 400 * abs(PHI) / (THERMAL_VOLTAGE_V / 1.5) >= 1 and 25 + 400 * hog_split(400.0)[0] * 1.0 > 1000.0
+    write_part(tmp_path / "bjt")
+    stage = tmp_path / "stage.toml"
+    stage.write_text('part = "bjt"\ncount = 2\ncase_temp = 25\n')
+    args = ("sharing", stage, "-i", 3, "-v", 400, "--draws", 50)
+    done = invoke(*args, "--json")
+    payload = validate_output("sharing", done.stdout)
+    assert done.exit_code == exit_code_for(payload) == 1, done.output
+    assert (payload["verdict"], payload["limit"], payload["runaway_fraction"]) == ("fail", "runaway", 1.0)
+    assert (payload["margin"], payload["margin_to_rating"], payload["device"]) == (None, None, None)
+    result = soacheck.sharing(stage, current=3, voltage=400, draws=50)
+    assert result.to_dict() == payload
+    assert result.margin == result.margin_to_rating == -math.inf and result.limit == "runaway"
+    text = invoke(*args)
+    assert text.exit_code == 1, text.output
+    verdict = " ".join(text.stdout[text.stdout.index("FAIL") :].split())
+    assert "(limit runaway)" in verdict and "no stable state" in verdict and "no current margin" in verdict
+    assert "%" not in verdict  # no margin figure beside it

@@ -270,7 +270,8 @@ def sharing(
     -------
     SharingResult
         ``verdict`` ``fail`` when any draw runs away thermally (no stable state, neither shared
-        nor with one device taking the current), or when any device of any draw is outside its
+        nor with one device taking the current: ``limit`` ``runaway``, ``margin`` −inf, null in the
+        JSON, since there is no current to measure), or when any device of any draw is outside its
         DC SOA at its own case temperature or above the policy's fraction of i_max (``limit``
         and ``device`` name it, ``margin`` is its), or has its junction past tj_max (under a
         policy, its ceiling; with every current inside, ``limit`` names the junction limit and
@@ -377,8 +378,9 @@ class SharingResult(Result):
     Each draw is settled as every stage job settles its points: where its shared state cannot
     hold (``stage_gain_peak`` 1 or more), the stable state with one device taking the current
     is taken (``hogging_fraction`` counts those draws); a draw with no stable state runs away.
-    The verdict fails when any draw runs away (``runaway_fraction`` above 0); ``margin`` is then
-    −inf and ``limit`` is ``runaway``. It fails too when any device of any draw that settles is
+    The verdict fails when any draw runs away (``runaway_fraction`` above 0); ``limit`` is then
+    ``runaway``, and ``margin`` and ``margin_to_rating`` are −inf (null in the JSON): a set with no
+    stable state has no current to measure a margin on. It fails too when any device of any draw that settles is
     outside its DC SOA derated at its own case temperature, past its junction limit, or above
     the policy's fraction of i_max, or could not be evaluated (see
     :func:`~soacheck.sharing_spread.judge_draws`): ``margin`` (also in the JSON) is then the least
@@ -403,8 +405,6 @@ class SharingResult(Result):
 
     @property
     def margin(self) -> float:
-        if self.spread.runaway_fraction:
-            return -math.inf
         return self._margins()["margin"]  # type: ignore[return-value]
 
     @property
@@ -419,10 +419,13 @@ class SharingResult(Result):
         return self.spread.device if self.spread.outside and not self.spread.runaway_fraction else None
 
     def _margins(self) -> dict[str, object]:
-        """``margin``, ``margin_to_rating``, ``policy``: the worst share's; the least device's where one is outside."""
+        """``margin``, ``margin_to_rating``, ``policy``: the worst share's; the least device's where one is outside;
+        none (−inf, null in the JSON) where a draw runs away: a set with no stable state has no current to measure."""
         s = self.spread
         found = sharing_margins(self.stage.part, s.worst_share * self.current_a)
-        if s.outside and not s.runaway_fraction:
+        if s.runaway_fraction:
+            found.update(margin=-math.inf, margin_to_rating=-math.inf)
+        elif s.outside:
             found.update(margin=s.device_margin, margin_to_rating=s.device_margin_to_rating)
         return found
 
