@@ -113,7 +113,8 @@ def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None 
     3 s: ...``). A least margin of 0 or more measures the current only and is said to be so,
     never left to read as the size of the failure; a negative one follows as it is. A runaway
     without a margin (``sharing``: no stable state in a draw) says what runaway is and that
-    there is no current margin.
+    there is no current margin. A junction limit without a margin (no current allowed where it
+    is least) says where (:func:`_nothing_allowed_text`).
     """
     limit, first, margin = summary.get("limit"), summary.get("first_violation_time"), summary.get("margin")
     when = "" if first is None else f" at {value_text('first_violation_time', first, span_s=span_s)}"
@@ -129,6 +130,30 @@ def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None 
         text = f"{subject} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
     if margin is None and limit == "runaway":  # no stable state: no current to measure a margin on
         return text + f": {LIMITS[limit]}; no current margin, as no stable current exists"
+    if margin is None and limit in JUNCTION_LIMITS:  # no current allowed: say where, and the margin at the ratings
+        return text + _nothing_allowed_text(summary)
     if inside:
         return text + f"; the current stays inside the SOA boundary (least margin {value_text('margin', margin)})"
     return text if margin is None else text + f", least margin {value_text('margin', margin)}"
+
+
+def _nothing_allowed_text(summary: dict[str, Any]) -> str:
+    """Why a result failing on a junction limit has no margin, in words: where no current is allowed.
+
+    Under a policy whose ceiling the hottest case (``case_peak``) reaches, the SOA allows no
+    current at all (the constant-power line (T_ceiling − Tc)/Rth is zero or less there); the
+    margin to the absolute ratings follows where it is a number.
+    """
+    case, policy = summary.get("case_peak"), summary.get("policy") or {}
+    ceiling = policy.get("tj_ceiling")
+    if summary.get("limit") == "tj_ceiling" and case is not None and ceiling is not None and case >= ceiling:
+        text = (
+            f"; the case reaches {value_text('case_peak', case)}, at or above the ceiling "
+            f"({value_text('tj_ceiling', ceiling)}), where the policy allows no current (no margin)"
+        )
+    else:
+        text = "; where the margin is least no current is allowed (no margin)"
+    rated = summary.get("margin_to_rating")
+    if policy.get("name") not in (None, "none") and isinstance(rated, int | float) and math.isfinite(rated):
+        text += f"; against the absolute ratings, least margin {value_text('margin_to_rating', rated)}"
+    return text

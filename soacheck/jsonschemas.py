@@ -304,6 +304,18 @@ SCHEMAS: dict[str, Schema] = {
         f("runaway_fraction", "number"),
         f("hogging_fraction", "number"),
         f("stage_gain_peak", "number"),
+        f(
+            "tj_peak",
+            "number",
+            null=True,
+            text="the hottest junction of any device in any draw that settles; null where none settles",
+        ),
+        f(
+            "case_peak",
+            "number",
+            null=True,
+            text="the hottest case of any device in any draw that settles; null where none settles",
+        ),
         f("draws", "integer"),
         f("seed", "integer"),
         f(

@@ -65,8 +65,8 @@ class SharingSpread:
         without a draw that settles.
     hot_junction
         Whether a junction of a draw that settles is past tj_max (under a policy, its ceiling).
-    tj_peak
-        The hottest junction of any draw that settles; −inf without one. [°C]
+    tj_peak_c, case_peak_c
+        The hottest junction and the hottest case of any draw that settles; −inf without one. [°C]
     """
 
     percentile: float
@@ -83,6 +83,7 @@ class SharingSpread:
     device_limit: str = ""
     hot_junction: bool = False
     tj_peak_c: float = -math.inf
+    case_peak_c: float = -math.inf
 
     @property
     def outside(self) -> bool:
@@ -129,10 +130,11 @@ def judge_draws(
     return np.where(state.runaway_at[None, :], np.inf, margin), limit
 
 
-def _hottest_c(state: SteadyState) -> float:
-    """The hottest junction of the draws that settle (NaN never the hottest); −inf without one. [°C]"""
-    settled = ~state.runaway_at[None, :] & ~np.isnan(state.junction_c)
-    return float(np.max(np.where(settled, state.junction_c, -np.inf)))
+def _hottest_c(state: SteadyState, temperature_c: np.ndarray) -> float:
+    """The highest of ``temperature_c`` ``(n, m)`` (a state's junctions or cases) over the draws that settle
+    (NaN never the highest); −inf without one. [°C]"""
+    settled = ~state.runaway_at[None, :] & ~np.isnan(temperature_c)
+    return float(np.max(np.where(settled, temperature_c, -np.inf)))
 
 
 def _least(margin: np.ndarray, limit: np.ndarray) -> tuple[float, int, str]:
@@ -192,7 +194,7 @@ def sharing_monte_carlo(
         The shares, the fractions of draws that hog or run away, the least margin of any
         device in any draw that settles (:func:`judge_draws`) with its device and limit (where
         every current is inside and a junction is past its limit: the junction limit), and the
-        hottest junction.
+        hottest junction and case.
 
     Notes
     -----
@@ -216,7 +218,7 @@ def sharing_monte_carlo(
     cannot_share = bool(matched.runaway_at[0] or (matched.hogging is not None and matched.hogging[0]))
     rated = stage.with_part(stage.part.rated) if stage.part.policy is not None else None
     least, least_to_rating, device, device_limit = math.inf, math.inf, 0, ""
-    tj_peak_c = -math.inf
+    tj_peak_c, case_peak_c = -math.inf, -math.inf
     rng = np.random.default_rng(seed)
     shares, gains, runaway, hogging = [], [], 0, 0
     done = 0
@@ -235,7 +237,8 @@ def sharing_monte_carlo(
             least, device, device_limit = found
         to_rating = found[0] if rated is None else _least(*judge_draws(rated, state, breakdown))[0]
         least_to_rating = min(least_to_rating, to_rating)
-        tj_peak_c = max(tj_peak_c, _hottest_c(state))
+        tj_peak_c = max(tj_peak_c, _hottest_c(state, state.junction_c))
+        case_peak_c = max(case_peak_c, _hottest_c(state, state.case_c))
         done += size
         if progress is not None:
             progress(done, draws)
@@ -258,4 +261,5 @@ def sharing_monte_carlo(
         device_limit,
         hot_junction,
         tj_peak_c,
+        case_peak_c,
     )

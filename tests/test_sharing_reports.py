@@ -1,4 +1,5 @@
-"""``sharing``'s options and what its failures carry: the second-breakdown derating, a set that runs away.
+"""``sharing``'s options and what its failures carry: the second-breakdown derating, a set that runs away,
+cases past a policy's ceiling.
 
 Construction: the reference part (conftest: DC current line 15 A to 8.33 V, constant-power line 125 W to
 40 V, second-breakdown line I = 3.125·(40/V)² = 5000/V² A to 100 V; tj_max 150 °C, rth_jc 1.0 K/W, i_max
@@ -126,3 +127,38 @@ def test_a_set_that_runs_away_has_no_current_margin(tmp_path):
     verdict = " ".join(text.stdout[text.stdout.index("FAIL") :].split())
     assert "(limit runaway)" in verdict and "no stable state" in verdict and "no current margin" in verdict
     assert "%" not in verdict  # no margin figure beside it
+
+
+def test_cases_past_the_policys_ceiling_fail_with_no_margin_and_say_why(tmp_path):
+    """The reference pair with 0.1 Ω emitter resistors on cases held at 130 °C, 1 A at 10 V, under ``bench``
+    (ceiling 125 °C): each device 0.5 A at 9.95 V, P = 4.975 W, Tj = Tc + P·Rth_jc = 134.975 °C (JEDEC
+    JESD51-1), past the ceiling. At a case at or above the ceiling the policy's power line
+    (T_ceiling − Tc)/Rth_jc is zero or less: no current is allowed, so there is no margin (null, as ``check``
+    gives a point there), limit tj_ceiling. At the ratings the power line is (150 − 130)/1.0 = 20 W, and the
+    margin 1 − P/20 W = 75.1 % (the current line 15 A and the second-breakdown line 0.16·5000/9.95² = 8.1 A
+    allow more). The JSON gives the hottest case and junction; the text says the case passed the ceiling.
+    """
+    write_part(tmp_path / "bjt")
+    stage = tmp_path / "stage.toml"
+    stage.write_text('part = "bjt"\ncount = 2\nballast = 0.1\ncase_temp = 130\nvbe_spread = 0\n')
+    power_w = (10.0 - 0.5 * 0.1) * 0.5
+    args = ("sharing", stage, "-i", 1, "-v", 10, "--draws", 20, "--policy", "bench")
+    done = invoke(*args, "--json")
+    payload = validate_output("sharing", done.stdout)
+    assert done.exit_code == exit_code_for(payload) == 1, done.output
+    assert (payload["verdict"], payload["limit"], payload["device"], payload["margin"]) == (
+        "fail",
+        "tj_ceiling",
+        1,
+        None,
+    )
+    # the curve's power segment starts at 8.3333 V × 15 A = 124.9995 W: 125 W to 4e-6, the tolerance
+    assert payload["margin_to_rating"] == pytest.approx(1 - power_w / 20.0, rel=1e-5)
+    assert payload["case_peak"] == 130.0
+    assert payload["tj_peak"] == pytest.approx(130.0 + power_w * 1.0, abs=1e-6)
+    text = invoke(*args)
+    assert text.exit_code == 1, text.output
+    verdict = " ".join(text.stdout[text.stdout.index("FAIL") :].split())
+    assert "peaking at 135 °C" in verdict and "the case reaches 130 °C" in verdict, verdict  # 4 digits shown
+    assert "the ceiling (125 °C)" in verdict, verdict
+    assert "allows no current" in verdict and "least margin +75.1 %" in verdict, verdict

@@ -466,6 +466,8 @@ class SharingResult(Result):
                 "runaway_fraction": s.runaway_fraction,
                 "hogging_fraction": s.hogging_fraction,
                 "stage_gain_peak": s.stage_gain_peak,
+                "tj_peak": s.tj_peak_c,
+                "case_peak": s.case_peak_c,
                 "draws": s.draws,
                 "seed": self.seed,
                 **self._margins(),

@@ -185,8 +185,6 @@ def sharing(
         console.print("; ".join(f"{words(k)} {value_text(k, payload[k])}" for k in stability), highlight=False)
         print_assumptions(console, result.assumptions)
         summary = {**payload, "margin": result.margin if math.isfinite(result.margin) else None}
-        if spread.hot_junction and result.margin >= 0:  # the junction alone fails: say how hot, as runs do
-            summary["tj_peak"] = spread.tj_peak_c
         subject = "a device" if result.device is None else f"{device_name(result.device)} in the worst draw"
         print_verdict(console, result.passed, summary, subject=subject)
     raise typer.Exit(0 if result.passed else 1)
