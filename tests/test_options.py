@@ -116,3 +116,16 @@ def test_envelope_from_zero_volts_is_refused_with_a_hint(tmp_path):
     result = invoke("envelope", "examples/stage.toml", "--check", env)
     assert result.exit_code == 2, result.output
     assert str(env) in result.stderr and "such as [1, 42]" in result.stderr, result.stderr
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_keeps_every_bracketed_word(command):
+    """A word in square brackets in a help text (``[policy]``, ``soacheck[dask]``, ``[V]``) is
+    printed, not taken by the help's markup as a style tag and dropped."""
+    import typer.main
+
+    click_command = typer.main.get_command(app).commands[command]
+    texts = [click_command.help or ""] + [getattr(p, "help", None) or "" for p in click_command.params]
+    words = {w for text in texts for w in re.findall(r"\[[^\[\]]+\]", text.replace("\\[", "["))}
+    shown = " ".join(invoke(command, "-h").stdout.split())
+    assert [w for w in sorted(words) if w not in shown] == [], shown

@@ -157,7 +157,7 @@ PolicyOpt = Annotated[
         metavar="FILE|none|bench",
         help="Design margins to keep inside the ratings: a policy file (TOML: tj_ceiling, current_fraction, "
         "voltage_fraction, power_fraction), bench (125 °C ceiling, 80 % current and voltage, 90 % power; common "
-        "practice) or none (the absolute ratings). Default: the stage file's [policy], else none.",
+        "practice) or none (the absolute ratings). Default: a stage file's \\[policy] where one is given, else none.",
     ),
 ]
 PlotOpt = Annotated[Path | None, typer.Option("--plot", metavar="FILE", help="Write the plot (.png, .svg or .pdf).")]

@@ -73,11 +73,13 @@ def trace(
     ] = DEFAULT_CHUNK_ROWS,
     jobs: Annotated[
         int | None,
-        typer.Option("--jobs", "-j", help="Files checked at once, each in its own process [default: the core count]."),
+        typer.Option(
+            "--jobs", "-j", help="Files checked at once, each in its own process.", show_default="the core count"
+        ),
     ] = None,
     dask: Annotated[
         str | None,
-        typer.Option("--dask", metavar="ADDRESS", help="Check the files on this Dask scheduler (soacheck[dask])."),
+        typer.Option("--dask", metavar="ADDRESS", help="Check the files on this Dask scheduler (soacheck\\[dask])."),
     ] = None,
     breakdown_derating: BreakdownOpt = "auto",
     policy: PolicyOpt = None,
