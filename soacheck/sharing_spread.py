@@ -14,7 +14,6 @@ current, without passing the shared state it replaces.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -28,7 +27,7 @@ from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
 from soacheck.stage_run import judge_steady_state
-from soacheck.steady_state import SteadyState, steady_state
+from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
 
 
 @dataclass(frozen=True)
@@ -201,8 +200,9 @@ def sharing_monte_carlo(
     Each draw is a DC operating point of :func:`~soacheck.steady_state.steady_state` with its
     own offsets: junctions at case + P·rth_jc, cases P·R_cs above the heatsink, the heatsink at
     its steady state under the devices' total power (or the cases held). Vectorized over draws,
-    in batches of at most :data:`BATCH_DRAWS`. The matched set at the same point is settled once
-    the same way: where its equal split is unstable, every draw that settles is hogging.
+    in batches of at most :data:`BATCH_DRAWS`. Hogging is decided on the matched set, settled at
+    the same point (:func:`~soacheck.steady_state.hogging_on_matched_set`): where its equal split
+    is unstable, every draw that settles is hogging.
     """
     n = stage.count
     DRAWS.check(draws, "draws")
@@ -214,21 +214,18 @@ def sharing_monte_carlo(
     batch = max(1, min(BATCH_DRAWS, draws, memory_budget_bytes() // _bytes_per_draw(n)))
     check_memory(batch * _bytes_per_draw(n), f"Monte Carlo draws of {n} devices", "use fewer devices")
     point_v, point_a = np.array([float(source_v)]), np.array([float(total_a)])
-    matched = steady_state(dataclasses.replace(stage, vbe_spread_v=0.0), point_v, point_a)
-    cannot_share = bool(matched.runaway_at[0] or (matched.hogging is not None and matched.hogging[0]))
     rated = stage.with_part(stage.part.rated) if stage.part.policy is not None else None
     least, least_to_rating, device, device_limit = math.inf, math.inf, 0, ""
     tj_peak_c, case_peak_c = -math.inf, -math.inf
     rng = np.random.default_rng(seed)
-    shares, gains, runaway, hogging = [], [], 0, 0
+    shares, gains, runaway, own = [], [], [], []
     done = 0
     while done < draws:
         size = min(batch, draws - done)
         offsets = rng.uniform(0.0, stage.vbe_spread_v, (n, size))
         state = steady_state(stage, np.full(size, float(source_v)), np.full(size, float(total_a)), offsets_v=offsets)
-        runaway += int(state.runaway_at.sum())
-        own = state.hogging if state.hogging is not None else np.zeros(size, dtype=bool)
-        hogging += int((own | (cannot_share & ~state.runaway_at)).sum())
+        runaway.append(state.runaway_at)
+        own.append(state.hogging if state.hogging is not None else np.zeros(size, dtype=bool))
         gains.append(state.stage_gain if state.stage_gain is not None else np.zeros(size))
         shares.append(state.device_a.max(axis=0) / total_a)
         margin, limit = judge_draws(stage, state, breakdown)
@@ -243,6 +240,10 @@ def sharing_monte_carlo(
         if progress is not None:
             progress(done, draws)
     share = np.concatenate(shares)
+    runaway_at = np.concatenate(runaway)
+    hogging = hogging_on_matched_set(
+        stage, np.concatenate(own), runaway_at, lambda matched: equal_split_unstable(matched, point_v, point_a)
+    )
     hot_junction = tj_peak_c > stage.part.tj_limit_c
     if hot_junction and least >= 0:  # every current inside: a junction fails the answer, named by its limit
         device_limit = stage.part.tj_limit
@@ -252,8 +253,8 @@ def sharing_monte_carlo(
         float(share.mean()),
         1.0 / n,
         draws,
-        runaway / draws,
-        hogging / draws,
+        int(runaway_at.sum()) / draws,
+        int(hogging.sum()) / draws,
         float(np.max(np.concatenate(gains))),
         least,
         least_to_rating,

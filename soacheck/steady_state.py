@@ -4,10 +4,15 @@ Where the devices' shared state is unstable (the electro-thermal Jacobian of the
 has an eigenvalue at or above 1), the state that exists physically is sought instead: one
 device, Q1 (the one with the lowest V_BE), taking the current. It is reported and checked
 when it is itself stable; otherwise the point is runaway.
+
+Whether devices with a V_BE spread hog is decided on the same devices matched
+(:func:`hogging_on_matched_set`): with offsets they may settle straight into the state where
+one device takes the current, and no shared state is ever refused.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -61,6 +66,7 @@ def steady_state(
     sink: Literal["each", "worst"] = "each",
     offsets_v: np.ndarray | None = None,
     max_iterations: int = 2000,
+    hog_search: bool = True,
 ) -> SteadyState:
     """Each device at each operating point once the temperatures have settled.
 
@@ -81,6 +87,10 @@ def steady_state(
     offsets_v
         V_BE (V_GS) offset of each device at each point, shape ``(n, m)`` (random draws); None:
         the stage's worst case, Q1 at the bottom of the spread band and the others at its top. [V]
+    hog_search
+        False: the shared state alone, with ``runaway_at`` wherever it cannot hold and no state
+        with one device taking the current sought (:func:`equal_split_unstable` asks this of a
+        matched set).
 
     Notes
     -----
@@ -139,7 +149,7 @@ def steady_state(
         state, settled, stage_gain = solve(start, cols)
         unstable = (stage_gain >= 1.0) | ~settled if n > 1 else np.zeros(start.shape[1], dtype=bool)
         hogging = np.zeros(start.shape[1], dtype=bool)
-        if unstable.any():
+        if unstable.any() and hog_search:
             hot = start.copy()
             hot[lowest[cols], np.arange(hot.shape[1])] += HOG_START_K
             other, other_settled, other_gain = solve(hot, cols)
@@ -160,6 +170,64 @@ def steady_state(
     gain = stage.loop_gain(currents, vce, z_self, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     idle = _idle_share(idle_total, currents, total, n)
     return SteadyState(currents, vce, power, case, tj, sink_c, gain, unstable & ~hogging, stage_gain, hogging, idle)
+
+
+def equal_split_unstable(
+    stage: Stage,
+    source_v: np.ndarray,
+    total_a: np.ndarray,
+    *,
+    pulse_s: float = DC,
+    duty: float = 1.0,
+    idle_a: np.ndarray | float = 0.0,
+    sink: Literal["each", "worst"] = "each",
+) -> np.ndarray:
+    """Where a stage's devices, matched, cannot share in steady state: the equal split is unstable, ``(m,)``.
+
+    The stage as it is, its V_BE spread aside (the caller hands :func:`hogging_on_matched_set`
+    the matched stage), settled from equal temperatures by :func:`steady_state` under the same
+    conditions (``pulse_s``, ``duty``, ``idle_a``, ``sink``): its shared state is the equal
+    split, which cannot hold where the whole set's stability gain there
+    (:meth:`Stage.stability_gain`) is 1 or more, or where it does not settle below RUNAWAY_C.
+
+    Notes
+    -----
+    For identical devices at an equal split the gain is each device's loop gain
+    G = Rth·(V_CE − I·R_E)·|φ|/(R_E + r_e), r_e = V_T/I: the classic electro-thermal stability
+    condition Rth·∂P/∂Tj < 1 (Spirito, Breglio, d'Alessandro, Rinaldi, MIEL 2002, for any device;
+    for paralleled bipolars with emitter ballast, Arnold & Zoroglu, IEEE Trans. Electron Devices
+    ED-21, 1974, from memory).
+    """
+    found = steady_state(
+        stage, source_v, total_a, pulse_s=pulse_s, duty=duty, idle_a=idle_a, sink=sink, hog_search=False
+    )
+    return found.runaway_at
+
+
+def hogging_on_matched_set(
+    stage: Stage,
+    hogging: np.ndarray,
+    runaway_at: np.ndarray,
+    unstable_when_matched: Callable[[Stage], np.ndarray],
+) -> np.ndarray:
+    """Where the devices of ``stage`` hog (one device takes the current), decided on the matched set, ``(m,)``.
+
+    ``hogging`` where the stage's own shared state could not hold and the state with one
+    device taking the current was found instead, and every point that settled (not
+    ``runaway_at``) where the same devices matched cannot share: their equal split is unstable.
+    With a V_BE spread the devices may settle straight into the state where the device of the
+    lowest V_BE takes the current, never passing a shared state the stability test could refuse;
+    where the equal split is unstable no shared state holds, so every state that settles is
+    that one. ``unstable_when_matched(matched)`` says where, for the stage without its V_BE
+    spread, by the caller's own solver (:func:`equal_split_unstable` for steady states; a stage
+    run's relaxation for runs), so a run and a steady state each judge the matched set as they
+    judge the stage. A stage without spread is its own matched set: ``hogging`` as it is.
+    Stage runs, envelope checks and ``sharing`` (each draw's offsets) decide hogging here.
+    """
+    if stage.vbe_spread_v == 0.0:
+        return hogging
+    matched = dataclasses.replace(stage, vbe_spread_v=0.0)
+    return hogging | (unstable_when_matched(matched) & ~runaway_at)
 
 
 def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray, count: int) -> np.ndarray:
