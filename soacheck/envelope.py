@@ -26,7 +26,7 @@ from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
 from soacheck.stage_run import first_outside, hot_junction_outside, judge_steady_state
-from soacheck.steady_state import SteadyState, steady_state
+from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
 
@@ -227,9 +227,15 @@ def check_envelope(
         )
     placed, notes = stage_for(stage, envelope)
     v, i = envelope.edge(points)
-    state = steady_state(
-        placed, v, i, pulse_s=envelope.pulse_s, duty=envelope.duty, idle_a=envelope.idle_current_a, sink="worst"
+    conditions = {"pulse_s": envelope.pulse_s, "duty": envelope.duty, "idle_a": envelope.idle_current_a}
+    state = steady_state(placed, v, i, **conditions, sink="worst")
+    hogging = hogging_on_matched_set(
+        placed,
+        state.hogging,
+        state.runaway_at,
+        lambda matched: equal_split_unstable(matched, v, i, **conditions, sink="worst"),
     )
+    state = replace(state, hogging=hogging)
     if 0 < envelope.duty < 1 and not math.isinf(envelope.pulse_s) and thermal_model(stage.part) is not None:
         notes.append(
             "repeated pulses: second-breakdown and instability lines derated at the junction temperature where each "
@@ -241,6 +247,12 @@ def check_envelope(
             f"{envelope.idle_current_a:g} A between pulses, shared like the pulse current: each junction peaks at "
             "Tc + P_idle·Rth + (P − P_idle)·Zth(tp, D) (superposition; without a thermal model as DC), the heatsink "
             "sees D·P + (1 − D)·P_idle, and repeated pulses are judged where the junction starts them"
+        )
+    if hogging.any():
+        notes.append(
+            f"from {float(v[np.argmax(hogging)]):g} V the devices cannot share the current (matched, their equal split "
+            "is unstable: the whole set's electro-thermal Jacobian has an eigenvalue ≥ 1): the state in which Q1 takes "
+            f"the current (current hogging) is reported and checked there ({int(hogging.sum())} of {v.size} points)"
         )
     allowed, margin, limit = judge_steady_state(placed, state, envelope.pulse_s, envelope.duty, breakdown)
     to_rating = None

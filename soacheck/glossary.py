@@ -186,8 +186,10 @@ _TERMS = [
     _t(
         "stage_gain_peak",
         "1",
-        "highest eigenvalue of the whole set of devices' electro-thermal Jacobian; 1 or more: the shared state "
-        "cannot hold, and one device takes the current (reported and checked) or the stage runs away",
+        "highest eigenvalue of the whole set of devices' electro-thermal Jacobian at the states reported; 1 or more: "
+        "a state that cannot hold. Whether the devices can share is decided on them matched: where their equal "
+        "split's eigenvalue is 1 or more, one device takes the current (current hogging, named in the assumptions; "
+        "that state is reported and checked, and its own eigenvalue is usually below 1) or the stage runs away",
     ),
     _t(
         "drive_current_peak",

@@ -27,7 +27,7 @@ from soacheck.policy import least_margin, policy_of
 from soacheck.quantities import check_memory
 from soacheck.search import max_safe_setpoint
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
-from soacheck.steady_state import HOG_START_K, TIP_V, SteadyState
+from soacheck.steady_state import HOG_START_K, TIP_V, SteadyState, hogging_on_matched_set
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import temperature_rise
@@ -38,7 +38,10 @@ from soacheck.units import DC
 class StageRun:
     """A trajectory through a stage, device by device, with its check.
 
-    Arrays with a leading ``(n,)`` axis are per device; the time axis is ``(m,)``.
+    Arrays with a leading ``(n,)`` axis are per device; the time axis is ``(m,)``. ``hogging``
+    ``(m,)`` marks the samples where the devices cannot share the current and the state with
+    one device taking it is reported and checked (decided on the devices matched:
+    :func:`~soacheck.steady_state.hogging_on_matched_set`).
     """
 
     stage: Stage
@@ -59,6 +62,7 @@ class StageRun:
     assumptions: tuple[str, ...] = field(default_factory=tuple)
     stage_gain: np.ndarray | None = None
     margin_to_rating: np.ndarray | None = None
+    hogging: np.ndarray | None = None
 
     @property
     def inside(self) -> np.ndarray:
@@ -199,9 +203,13 @@ def run_stage(
         gain = stage.stability_gain(currents, vce, tj, z_self_k_per_w=rth_diff, z_shared_k_per_w=z_shared)
         return state, converged, gain
 
+    def cannot_hold(converged: bool, gain: np.ndarray) -> np.ndarray:
+        """Where the shared state found cannot hold: the whole set's stability gain 1 or more, or unsettled."""
+        return ((gain >= 1.0) | (not converged)) if n > 1 else np.zeros(m, dtype=bool)
+
     start_c = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
     state, converged, stage_gain = relax(start_c)
-    unstable = ((stage_gain >= 1.0) | (not converged)) if n > 1 else np.zeros(m, dtype=bool)
+    unstable = cannot_hold(converged, stage_gain)
     hogging = np.zeros(m, dtype=bool)
     if unstable.any():  # the shared state cannot hold there: look for Q1 taking the current
         hot = start_c.copy()
@@ -215,6 +223,11 @@ def run_stage(
             stage_gain = np.where(hogging, other_gain, stage_gain)
     currents, vce, power, case, tj, sink = state
     runaway_at = unstable & ~hogging
+    # with a V_BE spread the run may settle straight into Q1 taking the current: decided on the devices matched
+    own_hogging = hogging
+    hogging = hogging_on_matched_set(
+        stage, own_hogging, runaway_at, lambda matched: cannot_hold(*relax(start_c, matched)[1:])
+    )
     gain = stage.loop_gain(currents, vce, rth_diff, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, breakdown=breakdown)
     to_rating = None
@@ -235,12 +248,20 @@ def run_stage(
     ]
     notes.extend(sharing_notes(stage))
     notes.extend(instability_notes(part))
-    if hogging.any():
+    if own_hogging.any():
         notes.append(
-            f"from t = {float(t[np.argmax(hogging)]):g} s the shared state is unstable (the whole set's "
+            f"from t = {float(t[np.argmax(own_hogging)]):g} s the shared state is unstable (the whole set's "
             "electro-thermal Jacobian has an eigenvalue ≥ 1): the run into the state in which Q1 takes the current "
             "(matched devices tipped by 1 µV) is reported and checked there, joined sample by sample to the shared "
             "state before"
+        )
+    spread_hogging = hogging & ~own_hogging
+    if spread_hogging.any():
+        notes.append(
+            f"from t = {float(t[np.argmax(spread_hogging)]):g} s the devices cannot share the current: matched, their "
+            "equal split is unstable there (the whole set's electro-thermal Jacobian has an eigenvalue ≥ 1), and with "
+            "the V_BE spread they settle with Q1, at the bottom of the band, taking the current (current hogging), "
+            f"the state reported and checked ({int(spread_hogging.sum())} of {m} samples)"
         )
     if runaway_at.any():
         notes.append(
@@ -267,6 +288,7 @@ def run_stage(
         (*notes, policy_note(part)),
         stage_gain,
         to_rating,
+        hogging,
     )
 
 

@@ -137,3 +137,9 @@ def demo_report(tmp_path_factory):
     result = invoke("demo", "--out", out)
     assert result.exit_code == 0, result.output  # the demo fails one job on purpose, yet exits 0
     return out
+
+
+@pytest.fixture
+def bjt(tmp_path):
+    """The reference curve as an npn part in ``tmp_path/bjt`` (rth_jc 1.0 K/W, tj_max 150 °C, no thermal model)."""
+    return read_part(write_part(tmp_path / "bjt"))

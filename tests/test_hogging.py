@@ -113,11 +113,6 @@ def test_the_pair_eigenvalue_lies_between_the_devices_loop_gains():
     assert each.min() < got[0] < each.max()
 
 
-@pytest.fixture
-def bjt(tmp_path):
-    return read_part(write_part(tmp_path / "bjt"))  # rth_jc 1.0 K/W, tj_max 150 °C, no thermal model
-
-
 def hog_split(volts: float) -> tuple[float, float]:
     """The matched pair's stable state with Q1 taking the current, 3 A at ``volts`` on cases held at 25 °C,
     rth_jc 1 K/W, no emitter resistors: x = ln I₂, I₁ = 3 − eˣ, V_T ln(I₁/I₂) = |φ|·V·(I₁ − I₂), by brentq. [A]"""
