@@ -131,6 +131,9 @@ class EnvelopeCheck:
     device not :attr:`inside`): dicts with ``from_voltage``, ``to_voltage``, ``limit`` and
     ``margin`` (the least in that stretch; the limit is where it is least, or, when every
     current there is inside its boundary, the junction limit of the stretch's first point past it).
+    ``state.hogging`` marks the edge points where the devices cannot share the current, decided
+    on them matched (:func:`~soacheck.steady_state.hogging_on_matched_set`): the state with one
+    device taking it is reported and checked there.
     """
 
     envelope: Envelope

@@ -184,11 +184,11 @@ def equal_split_unstable(
 ) -> np.ndarray:
     """Where a stage's devices, matched, cannot share in steady state: the equal split is unstable, ``(m,)``.
 
-    The stage as it is, its V_BE spread aside (the caller hands :func:`hogging_on_matched_set`
-    the matched stage), settled from equal temperatures by :func:`steady_state` under the same
-    conditions (``pulse_s``, ``duty``, ``idle_a``, ``sink``): its shared state is the equal
-    split, which cannot hold where the whole set's stability gain there
-    (:meth:`Stage.stability_gain`) is 1 or more, or where it does not settle below RUNAWAY_C.
+    ``stage`` is the matched set (without its V_BE spread, as :func:`hogging_on_matched_set`
+    hands it over), settled from equal temperatures by :func:`steady_state` under the
+    conditions of the check (``pulse_s``, ``duty``, ``idle_a``, ``sink``) and no further: its
+    shared state is the equal split, which cannot hold where the whole set's stability gain
+    there (:meth:`Stage.stability_gain`) is 1 or more, or where it does not settle below RUNAWAY_C.
 
     Notes
     -----
