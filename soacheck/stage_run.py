@@ -207,7 +207,7 @@ def run_stage(
         """Where the shared state found cannot hold: the whole set's stability gain 1 or more, or unsettled."""
         return ((gain >= 1.0) | (not converged)) if n > 1 else np.zeros(m, dtype=bool)
 
-    start_c = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c)
+    start_c = np.full((n, m), stage.cooling.ambient_c if stage.cooling else stage.case_temp_c, dtype=float)
     state, converged, stage_gain = relax(start_c)
     unstable = cannot_hold(converged, stage_gain)
     hogging = np.zeros(m, dtype=bool)

@@ -122,7 +122,7 @@ def steady_state(
     given = stage.offsets_v[: counts.size, None] if offsets_v is None else np.asarray(offsets_v, dtype=float)
     offsets = np.broadcast_to(given, (counts.size, m))
     lowest = np.argmin(offsets, axis=0)  # the device that takes the current where the shared state cannot hold
-    start_c = np.full((counts.size, m), cooling.ambient_c if cooling else stage.case_temp_c)
+    start_c = np.full((counts.size, m), cooling.ambient_c if cooling else stage.case_temp_c, dtype=float)
 
     law = {"z": z, "rth": rth, "average": average, "sink": sink, "counts": counts}
     gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared, "counts": counts}

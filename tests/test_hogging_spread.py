@@ -192,3 +192,19 @@ def test_sharing_decides_as_runs_and_envelopes_do(pair, volts, hogs):
     assert bool(equal_split_gain(volts) >= 1.0) is hogs
     spread = soacheck.sharing(pair, current=TOTAL, voltage=volts, draws=200).spread
     assert spread.hogging_fraction == (1.0 if hogs else 0.0) and spread.runaway_fraction == 0.0
+
+
+def test_a_stage_held_at_a_whole_number_of_degrees_hogs_as_at_the_same_float(bjt):
+    """``Stage(case_temp_c=25)`` from Python: the matched pair past its threshold (3 A at 20 V) looks for the
+    state with Q1 taking the current from temperatures offset by a float; it stopped with an internal error
+    (integer arrays) and now answers as with 25.0."""
+    import soacheck
+
+    answers = [
+        soacheck.sweep(Stage(bjt, 2, case_temp_c=case), ramp="current", start=2.9, stop=TOTAL, at=20.0).to_dict()
+        for case in (25, 25.0)
+    ]
+    assert answers[0] == answers[1]
+    assert any("Q1 takes the current" in note for note in answers[0]["assumptions"])
+    envelope = Envelope(15.0, 20.0, TOTAL, 1000.0, ambient_c=None, case_temp_c=25)
+    assert check_envelope(Stage(bjt, 2, case_temp_c=25), envelope).state.hogging.all()
