@@ -25,7 +25,7 @@ from soacheck.instability import instability_notes
 from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
-from soacheck.stage_run import first_outside, hot_junction_outside, judge_steady_state
+from soacheck.stage_run import first_outside, inside_limits, judge_steady_state, ranked_margin
 from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
@@ -124,13 +124,13 @@ class EnvelopeCheck:
     """A stage checked against an envelope, along the envelope's upper edge.
 
     ``margin`` and ``limit`` are per device and edge point, ``(n, m)``: the margin is the
-    current's (1 − I/I_allowed; −inf at a dropout, just below 0 in runaway or short of drive),
-    so a junction past tj_max (under a policy, its ceiling) keeps its current's margin, which
-    may be 0 or more, and its limit names the junction's limit, as in a stage run.
-    ``outside`` lists the stretches of source voltage where the edge is not covered (some
-    device not :attr:`inside`): dicts with ``from_voltage``, ``to_voltage``, ``limit`` and
-    ``margin`` (the least in that stretch; the limit is where it is least, or, when every
-    current there is inside its boundary, the junction limit of the stretch's first point past it).
+    current's (1 − I/I_allowed; −inf at a dropout), so a point in runaway, short of drive, or
+    with its junction past tj_max (under a policy, its ceiling) keeps its current's margin, which
+    may be 0 or more, and its limit names what fails it (``runaway``, ``drive``, the junction's
+    limit), as in a stage run. ``outside`` lists the stretches of source voltage where the edge
+    is not covered (some device not :attr:`inside`): dicts with ``from_voltage``, ``to_voltage``,
+    ``limit`` and ``margin`` (the least in that stretch; the limit is where it is least, or, when
+    every current there is inside its boundary, the limit of the stretch's first point that fails).
     ``state.hogging`` marks the edge points where the devices cannot share the current, decided
     on them matched (:func:`~soacheck.steady_state.hogging_on_matched_set`): the state with one
     device taking it is reported and checked there.
@@ -150,9 +150,8 @@ class EnvelopeCheck:
 
     @property
     def inside(self) -> np.ndarray:
-        """(n, m): the current inside its boundary (a margin of 0 or more: no dropout, no runaway, driven) and
-        the junction at or below tj_max (under a policy, its ceiling); a margin that is not a number is not inside."""
-        return _inside(self.stage, self.state, self.margin)
+        """(n, m): each device inside at each edge point, by :func:`~soacheck.stage_run.inside_limits`."""
+        return inside_limits(self.stage, self.margin, self.limit, self.state.junction_c)
 
     @property
     def passed(self) -> bool:
@@ -167,7 +166,8 @@ class EnvelopeCheck:
     @property
     def failed_limit(self) -> str:
         """The limit the answer names: where the margin is least, or, for a check that fails with every current
-        inside its boundary (a least margin of 0 or more), the junction limit its first violation passed."""
+        inside its boundary (a least margin of 0 or more), the limit its first violation passed (a junction
+        limit, ``runaway`` or ``drive``)."""
         found = self.first_violation
         if found is not None and self.min_margin >= 0:
             return str(self.limit[found])
@@ -208,11 +208,6 @@ class EnvelopeCheck:
         }
 
 
-def _inside(stage: Stage, state: SteadyState, margin: np.ndarray) -> np.ndarray:
-    """(n, m): a margin of 0 or more (not NaN) and the junction at or below tj_max (under a policy, its ceiling)."""
-    return (margin >= 0) & (state.junction_c <= stage.part.tj_limit_c)
-
-
 def check_envelope(
     stage: Stage, envelope: Envelope, *, breakdown: BreakdownDerating = "auto", points: int = 400
 ) -> EnvelopeCheck:
@@ -220,8 +215,9 @@ def check_envelope(
 
     A point fails where a device leaves its SOA (derated at its own case temperature, for
     the envelope's pulse condition), where a junction passes tj_max, where the stage runs
-    away, or where the devices would need a negative V_CE (``dropout``: the resistors alone
-    drop more than the source gives, so the load cannot draw that current).
+    away, where the driver falls short, or where the devices would need a negative V_CE
+    (``dropout``: the resistors alone drop more than the source gives, so the load cannot draw
+    that current): :func:`~soacheck.stage_run.inside_limits`.
     """
     if envelope.v_min_v > stage.part.ratings.v_max_v:
         raise SoacheckError(
@@ -262,7 +258,7 @@ def check_envelope(
     if placed.part.policy is not None:  # the same steady states, judged against the absolute ratings
         rated = placed.with_part(placed.part.rated)
         to_rating = judge_steady_state(rated, state, envelope.pulse_s, envelope.duty, breakdown)[1]
-    inside = _inside(placed, state, margin)
+    inside = inside_limits(placed, margin, limit, state.junction_c)
     bad = (~inside).any(axis=0)
     outside = []
     if bad.any():
@@ -271,7 +267,7 @@ def check_envelope(
             block = margin[:, start:stop]
             d, k = np.unravel_index(int(np.argmin(block)), block.shape)
             worst = float(block[d, k])
-            if worst >= 0:  # every current inside: a junction fails the stretch, named at its first point
+            if worst >= 0:  # every current inside: the stretch fails on another limit, named at its first point
                 d, k = int(np.argmax(~inside[:, start])), 0
             outside.append(
                 {
@@ -340,7 +336,7 @@ def largest_safe_envelope(
     def safe(current: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         state = steady_state(stage, v, current, pulse_s=pulse_s, duty=duty, idle_a=idle_current_a, sink="each")
         _, margin, limit = judge_steady_state(stage, state, pulse_s, duty, breakdown)
-        ranked = hot_junction_outside(stage, state, margin)  # unsafe, and what limits as a current just outside
+        ranked = ranked_margin(stage, state, margin, limit)  # unsafe, and what limits as a current just outside
         d = np.argmin(ranked, axis=0)
         return (ranked >= 0).all(axis=0), limit[d, np.arange(v.size)]
 

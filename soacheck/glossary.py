@@ -68,6 +68,10 @@ JUNCTION_LIMITS: tuple[str, ...] = ("tj_max", "tj_ceiling")
 """The limits a junction temperature passes, not the current boundary: a point past one of them
 fails while its current may still be inside (a margin of 0 or more)."""
 
+STATE_LIMITS: tuple[str, ...] = ("runaway", "drive", "dropout")
+"""The limits of a stage's state, not of the current boundary: a point that reaches one fails whatever its
+current, which keeps its own margin (of 0 or more where the current is inside; ``dropout``: −inf)."""
+
 VERDICTS: dict[str, str] = {
     "pass": "everything checked is inside its derated safe operating area",
     "fail": "something checked is outside, or reaches a limit",

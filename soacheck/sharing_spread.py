@@ -22,11 +22,12 @@ import numpy as np
 
 from soacheck.derating import BreakdownDerating
 from soacheck.errors import SoacheckError
+from soacheck.glossary import STATE_LIMITS
 from soacheck.parts import Part
 from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
-from soacheck.stage_run import judge_steady_state
+from soacheck.stage_run import first_outside, inside_limits, judge_steady_state
 from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
 
 
@@ -56,16 +57,21 @@ class SharingSpread:
         SOA derated at its own case temperature and against the current rating (the policy's
         fraction of i_max; the least of the two), under the part's policy and at the ratings;
         −inf where a device could not be evaluated, inf without a draw that settles. The
-        current's margin: a junction past its limit does not change it (``hot_junction``). [1]
+        current's margin: a junction past its limit or a driver that falls short does not change it
+        (``hot_junction``, ``failure``). [1]
     device, device_limit
         The device (numbered from 1) where ``device_margin`` is least, and its limit or, where
-        that margin is 0 or more and a junction is past its limit, the junction limit (``tj_max``,
-        under a policy with a ceiling ``tj_ceiling``), as a stage run names them; 0 and empty
-        without a draw that settles.
+        that margin is 0 or more and a device fails on another limit, that limit (``failure``: the
+        junction's ``tj_max``, under a policy with a ceiling ``tj_ceiling``, or ``drive``), as a
+        stage run names them; 0 and empty without a draw that settles.
     hot_junction
         Whether a junction of a draw that settles is past tj_max (under a policy, its ceiling).
     tj_peak_c, case_peak_c
         The hottest junction and the hottest case of any draw that settles; −inf without one. [°C]
+    failure, failure_device
+        The limit and device (from 1) of the first device, in the first draw that settles with one, that is
+        not inside (:func:`~soacheck.stage_run.inside_limits`: its current outside, its junction past its
+        limit, short of drive); empty and 0 where every device of every draw that settles is inside.
     """
 
     percentile: float
@@ -83,12 +89,14 @@ class SharingSpread:
     hot_junction: bool = False
     tj_peak_c: float = -math.inf
     case_peak_c: float = -math.inf
+    failure: str = ""
+    failure_device: int = 0
 
     @property
     def outside(self) -> bool:
         """Whether a device of a draw that settles is outside its SOA or its current rating, is not evaluated,
-        or has its junction past tj_max (under a policy, its ceiling)."""
-        return not self.device_margin >= 0 or self.hot_junction
+        has its junction past tj_max (under a policy, its ceiling), or is short of drive."""
+        return not self.device_margin >= 0 or self.hot_junction or bool(self.failure)
 
 
 def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
@@ -108,16 +116,17 @@ def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
 
 def judge_draws(
     stage: Stage, state: SteadyState, breakdown: BreakdownDerating = "auto"
-) -> tuple[np.ndarray, np.ndarray]:
-    """Margin [1] and limit of every device in every draw that settles, each ``(n, m)``.
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Margin [1], limit and whether inside, of every device in every draw that settles, each ``(n, m)``.
 
     Each device is judged as the other stage jobs judge a steady state
     (:func:`~soacheck.stage_run.judge_steady_state`, DC, second breakdown derated as
-    ``breakdown`` says), and against the current rating too,
+    ``breakdown`` says, and :func:`~soacheck.stage_run.inside_limits`), and against the current rating too,
     1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
-    kept. The margin is the current's: a junction past tj_max (under a policy, its ceiling)
-    keeps it, and its limit names the junction limit where that margin is 0 or more, as in a
-    stage run. A draw that runs away is left out (margin inf): it fails on its own. NaN stays NaN.
+    kept. The margin is the current's: a junction past tj_max (under a policy, its ceiling) or a
+    device short of drive keeps it, and its limit names the junction limit where that margin is
+    0 or more, or ``drive``, as in a stage run. A draw that runs away is left out (margin inf,
+    inside): it fails on its own. NaN stays NaN, never inside.
     """
     _, margin, limit = judge_steady_state(stage, state, breakdown=breakdown)
     policy = policy_of(stage.part.policy)
@@ -125,8 +134,10 @@ def judge_draws(
     rated = rating < margin
     margin = np.where(rated, rating, margin)
     hot = (state.junction_c > stage.part.tj_limit_c) & (margin >= 0) & ~state.runaway_at[None, :]
-    limit = np.where(hot, stage.part.tj_limit, np.where(rated, "current", limit))
-    return np.where(state.runaway_at[None, :], np.inf, margin), limit
+    named = np.where(hot, stage.part.tj_limit, np.where(rated, "current", limit))
+    limit = np.where(np.isin(limit, STATE_LIMITS), limit, named)  # runaway, drive, dropout fail whatever the current
+    inside = inside_limits(stage, margin, limit, state.junction_c) | state.runaway_at[None, :]
+    return np.where(state.runaway_at[None, :], np.inf, margin), limit, inside
 
 
 def _hottest_c(state: SteadyState, temperature_c: np.ndarray) -> float:
@@ -192,8 +203,8 @@ def sharing_monte_carlo(
     SharingSpread
         The shares, the fractions of draws that hog or run away, the least margin of any
         device in any draw that settles (:func:`judge_draws`) with its device and limit (where
-        every current is inside and a junction is past its limit: the junction limit), and the
-        hottest junction and case.
+        every current is inside and a device fails on another limit: that limit), the first
+        device that fails and its limit, and the hottest junction and case.
 
     Notes
     -----
@@ -216,6 +227,7 @@ def sharing_monte_carlo(
     point_v, point_a = np.array([float(source_v)]), np.array([float(total_a)])
     rated = stage.with_part(stage.part.rated) if stage.part.policy is not None else None
     least, least_to_rating, device, device_limit = math.inf, math.inf, 0, ""
+    failure, failure_device = "", 0
     tj_peak_c, case_peak_c = -math.inf, -math.inf
     rng = np.random.default_rng(seed)
     shares, gains, runaway, own = [], [], [], []
@@ -228,11 +240,14 @@ def sharing_monte_carlo(
         own.append(state.hogging if state.hogging is not None else np.zeros(size, dtype=bool))
         gains.append(state.stage_gain if state.stage_gain is not None else np.zeros(size))
         shares.append(state.device_a.max(axis=0) / total_a)
-        margin, limit = judge_draws(stage, state, breakdown)
+        margin, limit, inside = judge_draws(stage, state, breakdown)
         found = _least(margin, limit)
         if found[0] < least:
             least, device, device_limit = found
-        to_rating = found[0] if rated is None else _least(*judge_draws(rated, state, breakdown))[0]
+        first = first_outside(inside)
+        if first is not None and not failure:
+            failure, failure_device = str(limit[first]), first[0] + 1
+        to_rating = found[0] if rated is None else _least(*judge_draws(rated, state, breakdown)[:2])[0]
         least_to_rating = min(least_to_rating, to_rating)
         tj_peak_c = max(tj_peak_c, _hottest_c(state, state.junction_c))
         case_peak_c = max(case_peak_c, _hottest_c(state, state.case_c))
@@ -245,8 +260,8 @@ def sharing_monte_carlo(
         stage, np.concatenate(own), runaway_at, lambda matched: equal_split_unstable(matched, point_v, point_a)
     )
     hot_junction = tj_peak_c > stage.part.tj_limit_c
-    if hot_junction and least >= 0:  # every current inside: a junction fails the answer, named by its limit
-        device_limit = stage.part.tj_limit
+    if failure and least >= 0:  # every current inside: another limit fails the answer (a junction's, drive)
+        device_limit = failure
     return SharingSpread(
         percentile,
         float(np.percentile(share, percentile)),
@@ -263,4 +278,6 @@ def sharing_monte_carlo(
         hot_junction,
         tj_peak_c,
         case_peak_c,
+        failure,
+        failure_device,
     )

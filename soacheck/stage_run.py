@@ -20,6 +20,7 @@ from soacheck.boundary import allowed_current
 from soacheck.derating import BreakdownDerating, policy_note
 from soacheck.errors import SoacheckError
 from soacheck.fixed_point import anderson
+from soacheck.glossary import STATE_LIMITS
 from soacheck.instability import instability_notes
 from soacheck.parts import Part
 from soacheck.points import overload_of
@@ -66,9 +67,8 @@ class StageRun:
 
     @property
     def inside(self) -> np.ndarray:
-        """(n, m): inside the SOA and at or below tj_max (under a policy, its ceiling), not in runaway, driven."""
-        ok = (self.device_a <= self.allowed_a) & (self.junction_c <= self.stage.part.tj_limit_c)
-        return ok & ~np.isin(self.limit, ("runaway", "drive"))
+        """(n, m): each device inside at each sample, by :func:`inside_limits`."""
+        return inside_limits(self.stage, self.margin, self.limit, self.junction_c)
 
     @property
     def passed(self) -> bool:
@@ -134,6 +134,34 @@ class StageRun:
             "energy": energy_wh,
             "duration": float(self.time_s[-1] - self.time_s[0]),
         }
+
+
+def fails_whatever_current(stage: Stage, limit: np.ndarray, junction_c: np.ndarray) -> np.ndarray:
+    """(n, m): where a device fails whatever its current: its junction not at or below tj_max (under a policy,
+    its ceiling; a junction that is not a number never is), or its ``limit`` one of the stage's state
+    (:data:`~soacheck.glossary.STATE_LIMITS`: ``runaway``, ``drive``, ``dropout``)."""
+    return ~(junction_c <= stage.part.tj_limit_c) | np.isin(limit, STATE_LIMITS)
+
+
+def inside_limits(stage: Stage, margin: np.ndarray, limit: np.ndarray, junction_c: np.ndarray) -> np.ndarray:
+    """(n, m): whether each device is inside at each point, the one rule every stage check judges by.
+
+    Inside: the current within its boundary (``margin`` 0 or more: on the boundary is inside, a
+    margin that is not a number never is), and nothing that fails it whatever its current
+    (:func:`fails_whatever_current`: the junction past tj_max or the policy's tj_ceiling, runaway,
+    drive, dropout). Stage runs (:attr:`StageRun.inside`), envelope checks
+    (:attr:`soacheck.envelope.EnvelopeCheck.inside`) and ``sharing``'s draws
+    (:func:`soacheck.sharing_spread.judge_draws`) judge here; a failing point keeps its current's
+    margin, and its ``limit`` names what failed (:func:`check_devices`, :func:`judge_steady_state`).
+
+    Parameters
+    ----------
+    stage
+        The stage: its part's junction limit.
+    margin, limit, junction_c
+        Each device's margin 1 − I/I_allowed [1], limit, and junction temperature [°C] at each point, ``(n, m)``.
+    """
+    return (margin >= 0) & ~fails_whatever_current(stage, limit, junction_c)
 
 
 def first_outside(inside: np.ndarray) -> tuple[int, int] | None:
@@ -388,11 +416,12 @@ def judge_steady_state(
     """Allowed current [A], margin [1] and limit of every device at every steady-state point, each ``(n, m)``.
 
     :func:`check_devices` on the settled state, with ``dropout`` (V_CE at or below zero: margin
-    −inf) folded in, and a margin just below zero wherever the stage runs away or the driver
-    falls short: those points fail whatever their current. A junction past its limit keeps its
-    current's margin and is labelled ``tj_max`` (``tj_ceiling``) where its current is inside, as
-    in a stage run; :func:`hot_junction_outside` counts it as just outside where an answer needs
-    one number. Envelopes, the largest safe envelope and ``sharing`` judge their steady states here.
+    −inf) folded in. Every margin is the current's: a point in runaway, short of drive, or with
+    its junction past its limit keeps it, and its limit names what fails it (``runaway``,
+    ``drive``; ``tj_max`` or ``tj_ceiling`` where its current is inside), as in a stage run;
+    :func:`inside_limits` judges it, and :func:`ranked_margin` counts it as just outside where an
+    answer needs one number. Envelopes, the largest safe envelope and ``sharing`` judge their
+    steady states here.
     """
     allowed, margin, limit = check_devices(
         stage,
@@ -413,17 +442,17 @@ def judge_steady_state(
     return allowed, margin, limit
 
 
-def hot_junction_outside(stage: Stage, state: SteadyState, margin: np.ndarray) -> np.ndarray:
-    """``margin`` ``(n, m)`` with every junction past tj_max (under a policy, its ceiling) just below zero.
+def ranked_margin(stage: Stage, state: SteadyState, margin: np.ndarray, limit: np.ndarray) -> np.ndarray:
+    """``margin`` ``(n, m)`` with every point that fails whatever its current (:func:`fails_whatever_current`)
+    just below zero (−1e-9 at most): 0 or more exactly where :func:`inside_limits` holds.
 
     For answers that judge by one number whatever failed: the largest safe envelope's search
     and what limits it. A check that reports its margin keeps the current's margin and names
-    the junction limit instead (:meth:`StageRun.summary`,
+    the limit that failed instead (:meth:`StageRun.summary`,
     :meth:`soacheck.envelope.EnvelopeCheck.summary`, ``sharing``'s
     :func:`~soacheck.sharing_spread.sharing_monte_carlo`).
     """
-    hot = state.junction_c > stage.part.tj_limit_c
-    return np.where(hot, np.minimum(margin, -1e-9), margin)
+    return np.where(fails_whatever_current(stage, limit, state.junction_c), np.minimum(margin, -1e-9), margin)
 
 
 def _temperatures(stage: Stage, junction: Foster, t: np.ndarray, power: np.ndarray):

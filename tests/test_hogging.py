@@ -409,8 +409,9 @@ def test_a_device_that_cannot_be_evaluated_is_never_inside(bjt):
         gain=0.0 * one,
         runaway_at=np.array([False]),
     )
-    margin, limit = judge_draws(Stage(bjt, 2, case_temp_c=25.0), state)
+    margin, limit, inside = judge_draws(Stage(bjt, 2, case_temp_c=25.0), state)
     assert margin[0, 0] == pytest.approx(1 - 1.0 / 15.0, rel=1e-12) and np.isnan(margin[1, 0])
+    assert inside[:, 0].tolist() == [True, False]
     least, device, _ = _least(margin, limit)
     assert (least, device) == (-math.inf, 2)
     assert SharingSpread(99.0, 0.5, 0.5, 0.5, 1, 0.0, device_margin=least).outside
