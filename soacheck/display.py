@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from soacheck.glossary import JUNCTION_LIMITS, LIMITS, heading, unit
+from soacheck.glossary import JUNCTION_LIMITS, LIMITS, STATE_LIMITS, heading, unit
 
 PERCENT = frozenset(
     {
@@ -49,6 +49,12 @@ def format_time(seconds: float, *, span_s: float | None = None) -> str:
 def device_name(number: int) -> str:
     """A device numbered from 1 as a person names it: ``Q1``."""
     return f"Q{number}"
+
+
+def failing_device(number: int | None, count: int) -> str | None:
+    """The device a failure is at as a person names it (``Q2``), where a stage has more than one device;
+    None with one device (there is nothing to tell apart) or no device."""
+    return device_name(number) if number and count > 1 else None
 
 
 def value_text(
@@ -104,37 +110,48 @@ def limit_text(name: str | None) -> str:
     return name if name in LIMITS else str(name)
 
 
-def failure_text(summary: dict[str, Any], *, subject: str, span_s: float | None = None) -> str:
+def failure_text(
+    summary: dict[str, Any], *, subject: str, span_s: float | None = None, device: str | None = None
+) -> str:
     """Why a failing result fails, in one line of words, from its JSON figures.
 
-    The first violation's limit and time lead: a junction limit reads ``the junction passes
-    tj_max at 225 ms, peaking at 156.8 °C``; a current outside the boundary ``SUBJECT leaves
-    its safe operating area at 6.25 s (limit power)``; another limit its meaning (``runaway at
-    3 s: ...``). A least margin of 0 or more measures the current only and is said to be so,
+    The limit it names and its first violation's time lead: a junction limit reads ``the
+    junction passes tj_max at 225 ms, peaking at 156.8 °C``; a limit of the stage's state
+    (``runaway``, ``drive``, ``dropout``), or another limit passed with the current inside, its
+    meaning (``drive at 3 s: the base driver ...``); a current outside the boundary ``SUBJECT
+    leaves its safe operating area at 6.25 s (limit power)``. ``device`` names the device the
+    failure is at (``Q2``; :func:`failing_device`, given where a stage has more than one):
+    ``the junction of Q2 passes ...``, ``drive (Q1) at 3 s: ...``, ``Q2 leaves ...`` in place of
+    ``SUBJECT``. A least margin of 0 or more measures the current only and is said to be so,
     never left to read as the size of the failure; a negative one follows as it is. A runaway
-    without a margin (``sharing``: no stable state in a draw) says what runaway is and that
-    there is no current margin. A junction limit without a margin (no current allowed where it
-    is least) says where (:func:`_nothing_allowed_text`).
+    without a margin (``sharing``: no stable state in a draw) says that there is no current
+    margin. A junction limit without a margin (no current allowed where it is least) says where
+    (:func:`_nothing_allowed_text`).
     """
     limit, first, margin = summary.get("limit"), summary.get("first_violation_time"), summary.get("margin")
     when = "" if first is None else f" at {value_text('first_violation_time', first, span_s=span_s)}"
     inside = isinstance(margin, int | float) and math.isfinite(margin) and margin >= 0
+    least = "" if margin is None else f"least margin {value_text('margin', margin)}"
     if limit in JUNCTION_LIMITS:
         peak = summary.get("tj_peak")
-        text = f"the junction passes {limit}{when}" + (
+        junction = "the junction" if device is None else f"the junction of {device}"
+        text = f"{junction} passes {limit}{when}" + (
             "" if peak is None else f", peaking at {value_text('tj_peak', peak)}"
         )
-    elif inside and limit in LIMITS:
-        text = f"{limit}{when}: {LIMITS[limit]}"
+    elif limit in LIMITS and (inside or limit in STATE_LIMITS):
+        text = f"{limit}{'' if device is None else f' ({device})'}{when}: {LIMITS[limit]}"
+        if margin is None and limit == "runaway":  # no stable state: no current to measure a margin on
+            return text + "; no current margin, as no stable current exists"
+        if not inside:
+            return text if not least else f"{text}; {least}"
     else:
-        text = f"{subject} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
-    if margin is None and limit == "runaway":  # no stable state: no current to measure a margin on
-        return text + f": {LIMITS[limit]}; no current margin, as no stable current exists"
+        who = subject if device is None else device
+        text = f"{who} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
     if margin is None and limit in JUNCTION_LIMITS:  # no current allowed: say where, and the margin at the ratings
         return text + _nothing_allowed_text(summary)
     if inside:
-        return text + f"; the current stays inside the SOA boundary (least margin {value_text('margin', margin)})"
-    return text if margin is None else text + f", least margin {value_text('margin', margin)}"
+        return text + f"; the current stays inside the SOA boundary ({least})"
+    return text if not least else f"{text}, {least}"
 
 
 def _nothing_allowed_text(summary: dict[str, Any]) -> str:

@@ -174,6 +174,15 @@ class EnvelopeCheck:
         return str(self.limit[self.worst])
 
     @property
+    def failed_device(self) -> int | None:
+        """The device (numbered from 1) of the limit the answer names (:attr:`failed_limit`): where the margin is
+        least, or, for a check that fails with every current inside, its first violation's; None when it passes."""
+        found = self.first_violation
+        if found is None:
+            return None
+        return (found[0] if self.min_margin >= 0 else self.worst[0]) + 1
+
+    @property
     def min_margin(self) -> float:
         return float(np.min(self.margin))
 

@@ -151,10 +151,18 @@ _TERMS = [
     _t(
         "first_violation_time",
         "s",
-        "time of the first sample outside or past a limit (a junction past tj_max included), null when none is",
+        "time of the first sample outside or past a limit (a junction past tj_max or tj_ceiling, runaway and "
+        "drive included), null when none is: where a result fails (its limit names what failed there), beside "
+        "margin_time, where the current's margin is least",
         "first violation",
     ),
-    _t("margin_time", "s", "time at which the least margin occurs", "margin at"),
+    _t(
+        "margin_time",
+        "s",
+        "time at which the least margin occurs (the current's margin; a result that fails on another limit, a "
+        "junction past tj_max say, fails where its first_violation_time points)",
+        "margin at",
+    ),
     _t(
         "dc_margin",
         "1",
@@ -163,7 +171,12 @@ _TERMS = [
         "passes has a dc_margin below 0 and a margin at or above 0. A column of a trace's table only.",
         "DC margin (%)",
     ),
-    _t("device", "", "the device with the least margin, numbered from 1 (Q1, Q2 ...)"),
+    _t(
+        "device",
+        "",
+        "the device with the least margin, numbered from 1 (Q1, Q2 ...); where a stage has more than one device, "
+        "the text of a failing result names the device that failed",
+    ),
     _t("time", "s", "time of a sample from the start of the test or trace (a column of a table)"),
     _t("tj", "°C", "junction temperature of a device at a sample (a column of a table)", "Tj (°C)"),
     _t("source_voltage", "V", "the source's voltage at a sample: battery terminals or supply (a column)"),

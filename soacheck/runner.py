@@ -13,9 +13,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from soacheck.compare import TrajectoryJob, case_temps_in_stage, compare
-from soacheck.display import failure_text
+from soacheck.display import failing_device, failure_text
 from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
+from soacheck.glossary import STATE_LIMITS
 from soacheck.jobfiles import discharge_from_table
 from soacheck.plan import Job, Plan
 from soacheck.plots import plot_compare, plot_envelope_check, plot_point_check, plot_stage_run, plot_trace
@@ -53,6 +54,8 @@ class JobResult:
     rows: list[dict[str, Any]] = field(default_factory=list)
     units: dict[str, str] = field(default_factory=dict)
     """The unit of a figure whose unit depends on the job (a setpoint in A, W or Ω), by its name."""
+    failed_device: str | None = None
+    """The device a failing stage job fails at (``Q2``), where its stage has more than one device."""
 
     @property
     def verdict(self) -> str:
@@ -66,13 +69,15 @@ class JobResult:
 
     def headline(self) -> str:
         """One line: what limits, and by how much. A failing job whose least margin is 0 or more failed on
-        another limit than the current boundary (a junction past tj_max, say): that limit leads, and the
-        margin is said to be the current's (:func:`~soacheck.display.failure_text`)."""
+        another limit than the current boundary (a junction past tj_max, say), and one that reached a limit
+        of the stage's state (runaway, drive, dropout) failed whatever its current: that limit leads, with
+        the device it is at, and the margin is said to be the current's
+        (:func:`~soacheck.display.failure_text`)."""
         s = self.summary
         margin = s.get("margin")
-        if not self.passed and isinstance(margin, float) and margin >= 0:
+        if not self.passed and ((isinstance(margin, float) and margin >= 0) or s.get("limit") in STATE_LIMITS):
             subject = "the trace" if self.kind == "trace" else "a device"
-            return failure_text(s, subject=subject, span_s=s.get("duration"))
+            return failure_text(s, subject=subject, span_s=s.get("duration"), device=self.failed_device)
         parts = []
         if margin is not None and isinstance(margin, float) and math.isfinite(margin):
             parts.append(f"least margin {margin:+.1%}")
@@ -129,7 +134,14 @@ def run_job(plan: Plan, job: Job) -> JobResult:
         summary = check.summary()
         notes = tuple(summary.pop("assumptions"))
         return JobResult(
-            job.name, job.kind, check.passed, summary, notes, {"envelope": plot_envelope_check(check)}, check.outside
+            job.name,
+            job.kind,
+            check.passed,
+            summary,
+            notes,
+            {"envelope": plot_envelope_check(check)},
+            check.outside,
+            failed_device=failing_device(check.failed_device, check.stage.count),
         )
     if job.kind in ("discharge", "sweep"):
         path = d["trajectory"]
@@ -144,7 +156,10 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             units = {"max_safe_setpoint": setpoint_unit, "max_setpoint_at_rating": setpoint_unit}
         figure = plot_stage_run(run, title=f"{job.name}: {path.label}", max_setpoint=found)
         notes = run.assumptions + path.notes
-        return JobResult(job.name, job.kind, run.passed, summary, notes, {"run": figure}, units=units)
+        device = failing_device(run.failed_device, stage.count)
+        return JobResult(
+            job.name, job.kind, run.passed, summary, notes, {"run": figure}, units=units, failed_device=device
+        )
     if job.kind == "trace":
         part = d["part"]
         if d["case_temp"] is not None:

@@ -98,6 +98,14 @@ class SharingSpread:
         has its junction past tj_max (under a policy, its ceiling), or is short of drive."""
         return not self.device_margin >= 0 or self.hot_junction or bool(self.failure)
 
+    @property
+    def failed_device(self) -> int:
+        """The device (from 1) of the limit the answer names: where ``device_margin`` is least, or, where it is
+        0 or more, the first that fails on another limit (``failure_device``); 0 where none is outside."""
+        if not self.outside:
+            return 0
+        return self.failure_device if self.device_margin >= 0 else self.device
+
 
 def sharing_margins(part: Part, device_a: float) -> dict[str, object]:
     """The worst device's current against the continuous current rating, under the part's policy and at rating.

@@ -87,6 +87,13 @@ class StageRun:
         return first_outside(self.inside)
 
     @property
+    def failed_device(self) -> int | None:
+        """The device (numbered from 1) of the first violation, where the limit the run's summary names was
+        passed first; None when the run passes."""
+        found = self.first_violation
+        return None if found is None else found[0] + 1
+
+    @property
     def time_over_tj_limit_s(self) -> float:
         """How long any junction spent above tj_max (under a policy, its ceiling), each sample over
         it held until the next (zero-order hold, as a trace counts it). [s]"""
@@ -438,7 +445,6 @@ def judge_steady_state(
     dropout = state.device_v <= 0
     limit = np.where(dropout, "dropout", limit)
     margin = np.where(dropout, -np.inf, margin)
-    margin = np.where(np.isin(limit, ("runaway", "drive")), np.minimum(margin, -1e-9), margin)
     return allowed, margin, limit
 
 

@@ -100,7 +100,8 @@ def test_cli_json_and_text_name_the_junction_and_exit_1(stage_file):
     text = invoke("sharing", stage_file, "-i", "8", "-v", "27.9", "--draws", "50")
     assert text.exit_code == 1, text.output
     assert (
-        "FAIL: the junction passes tj_max, peaking at 157 °C; the current stays inside the SOA boundary "
+        "FAIL: the junction of Q1 in a draw passes tj_max, peaking at 157 °C; the current stays inside "
+        "the SOA boundary "
         "(least margin +12.0 %)" in text.stdout
     )
     assert "-0.0" not in text.stdout

@@ -35,7 +35,7 @@ from soacheck.cli.tables import (
     under_policy,
     verdict_cells,
 )
-from soacheck.display import limit_text
+from soacheck.display import failing_device, limit_text
 from soacheck.errors import SoacheckError
 from soacheck.filemarks import save_figure
 
@@ -97,7 +97,15 @@ def envelope(
                     ],
                 )
             print_assumptions(console, result.assumptions)
-            print_verdict(console, result.passed, payload, subject="a device", covered="the stage covers the envelope")
+            device = failing_device(result.check.failed_device, loaded.count)
+            print_verdict(
+                console,
+                result.passed,
+                payload,
+                subject="a device",
+                covered="the stage covers the envelope",
+                device=device,
+            )
         raise typer.Exit(0 if result.passed else 1)
     from soacheck.limit_table import export_writer
     from soacheck.quantities import VOLTAGE

@@ -25,7 +25,7 @@ from soacheck.cli.base import (
     user_errors,
 )
 from soacheck.cli.tables import print_assumptions, print_verdict, quantity_table, under_policy
-from soacheck.display import device_name, value_text
+from soacheck.display import device_name, failing_device, value_text
 from soacheck.filemarks import save_figure
 from soacheck.glossary import words
 
@@ -48,7 +48,8 @@ def _report_run(result: StageRunResult, *, as_json: bool, plot: Path | None) -> 
         print_assumptions(console, payload["assumptions"])
         if plot is not None:
             console.print(f"plot written to {plot}", highlight=False)
-        print_verdict(console, run.passed, payload, subject="a device", span_s=payload.get("duration"))
+        device = failing_device(run.failed_device, run.stage.count)
+        print_verdict(console, run.passed, payload, subject="a device", span_s=payload.get("duration"), device=device)
     raise typer.Exit(0 if run.passed else 1)
 
 
@@ -186,5 +187,8 @@ def sharing(
         print_assumptions(console, result.assumptions)
         summary = {**payload, "margin": result.margin if math.isfinite(result.margin) else None}
         subject = "a device" if result.device is None else f"{device_name(result.device)} in the worst draw"
-        print_verdict(console, result.passed, summary, subject=subject)
+        failed = failing_device(spread.failed_device, loaded.count)
+        draw = "the worst draw" if spread.device_margin < 0 else "a draw"  # the least margin's, or the first to fail
+        device = None if failed is None else f"{failed} in {draw}"
+        print_verdict(console, result.passed, summary, subject=subject, device=device)
     raise typer.Exit(0 if result.passed else 1)

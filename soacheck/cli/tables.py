@@ -152,12 +152,19 @@ def named_column(name: str, values: Iterable, *, essential: bool = False, rank: 
 
 
 def print_verdict(
-    console: Console, passed: bool, summary: dict, *, subject: str, span_s: float | None = None, covered: str = ""
+    console: Console,
+    passed: bool,
+    summary: dict,
+    *,
+    subject: str,
+    span_s: float | None = None,
+    covered: str = "",
+    device: str | None = None,
 ) -> None:
     """The closing line of a result: PASS (and ``covered``, what passing means there), or FAIL and why
-    (:func:`soacheck.display.failure_text`)."""
+    (:func:`soacheck.display.failure_text`, naming ``device`` where it is given)."""
     if passed:
         console.print(f"[{_PASS_STYLE}]PASS[/]" + (f": {escape(covered)}" if covered else ""))
     else:
-        why = failure_text(summary, subject=subject, span_s=span_s)
+        why = failure_text(summary, subject=subject, span_s=span_s, device=device)
         console.print(f"[{_FAIL_STYLE}]FAIL[/]: {escape(why)}", highlight=False)
