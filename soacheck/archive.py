@@ -135,7 +135,11 @@ def check_archive(
         return outcomes
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
-    with ProcessPoolExecutor(max_workers=workers) as pool:
+    from soacheck.csvblocks import set_parse_threads
+
+    # the cores are shared among the files: each worker parses CSV on its share of them
+    share = max(1, (os.cpu_count() or 1) // workers)
+    with ProcessPoolExecutor(max_workers=workers, initializer=set_parse_threads, initargs=(share,)) as pool:
         futures = {pool.submit(check_one, part, path, *args): k for k, path in enumerate(files)}
         outcomes: list[FileOutcome | None] = [None] * total
         for future in as_completed(futures):

@@ -93,11 +93,12 @@ def _sniff(path: Path) -> tuple[str, list[str]]:
     return sep, names
 
 
-def fields_message(path: Path, sep: str, error: str) -> str:
-    """The message for pandas' complaint ``error`` about a line with more fields than the header."""
+def fields_message(path: Path, sep: str, error: str, lines_before: int = 0) -> str:
+    """The message for pandas' complaint ``error`` about a line with more fields than the header;
+    ``lines_before`` lines of the file came before the text pandas was given."""
     found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", error)
     detail = (
-        f"line {found.group(2)} has {found.group(3)} fields where the header has {found.group(1)}"
+        f"line {int(found.group(2)) + lines_before} has {found.group(3)} fields where the header has {found.group(1)}"
         if found
         else "a row has more fields than the header"
     )

@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from soacheck.battery import Trajectory
-from soacheck.csvtables import _sniff, data_line_numbers, fields_message
+from soacheck.csvtables import _sniff
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 from soacheck.thermal_response import step_range
@@ -27,21 +27,20 @@ TRACE_COLUMNS = ("time", "voltage", "current")
 def iter_trace(path: str | Path, *, chunk_rows: int = DEFAULT_CHUNK_ROWS):
     """Read a V–I trace in chunks: columns ``time,voltage,current`` in s, V and A.
 
-    CSV (with the same separator rules as :func:`read_table`), or Parquet when pyarrow is
-    installed. Yields ``(time_s, voltage_v, current_a, first_row)`` arrays chunk by chunk,
-    so a trace larger than memory can be checked. Times must rise strictly, across chunk
-    borders too; voltage and current must be finite and not negative.
+    CSV (with the same separator rules as :func:`read_table`; parsed in blocks on every
+    core, :mod:`soacheck.csvblocks`), or Parquet when pyarrow is installed. Yields
+    ``(time_s, voltage_v, current_a, first_row)`` arrays chunk by chunk, so a trace larger
+    than memory can be checked. Times must rise strictly, across chunk borders too; voltage
+    and current must be finite and not negative.
     """
     path = Path(path)
     if path.suffix.lower() in (".parquet", ".pq"):
-        # decoding is quick beside the check: the samples are vetted on the reading thread too
-        chunks = _read_ahead(_vetted(path, _parquet_chunks(path, chunk_rows)))
-        with contextlib.closing(chunks):
-            yield from chunks
+        read = _parquet_chunks(path, chunk_rows)
     else:
-        # parsing is slow beside the check (pandas parses a chunk on one thread): vetted here
-        chunks = _read_ahead(_csv_chunks(path, chunk_rows))
-        yield from _vetted(path, chunks)
+        read = _csv_chunks(path, chunk_rows)
+    chunks = _read_ahead(_vetted(path, read))  # read and vetted ahead of the caller's work on the chunk before
+    with contextlib.closing(chunks):
+        yield from chunks
 
 
 def _vetted(path: Path, read):
@@ -176,8 +175,8 @@ def _checked_chunks(path: Path | str, chunks):
         raise SoacheckError(f"{path}: the trace has a header but no samples")
 
 
-def _csv_chunks(path: Path, chunk_rows: int):
-    import pandas as pd  # deferred: a command that reads no table starts without it
+def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
+    from soacheck.csvblocks import CsvLayout, numeric_chunks
 
     sep, names = _sniff(path)
     for name in names:
@@ -189,39 +188,8 @@ def _csv_chunks(path: Path, chunk_rows: int):
     for name in TRACE_COLUMNS:
         if name not in names:
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
-    decimal = "," if sep == ";" else "."
-    offset = 0
-    try:
-        with pd.read_csv(path, sep=sep, decimal=decimal, chunksize=chunk_rows, encoding="utf-8-sig") as reader:
-            for raw in reader:
-                if offset == 0 and not isinstance(raw.index, pd.RangeIndex):
-                    # a first row wider than the header: pandas takes the extra fields as an index
-                    # (its "implicit index") and shifts the columns instead of refusing the row
-                    error = f"Expected {len(raw.columns)} fields in line {next(data_line_numbers(path), 2)}, saw "
-                    raise SoacheckError(fields_message(path, sep, error + str(len(raw.columns) + raw.index.nlevels)))
-                raw.columns = [c.strip().lower() for c in raw.columns]
-                yield tuple(_numbers(path, raw, name, offset) for name in TRACE_COLUMNS)
-                offset += len(raw)
-    except pd.errors.ParserError as err:  # a later row wider than the header; pandas counts file lines
-        raise SoacheckError(fields_message(path, sep, str(err))) from None
-    except UnicodeDecodeError:
-        raise SoacheckError(f"{path}: is not a UTF-8 text file; save it as CSV (UTF-8)") from None
-
-
-def _numbers(path: Path, raw: pd.DataFrame, name: str, offset: int) -> np.ndarray:
-    """A parsed column as float64; a cell that is not a number names its data row."""
-    import pandas as pd
-
-    if pd.api.types.is_numeric_dtype(raw[name]):
-        return raw[name].to_numpy(dtype=float)
-    numbers = pd.to_numeric(raw[name], errors="coerce")
-    bad = np.flatnonzero(numbers.isna().to_numpy() & raw[name].notna().to_numpy())
-    if bad.size:
-        k = int(bad[0])
-        raise SoacheckError(
-            f"{path} data row {offset + k + 1}: {name} '{raw[name].iloc[k]}' is not a number; write a plain number"
-        )
-    return numbers.to_numpy(dtype=float)
+    layout = CsvLayout(sep, "," if sep == ";" else ".", names)
+    return numeric_chunks(path, layout, TRACE_COLUMNS, chunk_rows, threads=threads)
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):

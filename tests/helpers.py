@@ -245,3 +245,21 @@ def only_job_why(report_folder) -> str:
     (section,) = [node for node in page.iter("section") if "job" in node.classes]
     (why,) = [p for p in section.iter("p") if "why" in p.classes]
     return why.text()
+
+
+def trace_rows(n: int = 997) -> list[str]:
+    """``n`` CSV data lines ``time,voltage,current`` with rising times and random values (seeded)."""
+    import numpy as np
+
+    rng = np.random.default_rng(3)
+    t = np.cumsum(rng.uniform(1e-6, 2e-5, n))
+    v, i = rng.uniform(0, 50, n), rng.uniform(0, 5, n)
+    return [f"{a:.9g},{b:.6g},{c:.7g}" for a, b, c in zip(t, v, i, strict=True)]
+
+
+def written(folder, name: str, text: str, *, newline: str = "\n", encoding: str = "utf-8"):
+    """``text`` written to ``folder/name`` as is (``newline=""`` keeps its line ends); the path."""
+    path = folder / name
+    with open(path, "w", newline=newline, encoding=encoding) as handle:
+        handle.write(text)
+    return path

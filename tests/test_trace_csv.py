@@ -8,34 +8,32 @@ so the trace was read wrong without a word.
 
 from __future__ import annotations
 
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
+from soacheck import csvblocks
 from soacheck.cli import app
 from soacheck.errors import SoacheckError
 from soacheck.tracefiles import iter_trace
 
+from .helpers import trace_rows, written
+
 runner = CliRunner()
 
 
-def rows(n: int = 997) -> list[str]:
-    rng = np.random.default_rng(3)
-    t = np.cumsum(rng.uniform(1e-6, 2e-5, n))
-    v, i = rng.uniform(0, 50, n), rng.uniform(0, 5, n)
-    return [f"{a:.9g},{b:.6g},{c:.7g}" for a, b, c in zip(t, v, i, strict=True)]
-
-
-def written(tmp_path, name: str, text: str):
-    path = tmp_path / name
-    path.write_text(text, encoding="utf-8")
-    return path
+@pytest.fixture(autouse=True, params=["one block", "300-byte blocks"])
+def blocks(request, monkeypatch):
+    """Every test twice: the file parsed as one block, and in blocks of about 300 bytes (about
+    12 rows), so that a bad line falls first in a block, inside one, or after a held partial chunk."""
+    if request.param == "300-byte blocks":
+        monkeypatch.setattr(csvblocks, "BLOCK_BYTES", (300, 300))
+        monkeypatch.setattr(csvblocks, "LONGEST_LINE", 200)
 
 
 @pytest.mark.parametrize("row", [0, 1, 11, 12, 13, 700, 996])
 @pytest.mark.parametrize("chunk_rows", [12, 1_000_000])
 def test_a_line_with_too_many_fields_names_its_file_line(tmp_path, row, chunk_rows):
-    lines = rows()
+    lines = trace_rows()
     lines[row] += ",5"
     path = written(tmp_path, "wide.csv", "time,voltage,current\n" + "\n".join(lines) + "\n")
     result = runner.invoke(app, ["trace", "demo-npn-to3-250w", str(path), "--chunk-rows", str(chunk_rows)])
@@ -45,7 +43,7 @@ def test_a_line_with_too_many_fields_names_its_file_line(tmp_path, row, chunk_ro
 
 
 def test_a_wide_first_row_after_blank_lines_names_its_file_line(tmp_path):
-    lines = rows(20)
+    lines = trace_rows(20)
     lines[0] += ",5"
     path = written(tmp_path, "wide.csv", "\ntime,voltage,current\n\n" + "\n".join(lines) + "\n")
     result = runner.invoke(app, ["trace", "demo-npn-to3-250w", str(path)])
@@ -54,7 +52,7 @@ def test_a_wide_first_row_after_blank_lines_names_its_file_line(tmp_path):
 
 
 def test_a_cell_that_is_not_a_number_in_a_late_chunk_names_its_data_row(tmp_path):
-    lines = rows()
+    lines = trace_rows()
     lines[650] = lines[650].rsplit(",", 1)[0] + ",1.2A"  # data row 651
     path = written(tmp_path, "unit.csv", "time,voltage,current\n" + "\n".join(lines) + "\n")
     seen = 0
@@ -66,7 +64,7 @@ def test_a_cell_that_is_not_a_number_in_a_late_chunk_names_its_data_row(tmp_path
 
 def test_bytes_that_are_not_utf8_exit_2(tmp_path):
     path = tmp_path / "latin.csv"
-    path.write_bytes(("time,voltage,current\n" + "\n".join(rows()[:400]) + "\n").encode() + b"0.5,1\xb5,2\n")
+    path.write_bytes(("time,voltage,current\n" + "\n".join(trace_rows()[:400]) + "\n").encode() + b"0.5,1\xb5,2\n")
     result = runner.invoke(app, ["trace", "demo-npn-to3-250w", str(path)])
     assert result.exit_code == 2, result.output
     assert "latin.csv" in result.stderr and "Traceback" not in result.output
