@@ -30,10 +30,14 @@ from soacheck.errors import SoacheckError
 BLOCK_BYTES = (1 << 20, 24 << 20)
 """Least and greatest size of a block parsed at once [bytes]. The first block is about a chunk's
 rows, so that the caller's work starts early; each next one twice the one before, up to the
-greatest; the last few shrink again, so that the threads finish together. Every call of the
-parser allocates fresh buffers, which the system hands back and faults in anew: blocks of a few
-megabytes take about a third longer to parse than blocks of 24 MB (measured with ``perf stat``),
-and a thread parsing a block holds a few times its bytes, so larger ones only cost memory."""
+greatest (or :data:`PARSING_BYTES` shared among the threads, if less); the last few shrink again,
+so that the threads finish together. Every call of the parser allocates fresh buffers, which the
+system hands back and faults in anew: blocks of a few megabytes take about a third longer to
+parse than blocks of 24 MB (measured with ``perf stat`` on two cores)."""
+
+PARSING_BYTES = 48 << 20
+"""Bytes being parsed at once over all threads [bytes]: a thread parsing a block holds a few
+times its bytes, so this bounds the reader's memory whatever the number of cores."""
 
 _threads: int | None = None
 
@@ -132,7 +136,8 @@ def _parallel(path, start, layout, wanted, chunk_rows, threads, regroup):
     pool = ThreadPoolExecutor(max_workers=threads, thread_name_prefix="soacheck-csv")
     try:
         with open(path, "rb") as handle:
-            for begin, end in _ranges(handle, start, size, first, threads):
+            greatest = max(BLOCK_BYTES[0], min(BLOCK_BYTES[1], PARSING_BYTES // threads))
+            for begin, end in _ranges(handle, start, size, min(first, greatest), greatest, threads):
                 if end is None:  # no line end within a block: read on serially from here
                     pending.append((begin, None))
                     break
@@ -286,12 +291,12 @@ def _first_block_bytes(path: Path, start: int, chunk_rows: int) -> int:
     return int(np.clip(chunk_rows * per_row, *BLOCK_BYTES))
 
 
-def _ranges(handle, start: int, size: int, first: int, threads: int) -> Iterator[tuple[int, int | None]]:
+def _ranges(handle, start: int, size: int, first: int, greatest: int, threads: int) -> Iterator[tuple[int, int | None]]:
     """Byte ranges that end at a line end, from ``start`` to ``size``: ``first`` bytes, then each twice
-    the one before up to the greatest of :data:`BLOCK_BYTES`, and no more than a ``threads``-th of
-    what is left (nor less than the least). A range whose end is None has no line end within
+    the one before up to ``greatest``, and no more than a ``threads``-th of what is left (nor less
+    than the least of :data:`BLOCK_BYTES`). A range whose end is None has no line end within
     reach (the rest is read otherwise)."""
-    least, greatest = BLOCK_BYTES
+    least = BLOCK_BYTES[0]
     begin, want = start, first
     while begin < size:
         block = min(want, max(least, -(-(size - begin) // threads)))

@@ -127,7 +127,7 @@ def test_blocks_grow_from_the_first_then_shrink_at_the_end_and_tile_the_file(tmp
     data = path.read_bytes()
     start = data.index(b"\n") + 1
     with open(path, "rb") as handle:
-        ranges = list(csvblocks._ranges(handle, start, len(data), 300, threads=2))
+        ranges = list(csvblocks._ranges(handle, start, len(data), 300, 1600, threads=2))
     assert ranges[0][0] == start and ranges[-1][1] == len(data)
     assert all(a[1] == b[0] for a, b in zip(ranges, ranges[1:], strict=False))
     assert all(data[end - 1 : end] == b"\n" for _, end in ranges)
