@@ -52,6 +52,35 @@ def _aligned_maxima(first_bin_start: int, width: int, keys: list[np.ndarray]) ->
     return np.unique(np.concatenate(chosen)) if chosen else np.zeros(0, dtype=np.intp)
 
 
+class _Rows:
+    """Columns of rows that grow at their end, a row costing amortized constant time: room is
+    doubled when it runs out, instead of every chunk's rows copying all the rows kept before."""
+
+    def __init__(self, dtypes: list) -> None:
+        self.size = 0
+        self.columns = [np.zeros(16, dtype=dtype) for dtype in dtypes]
+
+    def __getitem__(self, k: int) -> np.ndarray:
+        """Column ``k``, its rows so far (a view)."""
+        return self.columns[k][: self.size]
+
+    def extend(self, values: list[np.ndarray]) -> None:
+        """Append rows: one array per column, all of one length."""
+        stop = self.size + len(values[0])
+        if stop > self.columns[0].size:
+            room = max(stop, 2 * self.columns[0].size)
+            self.columns = [np.concatenate([c[: self.size], np.zeros(room - self.size, c.dtype)]) for c in self.columns]
+        for column, value in zip(self.columns, values, strict=True):
+            column[self.size : stop] = value
+        self.size = stop
+
+    def keep(self, pick: np.ndarray, start: int = 0) -> None:
+        """Keep the rows before ``start`` and, after them, rows ``start + pick`` (``pick`` sorted)."""
+        for column in self.columns:
+            column[start : start + pick.size] = column[start : self.size][pick]
+        self.size = start + pick.size
+
+
 class PeakThinner:
     """Keep a fixed budget of bins over a waveform fed in chunks, with each bin's peaks.
 
@@ -68,44 +97,44 @@ class PeakThinner:
     def __init__(self, bins: int, names: tuple[str, ...], keys: int) -> None:
         self.bins = max(1, int(bins))
         self.names = names
+        self.keys = keys
         self.width = 1
         self.count = 0  # samples seen
-        self.index = np.zeros(0, dtype=np.int64)  # sample number of each kept sample
-        self.kept = [np.zeros(0) for _ in names]
-        self.kept_keys = [np.zeros(0) for _ in range(keys)]
+        # each kept sample: its sample number, its channels, its keys
+        self.rows = _Rows([np.int64] + [float] * (len(names) + keys))
+
+    def _index(self) -> np.ndarray:
+        return self.rows[0]
+
+    def _keys(self, start: int = 0) -> list[np.ndarray]:
+        first = 1 + len(self.names)
+        return [self.rows[first + k][start:] for k in range(self.keys)]
 
     def add(self, keys: list[np.ndarray], columns_at: Callable[[np.ndarray], list[np.ndarray]]) -> None:
         """The next chunk: ``keys`` (no NaN) pick the samples; ``columns_at(positions)`` gives their channels."""
         n = keys[0].size
         if n == 0:
             return
-        first = int(self.index[0]) if self.index.size else self.count
+        index = self._index()
+        first = int(index[0]) if index.size else self.count
         width = self.width
         while (self.count + n - 1) // width - first // width >= self.bins:  # wide enough for all seen so far
             width *= 2
-        if width != self.width and self.index.size:  # merge kept bins: the peaks of peaks
-            self._keep(bin_maxima(self.index // width, self.kept_keys))
+        if width != self.width and index.size:  # merge kept bins: the peaks of peaks
+            self.rows.keep(bin_maxima(index // width, self._keys()))
         self.width = width
         pick = _aligned_maxima((-self.count) % width, width, keys)
         fresh = self.count + pick
         self.count += n
-        self.index = np.r_[self.index, fresh]
-        self.kept = [np.r_[k, np.asarray(c, dtype=float)] for k, c in zip(self.kept, columns_at(pick), strict=True)]
-        self.kept_keys = [np.r_[k, key[pick]] for k, key in zip(self.kept_keys, keys, strict=True)]
-        # the last bin before this chunk may have gone on in it: reduce that bin once more
-        tail = int(np.searchsorted(self.index // width, int(fresh[0]) // width)) if fresh.size else self.index.size
-        if self.index.size - tail > len(keys):
-            last = bin_maxima(self.index[tail:] // width, [k[tail:] for k in self.kept_keys])
-            self._keep(np.r_[np.arange(tail), tail + last])
-
-    def _keep(self, pick: np.ndarray) -> None:
-        self.index = self.index[pick]
-        self.kept = [k[pick] for k in self.kept]
-        self.kept_keys = [k[pick] for k in self.kept_keys]
+        # the last bin before this chunk may go on in it: its kept samples, and the chunk's in it, are reduced again
+        tail = int(np.searchsorted(self._index(), int(fresh[0]) // width * width)) if fresh.size else self.rows.size
+        self.rows.extend([fresh, *(np.asarray(c, dtype=float) for c in columns_at(pick)), *(key[pick] for key in keys)])
+        if self.rows.size - tail > len(keys):
+            self.rows.keep(bin_maxima(self._index()[tail:] // width, self._keys(tail)), start=tail)
 
     def result(self) -> dict[str, np.ndarray]:
         """The kept samples of every channel, in time order (copies: no chunk stays alive)."""
-        return {name: values.copy() for name, values in zip(self.names, self.kept, strict=True)}
+        return {name: self.rows[1 + k].copy() for k, name in enumerate(self.names)}
 
 
 class SpanThinner:
