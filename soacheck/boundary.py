@@ -273,7 +273,7 @@ def allowed_current(
     ``tj_max`` nothing is allowed (limit ``case_at_tj_max``). Under a policy
     (``part.policy``) the boundary is the policy's (:func:`~soacheck.derating.mechanism_factors`),
     nothing is allowed above its voltage fraction of ``v_max`` (limit ``policy_voltage``)
-    nor at a case at or above its junction ceiling (limit ``tj_ceiling``). A non-finite or non-positive
+    nor at a case at or above its junction ceiling (limit ``case_at_tj_ceiling``). A non-finite or non-positive
     voltage, or a non-finite case temperature or pulse, or a duty outside [0, 1], or a
     negative idle current, gives NaN with limit ``invalid``.
 
@@ -355,7 +355,9 @@ def allowed_current(
 
     too_hot = valid & (tc >= part.tj_limit_c)
     allowed[too_hot] = 0.0
-    limit[too_hot] = np.where(tc[too_hot] >= part.ratings.tj_max_c, code("case_at_tj_max"), code(part.tj_limit))
+    limit[too_hot] = np.where(
+        tc[too_hot] >= part.ratings.tj_max_c, code("case_at_tj_max"), code(part.case_limit(part.tj_limit_c))
+    )
     over_v = valid & (v > part.v_limit_v)
     allowed[over_v], above[over_v] = 0.0, False
     limit[over_v] = np.where(v[over_v] > part.ratings.v_max_v, code("voltage"), code(part.v_limit))
@@ -454,7 +456,7 @@ def envelope_polyline(
     y = _derated_lines(x, np.full(x.shape, float(tc_c)), part, lines, breakdown)
     if np.all(np.isneginf(y)) or tc_c >= part.tj_limit_c:
         v = np.exp(np.array([x_lo, x_hi]))
-        name = "case_at_tj_max" if tc_c >= part.ratings.tj_max_c or part.policy is None else part.tj_limit
+        name = part.case_limit(tc_c)
         return BoundaryPolyline(v, np.zeros(2), np.array([name, name]))
     # crossings of every pair of lines inside every interval between vertices
     finite = np.where(np.isfinite(y), y, -1e6)

@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from soacheck.glossary import JUNCTION_LIMITS, LIMITS, STATE_LIMITS, heading, unit
+from soacheck.glossary import CASE_LIMITS, JUNCTION_LIMITS, LIMITS, STATE_LIMITS, heading, unit
 
 PERCENT = frozenset(
     {
@@ -118,26 +118,34 @@ def failure_text(
     The limit it names and its first violation's time lead: a junction limit reads ``the
     junction passes tj_max at 225 ms, peaking at 156.8 °C``; a limit of the stage's state
     (``runaway``, ``drive``, ``dropout``), or another limit passed with the current inside, its
-    meaning (``drive at 3 s: the base driver ...``); a current outside the boundary ``SUBJECT
+    meaning (``drive at 3 s: the base driver ...``); a case at or above the junction's limit
+    (``case_at_tj_max``, ``case_at_tj_ceiling``), where nothing is allowed, its meaning and the
+    hottest case (:func:`_nothing_allowed_text`); a current outside the boundary ``SUBJECT
     leaves its safe operating area at 6.25 s (limit power)``. ``device`` names the device the
     failure is at (``Q2``; :func:`failing_device`, given where a stage has more than one):
     ``the junction of Q2 passes ...``, ``drive (Q1) at 3 s: ...``, ``Q2 leaves ...`` in place of
-    ``SUBJECT``. A least margin of 0 or more measures the current only and is said to be so,
-    never left to read as the size of the failure; a negative one follows as it is. A runaway
-    without a margin (``sharing``: no stable state in a draw) says that there is no current
-    margin. A junction limit without a margin (no current allowed where it is least) says where
-    (:func:`_nothing_allowed_text`).
+    ``SUBJECT``; ``runaway`` is a state of the whole set and names none. A least margin of 0 or
+    more measures the current only and is said to be so, never left to read as the size of the
+    failure; a negative one follows as it is. A runaway without a margin (``sharing``: no stable
+    state in a draw) says that there is no current margin. A junction limit without a margin (no
+    current allowed where it is least) says so (:func:`_nothing_allowed_text`).
     """
     limit, first, margin = summary.get("limit"), summary.get("first_violation_time"), summary.get("margin")
     when = "" if first is None else f" at {value_text('first_violation_time', first, span_s=span_s)}"
     inside = isinstance(margin, int | float) and math.isfinite(margin) and margin >= 0
     least = "" if margin is None else f"least margin {value_text('margin', margin)}"
+    if limit == "runaway":  # the whole set's state: no device of it is singled out
+        device = None
     if limit in JUNCTION_LIMITS:
         peak = summary.get("tj_peak")
         junction = "the junction" if device is None else f"the junction of {device}"
         text = f"{junction} passes {limit}{when}" + (
             "" if peak is None else f", peaking at {value_text('tj_peak', peak)}"
         )
+    elif limit in CASE_LIMITS:
+        text = f"{limit}{'' if device is None else f' ({device})'}{when}"
+        if margin is None:
+            return text + _nothing_allowed_text(summary)
     elif limit in LIMITS and (inside or limit in STATE_LIMITS):
         text = f"{limit}{'' if device is None else f' ({device})'}{when}: {LIMITS[limit]}"
         if margin is None and limit == "runaway":  # no stable state: no current to measure a margin on
@@ -147,7 +155,7 @@ def failure_text(
     else:
         who = subject if device is None else device
         text = f"{who} leaves its safe operating area{when}" + (f" (limit {limit})" if limit else "")
-    if margin is None and limit in JUNCTION_LIMITS:  # no current allowed: say where, and the margin at the ratings
+    if margin is None and limit in JUNCTION_LIMITS:  # no current allowed where the margin is least
         return text + _nothing_allowed_text(summary)
     if inside:
         return text + f"; the current stays inside the SOA boundary ({least})"
@@ -155,19 +163,24 @@ def failure_text(
 
 
 def _nothing_allowed_text(summary: dict[str, Any]) -> str:
-    """Why a result failing on a junction limit has no margin, in words: where no current is allowed.
+    """Why a failing result has no margin, in words: where no current is allowed.
 
-    Under a policy whose ceiling the hottest case (``case_peak``) reaches, the SOA allows no
-    current at all (the constant-power line (T_ceiling − Tc)/Rth is zero or less there); the
-    margin to the absolute ratings follows where it is a number.
+    At a case at or above the junction's limit (``case_at_tj_max``; under a policy,
+    ``case_at_tj_ceiling``) the SOA allows no current at all (the constant-power line
+    (T_limit − Tc)/Rth is zero or less there): the limit's meaning, with the hottest case
+    (``case_peak``) and the policy's ceiling where the summary has them. The margin to the
+    absolute ratings follows where it is a number.
     """
-    case, policy = summary.get("case_peak"), summary.get("policy") or {}
+    limit, case, policy = summary.get("limit"), summary.get("case_peak"), summary.get("policy") or {}
     ceiling = policy.get("tj_ceiling")
-    if summary.get("limit") == "tj_ceiling" and case is not None and ceiling is not None and case >= ceiling:
+    if limit == "case_at_tj_ceiling" and case is not None and ceiling is not None:
         text = (
-            f"; the case reaches {value_text('case_peak', case)}, at or above the ceiling "
+            f": the case reaches {value_text('case_peak', case)}, at or above the policy's ceiling "
             f"({value_text('tj_ceiling', ceiling)}), where the policy allows no current (no margin)"
         )
+    elif limit in CASE_LIMITS:
+        reached = "" if case is None else f"the case reaches {value_text('case_peak', case)}; "
+        text = f": {LIMITS[limit]} ({reached}no margin)"
     else:
         text = "; where the margin is least no current is allowed (no margin)"
     rated = summary.get("margin_to_rating")

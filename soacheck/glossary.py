@@ -51,11 +51,14 @@ LIMITS: dict[str, str] = {
     "on_resistance": "above the on-resistance line of a MOSFET or IGBT: the point cannot be reached",
     "tj_max": "the junction would exceed its rated tj_max (thermal model, trace, stage)",
     "case_at_tj_max": "the case is at or above tj_max: nothing is allowed",
+    "case_at_tj_ceiling": (
+        "the case is at or above the design policy's temperature ceiling (below tj_max): the policy allows nothing"
+    ),
     "tj_ceiling": "the junction would exceed the design policy's temperature ceiling, below tj_max",
     "policy_voltage": "above the design policy's fraction of v_max",
     "runaway": (
         "paralleled devices have no stable state, neither shared nor with one device taking the current: "
-        "electro-thermal runaway"
+        "electro-thermal runaway of the whole set (every device of it is outside)"
     ),
     "dropout": "the stage's resistors alone would need more than the source voltage",
     "drive": "the base driver cannot supply the drive current the device needs",
@@ -67,6 +70,10 @@ LIMITS: dict[str, str] = {
 JUNCTION_LIMITS: tuple[str, ...] = ("tj_max", "tj_ceiling")
 """The limits a junction temperature passes, not the current boundary: a point past one of them
 fails while its current may still be inside (a margin of 0 or more)."""
+
+CASE_LIMITS: tuple[str, ...] = ("case_at_tj_max", "case_at_tj_ceiling")
+"""The limits of a case at or above the junction's limit (tj_max; under a policy, its ceiling): no
+current is allowed there at all, so the margin is −inf (null in the JSON)."""
 
 STATE_LIMITS: tuple[str, ...] = ("runaway", "drive", "dropout")
 """The limits of a stage's state, not of the current boundary: a point that reaches one fails whatever its
@@ -268,9 +275,22 @@ _TERMS = [
     _t("passing", "", "how many candidates pass"),
     # sharing
     _t("equal_share", "1", "each device's share of the current if all shared evenly"),
-    _t("worst_share", "1", "the worst device's share of the current at the chosen percentile"),
-    _t("mean_worst_share", "1", "the worst device's share, averaged over the draws"),
-    _t("worst_device_current", "A", "the worst device's current at the chosen percentile"),
+    _t(
+        "worst_share",
+        "1",
+        "the worst device's share of the current at the chosen percentile of the draws that settle (a draw that "
+        "runs away has no settled share and is left out); null where no draw settles",
+    ),
+    _t(
+        "mean_worst_share",
+        "1",
+        "the worst device's share, averaged over the draws that settle; null where no draw settles",
+    ),
+    _t(
+        "worst_device_current",
+        "A",
+        "the worst device's current at the chosen percentile of the draws that settle; null where no draw settles",
+    ),
     _t("percentile", "%", "percentile of the worst share reported"),
     _t(
         "runaway_fraction",

@@ -32,6 +32,7 @@ Limit = Literal[
     "unclassified",
     "voltage",
     "case_at_tj_max",
+    "case_at_tj_ceiling",
     "tj_max",
     "tj_ceiling",
     "policy_voltage",

@@ -251,6 +251,12 @@ class Part:
         """The limit a junction above :attr:`tj_limit_c` is reported as."""
         return "tj_ceiling" if self.policy is not None and self.policy.tj_ceiling_c is not None else "tj_max"
 
+    def case_limit(self, tc_c: float) -> Literal["case_at_tj_max", "case_at_tj_ceiling"]:
+        """The limit a case at ``tc_c`` [°C], at or above :attr:`tj_limit_c`, is reported as (nothing is allowed
+        there): ``case_at_tj_max`` from tj_max, below it (at or above a policy's ceiling) ``case_at_tj_ceiling``,
+        as :attr:`tj_limit` names the junction's."""
+        return "case_at_tj_max" if tc_c >= self.ratings.tj_max_c or self.tj_limit == "tj_max" else "case_at_tj_ceiling"
+
     @property
     def v_limit_v(self) -> float:
         """The highest voltage allowed: the policy's fraction of v_max, else v_max. [V]"""

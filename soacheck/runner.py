@@ -72,7 +72,8 @@ class JobResult:
         another limit than the current boundary (a junction past tj_max, say), and one that reached a limit
         of the stage's state (runaway, drive, dropout) failed whatever its current: that limit leads, with
         the device it is at, and the margin is said to be the current's
-        (:func:`~soacheck.display.failure_text`)."""
+        (:func:`~soacheck.display.failure_text`). Otherwise the least margin, the limit with the device it was
+        passed at where the stage has more than one (``limit power (Q2)``), and the first violation's time."""
         s = self.summary
         margin = s.get("margin")
         if not self.passed and ((isinstance(margin, float) and margin >= 0) or s.get("limit") in STATE_LIMITS):
@@ -81,8 +82,9 @@ class JobResult:
         parts = []
         if margin is not None and isinstance(margin, float) and math.isfinite(margin):
             parts.append(f"least margin {margin:+.1%}")
-        if s.get("limit"):
-            parts.append(f"limit {s['limit']}")
+        if s.get("limit"):  # the device it was passed at, where the stage has more than one (as failure_text names it)
+            at = f" ({self.failed_device})" if self.failed_device and s["limit"] != "runaway" else ""
+            parts.append(f"limit {s['limit']}{at}")
         if s.get("first_violation_time") is not None:
             parts.append(f"first outside at {s['first_violation_time']:.4g} s")
         if s.get("best"):

@@ -40,8 +40,9 @@ class SharingSpread:
     percentile
         Percentile of the worst share reported, in (0, 100]. [%]
     worst_share, mean_share, equal_share
-        The worst device's share at that percentile and averaged over the draws; each
-        device's share if all shared evenly. [1]
+        The worst device's share at that percentile and averaged over the draws that settle (a draw
+        that runs away has no settled share; NaN where no draw settles); each device's share if all
+        shared evenly. [1]
     draws
         Draws of the offsets.
     runaway_fraction
@@ -133,8 +134,9 @@ def judge_draws(
     1 − I/(f·i_max) with f the policy's current fraction (limit ``current``), the lesser margin
     kept. The margin is the current's: a junction past tj_max (under a policy, its ceiling) or a
     device short of drive keeps it, and its limit names the junction limit where that margin is
-    0 or more, or ``drive``, as in a stage run. A draw that runs away is left out (margin inf,
-    inside): it fails on its own. NaN stays NaN, never inside.
+    0 or more, or ``drive``, as in a stage run. In a draw that runs away every device is labelled
+    ``runaway`` and none is inside (the set has no stable state); its margin is inf, so that the
+    least margin is over the draws that settle. NaN stays NaN, never inside.
     """
     _, margin, limit = judge_steady_state(stage, state, breakdown=breakdown)
     policy = policy_of(stage.part.policy)
@@ -144,7 +146,7 @@ def judge_draws(
     hot = (state.junction_c > stage.part.tj_limit_c) & (margin >= 0) & ~state.runaway_at[None, :]
     named = np.where(hot, stage.part.tj_limit, np.where(rated, "current", limit))
     limit = np.where(np.isin(limit, STATE_LIMITS), limit, named)  # runaway, drive, dropout fail whatever the current
-    inside = inside_limits(stage, margin, limit, state.junction_c) | state.runaway_at[None, :]
+    inside = inside_limits(stage, margin, limit, state.junction_c)
     return np.where(state.runaway_at[None, :], np.inf, margin), limit, inside
 
 
@@ -209,7 +211,7 @@ def sharing_monte_carlo(
     Returns
     -------
     SharingSpread
-        The shares, the fractions of draws that hog or run away, the least margin of any
+        The shares of the draws that settle, the fractions of draws that hog or run away, the least margin of any
         device in any draw that settles (:func:`judge_draws`) with its device and limit (where
         every current is inside and a device fails on another limit: that limit), the first
         device that fails and its limit, and the hottest junction and case.
@@ -252,9 +254,10 @@ def sharing_monte_carlo(
         found = _least(margin, limit)
         if found[0] < least:
             least, device, device_limit = found
-        first = first_outside(inside)
+        settled = ~state.runaway_at  # a draw that runs away fails on its own (runaway_fraction)
+        first = first_outside(inside[:, settled])
         if first is not None and not failure:
-            failure, failure_device = str(limit[first]), first[0] + 1
+            failure, failure_device = str(limit[:, settled][first]), first[0] + 1
         to_rating = found[0] if rated is None else _least(*judge_draws(rated, state, breakdown)[:2])[0]
         least_to_rating = min(least_to_rating, to_rating)
         tj_peak_c = max(tj_peak_c, _hottest_c(state, state.junction_c))
@@ -262,8 +265,8 @@ def sharing_monte_carlo(
         done += size
         if progress is not None:
             progress(done, draws)
-    share = np.concatenate(shares)
     runaway_at = np.concatenate(runaway)
+    share = np.concatenate(shares)[~runaway_at]  # a draw that runs away has no settled share
     hogging = hogging_on_matched_set(
         stage, np.concatenate(own), runaway_at, lambda matched: equal_split_unstable(matched, point_v, point_a)
     )
@@ -272,8 +275,8 @@ def sharing_monte_carlo(
         device_limit = failure
     return SharingSpread(
         percentile,
-        float(np.percentile(share, percentile)),
-        float(share.mean()),
+        float(np.percentile(share, percentile)) if share.size else math.nan,
+        float(share.mean()) if share.size else math.nan,
         1.0 / n,
         draws,
         int(runaway_at.sum()) / draws,

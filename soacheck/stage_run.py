@@ -388,8 +388,9 @@ def check_devices(
 
     Each device is checked against its SOA (for the pulse condition) derated at its own
     case temperature; a junction above tj_max is labelled ``tj_max`` (under a policy with a
-    junction ceiling, above the ceiling: ``tj_ceiling``); where the stage runs
-    away the hog (Q1, index 0) is labelled ``runaway``.
+    junction ceiling, above the ceiling: ``tj_ceiling``); a case at or above that limit, where nothing
+    is allowed, ``case_at_tj_max`` or ``case_at_tj_ceiling``; where the stage runs away, every device
+    is labelled ``runaway``: no stable state exists for the set, so none of its devices is inside.
     """
     n, m = device_a.shape
     cooling = stage.cooling
@@ -411,7 +412,7 @@ def check_devices(
     if drive is not None and stage.drive_limit_a is not None:  # the driver falls short: Q1 is not driven
         short = drive > stage.drive_limit_a
         limit = np.where(short[None, :] & (np.arange(n) == 0)[:, None], "drive", limit)
-    limit = np.where(np.asarray(runaway_at)[None, :] & (np.arange(n) == 0)[:, None], "runaway", limit).astype(str)
+    limit = np.where(np.asarray(runaway_at)[None, :], "runaway", limit).astype(str)  # the whole set's state
     with np.errstate(divide="ignore", invalid="ignore"):
         margin = np.where(allowed_a > 0, 1.0 - device_a / allowed_a, np.where(device_a > 0, -np.inf, 1.0))
     return allowed_a, margin, limit

@@ -427,7 +427,7 @@ class TraceChecker:
             if v > self.part.v_limit_v:
                 limit = "voltage" if v > self.part.ratings.v_max_v else self.part.v_limit
             elif tc >= self.part.tj_limit_c:
-                limit = "case_at_tj_max" if tc >= self.part.ratings.tj_max_c else self.part.tj_limit
+                limit = self.part.case_limit(tc)
             elif from_start and start_tj >= self.part.tj_limit_c:
                 limit = self.part.tj_limit
             else:

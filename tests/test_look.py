@@ -19,7 +19,8 @@ from soacheck.plotstyle import MECHANISM_STYLES, OKABE_ITO, series_style
 # the decided vocabulary of `limit` values (the project's shared vocabulary table)
 DECIDED_LIMITS = {
     "current", "power", "second_breakdown", "thermal_instability", "voltage", "on_resistance", "tj_max",
-    "case_at_tj_max", "tj_ceiling", "policy_voltage", "runaway", "dropout", "drive", "unclassified", "invalid",
+    "case_at_tj_max", "case_at_tj_ceiling", "tj_ceiling", "policy_voltage", "runaway", "dropout", "drive",
+    "unclassified", "invalid",
 }  # fmt: skip
 
 

@@ -50,8 +50,8 @@ EXAMPLE = Policy("example", tj_ceiling_c=125.0, current_fraction=0.8, voltage_fr
         (2.0, 75.0, 12.0, "current"),  # the current limit is not derated: 12 A, knee at 36/12 = 3 V
         (20.0, 75.0, 1.8, "power"),  # 36/20
         (70.0, 75.0, 2400 / 4900, "second_breakdown"),  # 0.4898 A < 36/70 = 0.514 A
-        (20.0, 125.0, 0.0, "tj_ceiling"),  # the case at the ceiling: nothing
-        (20.0, 130.0, 0.0, "tj_ceiling"),
+        (20.0, 125.0, 0.0, "case_at_tj_ceiling"),  # the case at the ceiling: nothing
+        (20.0, 130.0, 0.0, "case_at_tj_ceiling"),
         (20.0, 150.0, 0.0, "case_at_tj_max"),  # the case at tj_max: the rating's own limit
     ],
 )

@@ -72,12 +72,15 @@ def test_check_under_a_policy_file(ref_folder, policy_file):
 
 def test_the_policy_voltage_and_ceiling_are_limits(ref_folder):
     """Bench (80 % of v_max 100 V = 80 V; ceiling 125 °C): 85 V is refused with policy_voltage and a
-    130 °C case with tj_ceiling, although both lie inside the ratings."""
+    130 °C case with case_at_tj_ceiling (the case, not a junction, past the ceiling: as a case past tj_max is
+    case_at_tj_max without a policy), although both lie inside the ratings."""
     over_v = json.loads(invoke("check", ref_folder, "-v", 85, "-i", 0.1, "--policy", "bench", "--json").output)
     assert over_v["points"][0]["limit"] == "policy_voltage" and over_v["verdict"] == "fail"
     assert over_v["points"][0]["margin_to_rating"] > 0  # 3.125 × (40/85)² = 0.692 A at rating
     hot = json.loads(invoke("check", ref_folder, "-v", 10, "-i", 0.1, "-t", 130, "--policy", "BENCH", "--json").output)
-    assert hot["points"][0]["limit"] == "tj_ceiling"
+    assert hot["points"][0]["limit"] == "case_at_tj_ceiling"
+    past = json.loads(invoke("check", ref_folder, "-v", 10, "-i", 0.1, "-t", 150, "--json").output)
+    assert past["points"][0]["limit"] == "case_at_tj_max"  # tj_max 150 °C, no policy: the same situation's word
 
 
 def test_no_policy_is_todays_answer_and_says_so(ref_folder):

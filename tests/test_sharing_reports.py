@@ -135,7 +135,8 @@ def test_cases_past_the_policys_ceiling_fail_with_no_margin_and_say_why(tmp_path
     (ceiling 125 °C): each device 0.5 A at 9.95 V, P = 4.975 W, Tj = Tc + P·Rth_jc = 134.975 °C (JEDEC
     JESD51-1), past the ceiling. At a case at or above the ceiling the policy's power line
     (T_ceiling − Tc)/Rth_jc is zero or less: no current is allowed, so there is no margin (null, as ``check``
-    gives a point there), limit tj_ceiling. At the ratings the power line is (150 − 130)/1.0 = 20 W, and the
+    gives a point there), limit case_at_tj_ceiling (the case past the ceiling, as case_at_tj_max past tj_max). At
+    the ratings the power line is (150 − 130)/1.0 = 20 W, and the
     margin 1 − P/20 W = 75.1 % (the current line 15 A and the second-breakdown line 0.16·5000/9.95² = 8.1 A
     allow more). The JSON gives the hottest case and junction; the text says the case passed the ceiling.
     """
@@ -149,7 +150,7 @@ def test_cases_past_the_policys_ceiling_fail_with_no_margin_and_say_why(tmp_path
     assert done.exit_code == exit_code_for(payload) == 1, done.output
     assert (payload["verdict"], payload["limit"], payload["device"], payload["margin"]) == (
         "fail",
-        "tj_ceiling",
+        "case_at_tj_ceiling",
         1,
         None,
     )
@@ -160,6 +161,7 @@ def test_cases_past_the_policys_ceiling_fail_with_no_margin_and_say_why(tmp_path
     text = invoke(*args)
     assert text.exit_code == 1, text.output
     verdict = " ".join(text.stdout[text.stdout.index("FAIL") :].split())
-    assert "peaking at 135 °C" in verdict and "the case reaches 130 °C" in verdict, verdict  # 4 digits shown
-    assert "the ceiling (125 °C)" in verdict, verdict
+    assert verdict.startswith("FAIL: case_at_tj_ceiling (Q1"), verdict
+    assert "the case reaches 130 °C" in verdict, verdict  # 4 digits shown
+    assert "the policy's ceiling (125 °C)" in verdict, verdict
     assert "allows no current" in verdict and "least margin +75.1 %" in verdict, verdict

@@ -277,7 +277,9 @@ def sharing(
         policy, its ceiling; with every current inside, ``limit`` names the junction limit and
         ``margin`` stays the current's, 0 or more);
         ``hogging_fraction``, the draws in which one device takes the current, and
-        ``stage_gain_peak``, as the other stage jobs report it.
+        ``stage_gain_peak``, as the other stage jobs report it. The shares (``worst_share``,
+        ``mean_worst_share``, ``worst_device_current``) are over the draws that settle: a draw that
+        runs away has no settled share (NaN, null in the JSON, where no draw settles).
     """
     chosen = _breakdown(breakdown)
     CURRENT.check(current, "--current")

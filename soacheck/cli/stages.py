@@ -176,10 +176,17 @@ def sharing(
         echo_json(payload)
     else:
         console = console_for_output()
+        settled = draws - round(spread.runaway_fraction * draws)
+        of = f"{draws} draws" if settled == draws else f"the {settled} of {draws} draws that settle"
+        carries = (
+            f"the worst device carries {spread.worst_share:.1%} of the current ({spread.worst_share * current:.3g} A) "
+            f"at the {percentile:g}th percentile of {of}"
+            if settled
+            else f"no draw of {draws} settles, so no device has a settled share"
+        )
         console.print(
-            f"{loaded.count} devices, {current:g} A at {voltage:g} V: the worst device carries "
-            f"{spread.worst_share:.1%} of the current ({spread.worst_share * current:.3g} A) at the "
-            f"{percentile:g}th percentile of {draws} draws; equal sharing would be {spread.equal_share:.1%}.",
+            f"{loaded.count} devices, {current:g} A at {voltage:g} V: {carries}; equal sharing would be "
+            f"{spread.equal_share:.1%}.",
             highlight=False,
         )
         stability = ("stage_gain_peak", "hogging_fraction", "runaway_fraction")
