@@ -4,7 +4,9 @@ A job is an envelope, or a trajectory of the load (a discharge, a sweep, a recor
 Each candidate takes the stage's place (its count, resistors and cooling), or stands alone
 at the job's case temperature when no stage is given. For each it finds the minimum
 margin along the envelope's edge and its limit, the fewest devices in parallel that pass
-(a search over the count; equal sharing with no stage), and how much worse the cooling
+(a search over the count; equal sharing with no stage; for a FET or IGBT without transfer
+curves one device is taken to carry the whole job, so the fewest is 1 or none: see
+:func:`~soacheck.stage.sharing_assumption`), and how much worse the cooling
 may get: the highest heatsink resistance at which it still passes, or, alone at a fixed
 case temperature, the highest case temperature.
 """
@@ -26,7 +28,7 @@ from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.policy import Policy, least_margin
 from soacheck.search import MAX_COUNT, fewest, fewest_guided, highest, highest_linear
-from soacheck.stage import Stage
+from soacheck.stage import Stage, sharing_assumption
 from soacheck.stage_run import run_stage
 from soacheck.trace import TraceChecker
 
@@ -86,6 +88,8 @@ def _alone(part: Part, envelope: Envelope, breakdown: BreakdownDerating, points:
         else math.inf
     )
     min_count = max(1, math.ceil(need * (1 - 1e-12))) if math.isfinite(need) and need <= MAX_COUNT else None
+    if sharing_assumption(part) is not None:  # no sharing credited: more devices change nothing
+        min_count = 1 if margin[k] >= 0 else None
     hottest = max_case_temp(v, i, part, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown)
     to_rating = least_margin(margin)
     if part.policy is not None:
@@ -153,7 +157,10 @@ def _single_trace(part: Part, job: TrajectoryJob, count: int, breakdown: Breakdo
 
 def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -> Candidate:
     result = _single_trace(part, job, 1, breakdown)
-    min_count = fewest(lambda n: _single_trace(part, job, n, breakdown).passed, 1)
+    if sharing_assumption(part) is not None:  # no sharing credited: more devices change nothing
+        min_count = 1 if result.passed else None
+    else:
+        min_count = fewest(lambda n: _single_trace(part, job, n, breakdown).passed, 1)
     hottest = None
     if result.passed:
         hottest = highest_linear(
@@ -187,7 +194,10 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
         passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse)
         return passed, None if limit in ("runaway", "drive", "dropout") else margin
 
-    min_count = fewest_guided(count_score, placed.count)
+    if sharing_assumption(part) is not None:  # one device taken to carry it all, alone or among others
+        min_count = 1 if passed else None
+    else:
+        min_count = fewest_guided(count_score, placed.count)
     max_rth = None
     if placed.cooling is not None and passed:
         max_rth = highest(
@@ -222,6 +232,16 @@ def _thinned(job: TrajectoryJob, samples: int) -> TrajectoryJob:
     keep = slice(None, None, step)
     thin = Trajectory(path.time_s[keep], path.source_v[keep], path.total_a[keep], path.label, path.notes)
     return replace(job, trajectory=thin)
+
+
+def compare_notes(parts: Sequence[Part], *, in_stage: bool) -> tuple[str, ...]:
+    """What a ranking of ``parts`` assumed, in words: where each candidate stood, how they are sorted, and the
+    sharing taken for parts without the data to judge it (:func:`~soacheck.stage.sharing_assumption`)."""
+    return (
+        "each candidate in the stage's place" if in_stage else "each candidate alone",
+        "sorted: passing first, then by least margin; fewest devices and cooling headroom by search",
+        *(note for note in map(sharing_assumption, parts) if note is not None),
+    )
 
 
 def compare(

@@ -249,6 +249,8 @@ def check_envelope(
             "repeated pulses: second-breakdown and instability lines derated at the junction temperature where each "
             "pulse starts (the periodic minimum above each device's case), not at the case temperature"
         )
+    if placed.sharing_assumption is not None:
+        notes.append(placed.sharing_assumption)
     notes.extend(instability_notes(stage.part))
     if envelope.idle_current_a > 0:
         notes.append(
@@ -372,6 +374,7 @@ def largest_safe_envelope(
         f"each current is the highest at which every device stays inside its derated SOA and below "
         f"{stage.part.tj_limit} = {stage.part.tj_limit_c:g} °C, "
         "without runaway and with V_CE above zero",
+        *(() if stage.sharing_assumption is None else (stage.sharing_assumption,)),
         policy_note(stage.part),
     )
     return SafeEnvelope(stage, v, lo, limit, pulse_s, duty, notes)

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from soacheck.compare import TrajectoryJob, case_temps_in_stage, compare
+from soacheck.compare import TrajectoryJob, case_temps_in_stage, compare, compare_notes
 from soacheck.display import failing_device, failure_text
 from soacheck.envelope import Envelope, check_envelope
 from soacheck.errors import SoacheckError
@@ -206,10 +206,7 @@ def run_job(plan: Plan, job: Job) -> JobResult:
             figures["candidates"] = plot_compare(
                 drawn, target, case_temp_c=tc, count=stage.count if d["use_stage"] else 1
             ).figure
-        notes = (
-            "each candidate in the stage's place" if d["use_stage"] else "each candidate alone",
-            "sorted: passing first, then by least margin; fewest devices and cooling headroom by search",
-        )
+        notes = compare_notes(d["parts"], in_stage=d["use_stage"])
         return JobResult(job.name, job.kind, best.passes, summary, notes, figures, rows)
     raise SoacheckError(f"unknown job kind '{job.kind}'")
 

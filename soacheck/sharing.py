@@ -25,6 +25,18 @@ from soacheck.mosfet import (
 from soacheck.wright_omega import wright_omega
 
 
+def sharing_known(*, bipolar: bool, transfer: TransferCurves | None) -> bool:
+    """Whether soacheck can tell how paralleled devices of one kind share a current.
+
+    A bipolar part shares by its V_BE law (V_T ln(I/I_S) and its tempco); a FET or IGBT by its
+    transfer curves, whose transconductance and α = ∂I_D/∂T_j set both the imbalance and the
+    electro-thermal loop (Spirito, Breglio, d'Alessandro, Rinaldi, MIEL 2002). Without them
+    neither is known: α changes sign at the zero-temperature-coefficient current, and the
+    V_GS tempco below it is several times a V_BE's, so no default stands in for them.
+    """
+    return bipolar or transfer is not None
+
+
 def share_current(
     total_a: np.ndarray,
     tj_c: np.ndarray,
@@ -42,11 +54,14 @@ def share_current(
 
     Each device k obeys V_B = u_k(I_k) + I_k·R_E + ΔV_k + φ·(Tj_k − 25 °C) with a common
     V_B, and Σ I_k = I_total. For a bipolar part u(I) = V_T ln(I / 1 A), so
-    I_k = (V_T/R_E)·ω(ln(R_E/V_T) + x_k/V_T) with ω the Wright omega function; for a FET or
-    IGBT without a transfer characteristic u = 0 (1/g_m neglected, conservative), so
-    I_k = x_k/R_E. With one, a FET's V_GS(I, T) comes from its curves
+    I_k = (V_T/R_E)·ω(ln(R_E/V_T) + x_k/V_T) with ω the Wright omega function. A FET's or
+    IGBT's V_GS(I, T) comes from its transfer curves
     (:func:`~soacheck.mosfet.current_for_drive`): its transconductance and its α = ∂I_D/∂T
-    replace the V_BE law and tempco. A Darlington (``junctions`` 2) has u = 2·V_T ln(I/1 A).
+    replace the V_BE law and tempco. A FET or IGBT without them shares in a way nobody can
+    tell (:func:`sharing_known`): the device lowest in the offset band (the first of those
+    lowest, among rows standing for one device) is taken to carry the whole current and the
+    others none, the conservative bound whatever the ballast. A Darlington (``junctions`` 2)
+    has u = 2·V_T ln(I/1 A).
     V_B is found by Newton's method, vectorized over all samples. Devices with the same offset and temperature
     everywhere (all but one in a worst-case stage) are solved once and weighted by their
     number; ``start_a``, the currents of a nearby solution (the previous step of a fixed
@@ -72,8 +87,8 @@ def share_current(
         Base-emitter junctions in series (2 for a Darlington).
     counts
         How many alike devices each row stands for, shape ``(n,)``; one each when None.
-        (Without a ballast or a transfer characteristic a FET row taking the whole current
-        must stand for one device.)
+        (A FET or IGBT without a transfer characteristic hands the whole current to a row
+        standing for one device.)
 
     Returns
     -------
@@ -88,13 +103,14 @@ def share_current(
         return total[None, :].copy()
     by_curves = transfer is not None and not bipolar
     offsets = np.broadcast_to(np.asarray(offsets_v, dtype=float).reshape(rows_n, -1), tj_c.shape)
+    if not sharing_known(bipolar=bipolar, transfer=transfer):
+        # nothing tells how they share: the device lowest in the band takes it all (conservative)
+        single = np.where((per_row == 1)[:, None] | (per_row != 1).all(), offsets, np.inf)
+        out = np.zeros(tj_c.shape)
+        out[np.argmin(single, axis=0), np.arange(tj_c.shape[1])] = total
+        return out
     shift = offsets if by_curves else offsets + tempco_v_per_k * (tj_c - 25.0)  # (n, m)
     vt, r = junctions * THERMAL_VOLTAGE_V, ballast_ohm
-    if not bipolar and r == 0 and not by_curves:
-        # no ballast and no modelled 1/g_m: the device with the lowest threshold takes it all
-        out = np.zeros_like(shift)
-        out[np.argmin(shift, axis=0), np.arange(shift.shape[1])] = total
-        return out
 
     # identical devices (same offset and temperature at every sample) are one unknown, counted
     which, keep, _ = _groups(np.concatenate([shift, tj_c], axis=1) if by_curves else shift)
@@ -106,15 +122,12 @@ def share_current(
         """The base (gate) voltage at which kept devices ``rows`` carry ``i_a``, less their shift."""
         if by_curves:
             return gate_voltage_at(i_a, tj_kept[rows], transfer) + i_a * r
-        return i_a * r + (vt * np.log(i_a) if bipolar else 0.0)
+        return i_a * r + vt * np.log(i_a)
 
     def currents(vb: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         x = vb[None, :] - shift
         if by_curves:
             return current_for_drive(x, tj_kept, transfer, source_ohm=r)
-        if not bipolar:
-            i = np.maximum(x, 0.0) / r
-            return i, np.where(x > 0, 1.0 / r, 0.0)
         if r > 0:
             i = (vt / r) * wright_omega(math.log(r / vt) + x / vt)
         else:
@@ -158,17 +171,19 @@ def drive_slopes(
     -------
     (numpy.ndarray, numpy.ndarray)
         r = ∂V_B/∂I at fixed T [Ω]: R_E + J·V_T/I for a bipolar part with J junctions, R_S + 1/g_m
-        for a FET with transfer curves, R_S for one without (1/g_m neglected); and
-        φ = ∂V_B/∂T at fixed I [V/K]: the V_BE tempco, or −α/g_m from the curves (α of
-        :func:`~soacheck.mosfet.temperature_coefficient`, the datasheet's finite difference).
-        Both with the shape of ``current_a``.
+        for a FET with transfer curves; and φ = ∂V_B/∂T at fixed I [V/K]: the V_BE tempco, or
+        −α/g_m from the curves (α of :func:`~soacheck.mosfet.temperature_coefficient`, the
+        datasheet's finite difference). Both with the shape of ``current_a``. A FET or IGBT
+        without curves (:func:`sharing_known`): r = R_S and φ = 0, since the currents
+        :func:`share_current` takes for it (one device carrying everything) do not move with
+        temperature.
     """
     i = np.maximum(np.asarray(current_a, dtype=float), 1e-12)
     if transfer is not None and not bipolar:
         gm = transconductance(i, np.asarray(tj_c, dtype=float), transfer)
         return ballast_ohm + 1.0 / gm, -temperature_coefficient(i, transfer) / gm
     r = ballast_ohm + (junctions * THERMAL_VOLTAGE_V / i if bipolar else 0.0)
-    return np.broadcast_to(r, i.shape), np.full(i.shape, tempco_v_per_k)
+    return np.broadcast_to(r, i.shape), np.full(i.shape, tempco_v_per_k if bipolar else 0.0)
 
 
 def loop_gain(
@@ -189,8 +204,12 @@ def loop_gain(
     (r_e = V_T/I per junction), G = Rth·V_DS·α/(1 + g_m·R_S) for a FET with transfer curves
     (negative above the ZTC point, where the device cools itself back). G ≥ 1 means a device
     that warms takes more current faster than its ballast pushes it back. The exact
-    condition for the whole set of devices is :func:`stability_gain`.
+    condition for the whole set of devices is :func:`stability_gain`. A FET or IGBT without
+    transfer curves: 0, as for a single device (its currents are taken, not solved; see
+    :func:`share_current`).
     """
+    if not sharing_known(bipolar=bipolar, transfer=transfer):
+        return np.zeros(np.shape(current_a))
     r, phi = drive_slopes(
         current_a,
         np.broadcast_to(np.asarray(tj_c, dtype=float), np.shape(current_a)),
@@ -286,12 +305,13 @@ def jacobian_eigenvalues(
 
     One per group of alike devices from the groups' reduced matrix, and one for the
     differences within each group of two or more (see :func:`stability_gain`, Notes); a
-    single device: 0. The fixed point's relaxation converges near a state where every
-    eigenvalue lies inside the unit circle.
+    single device: 0, and so a FET or IGBT without transfer curves (one device is taken to
+    carry the current whatever the temperatures, see :func:`share_current`). The fixed
+    point's relaxation converges near a state where every eigenvalue lies inside the unit circle.
     """
     rows_n, m = current_a.shape
     per_row = np.ones(rows_n) if counts is None else np.asarray(counts, dtype=float)
-    if per_row.sum() == 1:
+    if per_row.sum() == 1 or not sharing_known(bipolar=bipolar, transfer=transfer):
         return np.zeros((m, 1), dtype=complex)
     r, phi = drive_slopes(
         current_a,

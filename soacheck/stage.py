@@ -17,13 +17,33 @@ from soacheck.bipolar import base_current, junctions
 from soacheck.errors import SoacheckError
 from soacheck.parts import Part
 from soacheck.quantities import DEVICE_COUNT, HEAT_CAPACITY, INTERFACE_RESISTANCE, TEMPERATURE, THERMAL_RESISTANCE
-from soacheck.sharing import VBE_TEMPCO_V_PER_K, jacobian_eigenvalues, loop_gain, share_current
+from soacheck.sharing import VBE_TEMPCO_V_PER_K, jacobian_eigenvalues, loop_gain, share_current, sharing_known
 
 SETTLED_K = 1e-4
 """The electro-thermal fixed point counts as settled when no junction moves more than this. [K]"""
 
 RUNAWAY_C = 1000.0
 """A junction temperature no iteration needs to pass: beyond it the fixed point is abandoned. [°C]"""
+
+
+def sharing_assumption(part: Part) -> str | None:
+    """What paralleled devices of ``part`` are judged under where nothing tells how they share; None where it is known.
+
+    A FET or IGBT without ``transfer.csv`` (see :func:`~soacheck.sharing.sharing_known`): one
+    device is taken to carry the whole current and the others none. No device of a set carries
+    more than the whole current, so this bounds every split the set could take; and it is the
+    state of one device alone, whose answer does not depend on the curves (common practice, no
+    source). The words name the file and what it must hold, for every stage job's assumptions.
+    """
+    if sharing_known(bipolar=part.is_bipolar, transfer=part.transfer):
+        return None
+    return (
+        f"no transfer characteristic: {part.id}/transfer.csv is missing, so how paralleled devices of this part "
+        "share cannot be judged (their transconductance and ∂I_D/∂T_j come from it); one device, the lowest in "
+        "the V_GS band (Q1 in the worst case), is taken to carry the whole current and the others none "
+        "(conservative: no sharing credited, loop and stage gains not computed); to credit sharing, add "
+        "transfer.csv with columns temp,vgs,current (I_D against V_GS at two or more junction temperatures)"
+    )
 
 
 @dataclass(frozen=True)
@@ -116,6 +136,12 @@ class Stage:
         offsets = np.zeros(self.count)
         offsets[0] = -self.vbe_spread_v
         return offsets
+
+    @property
+    def sharing_assumption(self) -> str | None:
+        """What the devices are judged under where nothing tells how they share; None for one device or where it is
+        known. See :func:`sharing_assumption`."""
+        return None if self.count == 1 else sharing_assumption(self.part)
 
     def rated_current_a(self) -> float:
         """Sum of the devices' continuous current ratings; the load should stay well below it. [A]"""

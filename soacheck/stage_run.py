@@ -366,9 +366,8 @@ def sharing_notes(stage: Stage) -> list[str]:
             "FET sharing by the transfer curves (transfer.csv): V_GS(I, T) with its transconductance and "
             "α = ∂I_D/∂T_j in place of a V_BE law and tempco"
         ]
-    if stage.count > 1:
-        return ["FET sharing: 1/g_m neglected, only the source resistors balance the devices (conservative)"]
-    return []
+    assumed = stage.sharing_assumption
+    return [] if assumed is None else [assumed]
 
 
 def check_devices(

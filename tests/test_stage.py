@@ -73,13 +73,13 @@ def test_sharing_conserves_the_total_and_is_vectorized():
         assert np.all(split >= 0)
 
 
-@pytest.mark.parametrize("bipolar", [True, False])
-def test_identical_devices_solved_once_match_a_root_finder_device_by_device(bipolar):
-    """Eight devices, the fourth at the bottom of a 20 mV band and hotter, seven alike, 0.1 Ω ballasts.
+def test_identical_devices_solved_once_match_a_root_finder_device_by_device():
+    """Eight bipolars, the fourth at the bottom of a 20 mV band and hotter, seven alike, 0.1 Ω ballasts.
 
     Reference: scipy.optimize.brentq on the common base voltage V_B, each device's
-    current found from its own law V_B = u(I) + I·R_E + shift (u = V_T ln I for a
-    bipolar part, 0 for a FET) by brentq as well, with no merging and no Wright omega."""
+    current found from its own law V_B = V_T ln I + I·R_E + shift by brentq as well, with no
+    merging and no Wright omega."""
+    bipolar = True
     from scipy.optimize import brentq
 
     r, vt = 0.1, 0.02569
@@ -91,8 +91,6 @@ def test_identical_devices_solved_once_match_a_root_finder_device_by_device(bipo
     shift = offsets[:, None] - 0.002 * (tj - 25.0)
 
     def device(vb, s):
-        if not bipolar:
-            return max(vb - s, 0.0) / r
         return math.exp(brentq(lambda y: vt * y + math.exp(y) * r + s - vb, -300.0, 10.0, xtol=1e-14))  # y = ln I
 
     def excess(vb, column, want_total):
@@ -114,14 +112,6 @@ def test_a_warm_start_reaches_the_same_sharing():
     fresh = share_current(total, hot, offsets, ballast_ohm=0.05, bipolar=True)
     warm = share_current(total, hot, offsets, ballast_ohm=0.05, bipolar=True, start_a=cold)
     assert warm == pytest.approx(fresh, rel=1e-10)
-
-
-def test_fet_sharing_is_set_by_the_source_resistors():
-    # with 1/g_m neglected: I1 - I2 = ΔV / R_S exactly (elementary, with g_m -> infinity)
-    split = share_current(
-        np.array([10.0]), np.full((2, 1), 25.0), np.array([-0.05, 0.0]), ballast_ohm=0.1, bipolar=False
-    )
-    assert split[0, 0] - split[1, 0] == pytest.approx(0.5, rel=1e-9)
 
 
 # --------------------------------------------------------------------------- stages through trajectories

@@ -13,7 +13,7 @@ from soacheck.api.libraries import _folders
 from soacheck.api.options import Library, PartLike, PathLike, PolicyLike, StageLike, _breakdown
 from soacheck.api.stages import load_stage
 from soacheck.battery import Trajectory
-from soacheck.compare import Candidate, TrajectoryJob
+from soacheck.compare import Candidate, TrajectoryJob, compare_notes
 from soacheck.compare import compare as compare_parts
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope
@@ -170,10 +170,7 @@ class CompareResult(Result):
 
     @property
     def assumptions(self) -> tuple[str, ...]:
-        return (
-            "each candidate in the stage's place" if self.stage is not None else "each candidate alone",
-            "sorted: passing first, then by least margin; fewest devices and cooling headroom by search",
-        )
+        return compare_notes(self.parts, in_stage=self.stage is not None)
 
     def to_dict(self) -> dict[str, Any]:
         return jsonable(

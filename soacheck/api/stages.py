@@ -440,6 +440,7 @@ class SharingResult(Result):
             "P·(rth_jc + R_cs), the heatsink at its steady state under the devices' total power",
             "each device judged against its DC SOA at its own case temperature; "
             + breakdown_note(self.stage.part, self.breakdown),
+            *(() if self.stage.sharing_assumption is None else (self.stage.sharing_assumption,)),
             *(
                 ()
                 if not self.spread.hogging_fraction

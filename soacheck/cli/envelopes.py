@@ -207,5 +207,7 @@ def compare(
             named_column("min_count", [c.min_count for c in ranked], rank=2),
             named_column(headroom, [getattr(c, headroom) for c in ranked], rank=1),
         ]
-        print_table(console_for_output(), f"candidates for {label}{under_policy(payload['policy'])}", columns)
+        console = console_for_output()
+        print_table(console, f"candidates for {label}{under_policy(payload['policy'])}", columns)
+        print_assumptions(console, result.assumptions)
     raise typer.Exit(0 if ranked and ranked[0].passes else 1)

@@ -178,8 +178,9 @@ def sharing(
         console = console_for_output()
         settled = draws - round(spread.runaway_fraction * draws)
         of = f"{draws} draws" if settled == draws else f"the {settled} of {draws} draws that settle"
+        taken = "is taken to carry" if loaded.sharing_assumption is not None else "carries"  # no transfer.csv
         carries = (
-            f"the worst device carries {spread.worst_share:.1%} of the current ({spread.worst_share * current:.3g} A) "
+            f"the worst device {taken} {spread.worst_share:.1%} of the current ({spread.worst_share * current:.3g} A) "
             f"at the {percentile:g}th percentile of {of}"
             if settled
             else f"no draw of {draws} settles, so no device has a settled share"
