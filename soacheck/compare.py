@@ -24,6 +24,7 @@ from soacheck.boundary import allowed_current, max_case_temp
 from soacheck.derating import BreakdownDerating
 from soacheck.envelope import Envelope, check_envelope, stage_for
 from soacheck.errors import SoacheckError
+from soacheck.glossary import STATE_LIMITS
 from soacheck.parts import Part
 from soacheck.points import overload_of
 from soacheck.policy import Policy, least_margin
@@ -192,7 +193,7 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
 
     def count_score(n: int) -> tuple[bool, float | None]:
         passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse)
-        return passed, None if limit in ("runaway", "drive", "dropout") else margin
+        return passed, None if limit in STATE_LIMITS else margin  # no guide: the current is not what failed
 
     if sharing_assumption(part) is not None:  # one device taken to carry it all, alone or among others
         min_count = 1 if passed else None
