@@ -26,7 +26,13 @@ from soacheck.points import overload_of
 from soacheck.policy import least_margin, policy_of
 from soacheck.stage import Stage
 from soacheck.stage_run import first_outside, inside_limits, judge_steady_state, ranked_margin
-from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
+from soacheck.steady_state import (
+    SteadyState,
+    equal_split_unstable,
+    hogging_on_matched_set,
+    stage_gain_peak,
+    steady_state,
+)
 from soacheck.thermal_model import thermal_model
 from soacheck.units import DC, format_duration
 
@@ -210,7 +216,7 @@ class EnvelopeCheck:
             "heatsink_temp": float(self.state.sink_c.max()),
             "tj_peak": float(self.state.junction_c.max()),
             "loop_gain_peak": float(np.max(self.state.gain)),
-            "stage_gain_peak": float(np.max(self.state.stage_gain)) if self.state.stage_gain is not None else 0.0,
+            "stage_gain_peak": stage_gain_peak(self.state.stage_gain, self.state.hogging),
             "drive_current_peak": self.stage.drive_current_peak_a(self.state.device_a),
             "outside": self.outside,
             "assumptions": list(self.assumptions),

@@ -210,10 +210,13 @@ _TERMS = [
     _t(
         "stage_gain_peak",
         "1",
-        "highest eigenvalue of the whole set of devices' electro-thermal Jacobian at the states reported; 1 or more: "
-        "a state that cannot hold. Whether the devices can share is decided on them matched: where their equal "
-        "split's eigenvalue is 1 or more, one device takes the current (current hogging, named in the assumptions; "
-        "that state is reported and checked, and its own eigenvalue is usually below 1) or the stage runs away",
+        "highest real part of the eigenvalues of the whole set of devices' electro-thermal Jacobian (how the settled "
+        "junction temperatures answer a change of the temperatures) at the states reported; 1 or more: a state that "
+        "cannot hold (runaway). Below 1 a state is stable however far below 0 (devices whose current falls as they "
+        "warm). Whether the devices can share is decided on them matched: where their equal split's eigenvalue is 1 "
+        "or more, one device takes the current (current hogging, named in the assumptions) or the stage runs away; "
+        "where they hog, the gain is that state's, below 1, as envelope checks report it (a run's samples still on "
+        "their way into it, whose own gain is 1 or more, are left out)",
     ),
     _t(
         "drive_current_peak",

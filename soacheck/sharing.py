@@ -306,8 +306,10 @@ def jacobian_eigenvalues(
     One per group of alike devices from the groups' reduced matrix, and one for the
     differences within each group of two or more (see :func:`stability_gain`, Notes); a
     single device: 0, and so a FET or IGBT without transfer curves (one device is taken to
-    carry the current whatever the temperatures, see :func:`share_current`). The fixed
-    point's relaxation converges near a state where every eigenvalue lies inside the unit circle.
+    carry the current whatever the temperatures, see :func:`share_current`). The state is
+    stable where every real part is below 1 (:func:`stability_gain`); the plain relaxation
+    T ← f(T) converges to it only where every eigenvalue also lies inside the unit circle,
+    which an eigenvalue ≤ −1 does not.
     """
     rows_n, m = current_a.shape
     per_row = np.ones(rows_n) if counts is None else np.asarray(counts, dtype=float)

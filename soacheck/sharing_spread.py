@@ -28,7 +28,13 @@ from soacheck.policy import policy_of
 from soacheck.quantities import DRAWS, MAX_DEVICE_DRAWS, check_memory, memory_budget_bytes
 from soacheck.stage import Stage
 from soacheck.stage_run import first_outside, inside_limits, judge_steady_state
-from soacheck.steady_state import SteadyState, equal_split_unstable, hogging_on_matched_set, steady_state
+from soacheck.steady_state import (
+    SteadyState,
+    equal_split_unstable,
+    hogging_on_matched_set,
+    stage_gain_peak,
+    steady_state,
+)
 
 
 @dataclass(frozen=True)
@@ -281,7 +287,7 @@ def sharing_monte_carlo(
         draws,
         int(runaway_at.sum()) / draws,
         int(hogging.sum()) / draws,
-        float(np.max(np.concatenate(gains))),
+        stage_gain_peak(np.concatenate(gains), hogging),
         least,
         least_to_rating,
         device,

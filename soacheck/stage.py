@@ -205,8 +205,9 @@ class Stage:
     ) -> np.ndarray:
         """The distinct eigenvalues of the electro-thermal Jacobian at each point, ``(m, k)``, complex.
 
-        Their largest real part is the stability gain; their largest modulus is below 1 where
-        plain relaxation of the fixed point converges. See :func:`jacobian_eigenvalues`.
+        Their largest real part is the stability gain (below 1: a stable state); their largest
+        modulus is below 1 where plain relaxation of the fixed point converges as well, which is
+        not needed of a stable state. See :func:`jacobian_eigenvalues`.
         """
         return jacobian_eigenvalues(
             device_a,

@@ -28,7 +28,7 @@ from soacheck.policy import least_margin, policy_of
 from soacheck.quantities import check_memory
 from soacheck.search import max_safe_setpoint
 from soacheck.stage import RUNAWAY_C, SETTLED_K, Stage
-from soacheck.steady_state import HOG_START_K, TIP_V, SteadyState, hogging_on_matched_set
+from soacheck.steady_state import HOG_START_K, TIP_V, SteadyState, hogging_on_matched_set, stage_gain_peak
 from soacheck.thermal import Foster
 from soacheck.thermal_model import thermal_model
 from soacheck.thermal_response import temperature_rise
@@ -134,7 +134,7 @@ class StageRun:
             "case_peak": float(self.case_c.max()),
             "heatsink_peak": float(self.sink_c.max()),
             "loop_gain_peak": float(np.max(self.gain)),
-            "stage_gain_peak": float(np.max(self.stage_gain)) if self.stage_gain is not None else 0.0,
+            "stage_gain_peak": stage_gain_peak(self.stage_gain, self.hogging),
             "drive_current_peak": self.stage.drive_current_peak_a(self.device_a),
             "device_power_peak": float(self.device_w.max()),
             "sense_resistor_power_peak": float((self.total_a**2).max() * self.stage.series_ohm),
@@ -260,9 +260,10 @@ def run_stage(
     runaway_at = unstable & ~hogging
     # with a V_BE spread the run may settle straight into Q1 taking the current: decided on the devices matched
     own_hogging = hogging
-    hogging = hogging_on_matched_set(
-        stage, own_hogging, runaway_at, lambda matched: cannot_hold(*relax(start_c, matched)[1:])
+    when_matched = hogging_on_matched_set(
+        stage, np.zeros(m, dtype=bool), runaway_at, lambda matched: cannot_hold(*relax(start_c, matched)[1:])
     )
+    hogging = own_hogging | when_matched
     gain = stage.loop_gain(currents, vce, rth_diff, tj) if n > 1 or part.transfer is not None else np.zeros((n, m))
     allowed_a, margin, limit = check_devices(stage, vce, currents, case, tj, runaway_at, breakdown=breakdown)
     to_rating = None
@@ -283,21 +284,7 @@ def run_stage(
     ]
     notes.extend(sharing_notes(stage))
     notes.extend(instability_notes(part))
-    if own_hogging.any():
-        notes.append(
-            f"from t = {float(t[np.argmax(own_hogging)]):g} s the shared state is unstable (the whole set's "
-            "electro-thermal Jacobian has an eigenvalue ≥ 1): the run into the state in which Q1 takes the current "
-            "(matched devices tipped by 1 µV) is reported and checked there, joined sample by sample to the shared "
-            "state before"
-        )
-    spread_hogging = hogging & ~own_hogging
-    if spread_hogging.any():
-        notes.append(
-            f"from t = {float(t[np.argmax(spread_hogging)]):g} s the devices cannot share the current: matched, their "
-            "equal split is unstable there (the whole set's electro-thermal Jacobian has an eigenvalue ≥ 1), and with "
-            "the V_BE spread they settle with Q1, at the bottom of the band, taking the current (current hogging), "
-            f"the state reported and checked ({int(spread_hogging.sum())} of {m} samples)"
-        )
+    notes.extend(_hogging_notes(stage, t, hogging, own_hogging, when_matched))
     if runaway_at.any():
         notes.append(
             f"thermal runaway: stability gain {float(np.max(stage_gain)):.2f} ≥ 1 from "
@@ -350,6 +337,39 @@ def _relax(stage: Stage, junction: Foster, t, src, total, tj0: np.ndarray, itera
         give_up=lambda tj: np.full(tj.shape[1], not np.all(tj < RUNAWAY_C)),  # far past any tj_max: it will not settle
     )
     return found.state, bool(found.settled.all())
+
+
+def _hogging_notes(
+    stage: Stage, t: np.ndarray, hogging: np.ndarray, own: np.ndarray, when_matched: np.ndarray
+) -> list[str]:
+    """The one note on a run's current hogging, from its first hogging sample; none where it does not hog.
+
+    ``hogging`` ``(m,)`` is ``own`` (the run's shared state could not hold and the run into the
+    state with Q1 taking the current was found) or ``when_matched`` (the same devices matched
+    cannot share there). Junctions start at the case temperature, so a run may hog from its
+    first sample; there is no shared state before it then.
+    """
+    if not hogging.any():
+        return []
+    first = int(np.argmax(hogging))
+    since = f"from t = {float(t[first]):g} s"
+    jacobian = "the whole set's electro-thermal Jacobian has an eigenvalue ≥ 1"
+    if stage.vbe_spread_v == 0.0:  # matched: the run was tipped into the state with Q1 taking the current
+        joined = ", joined sample by sample to the shared state before" if first > 0 else ""
+        return [
+            f"{since} the shared state is unstable ({jacobian}): the run into the state in which Q1 takes the "
+            f"current (matched devices tipped by 1 µV) is reported and checked there{joined}"
+        ]
+    why = (
+        f"matched, their equal split is unstable there ({jacobian})"
+        if not (own & ~when_matched).any()
+        else f"their shared state, or matched their equal split, is unstable there ({jacobian})"
+    )
+    return [
+        f"{since} the devices cannot share the current: {why}, and with the V_BE spread they settle with Q1, at "
+        "the bottom of the band, taking the current (current hogging), the state reported and checked "
+        f"({int(hogging.sum())} of {t.size} samples)"
+    ]
 
 
 def sharing_notes(stage: Stage) -> list[str]:

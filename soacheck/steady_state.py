@@ -1,5 +1,18 @@
 """A stage in thermal steady state at each operating point (envelopes, sweeps).
 
+A settled state T* = f(T*) of the junction temperatures (f: the temperatures the dissipation
+at T settles to) is physically stable where every eigenvalue λ of the loop's Jacobian
+J = ∂f/∂T has a real part below 1: the junctions relax as C·dT/dt = (f(T) − T)/Z, whose
+linearisation C·dδT/dt = (J − 1)·δT/Z decays exactly then (Lyapunov's indirect method: H. K.
+Khalil, *Nonlinear Systems*, 3rd ed., Prentice Hall 2002, Theorem 4.7, from memory). For one
+device this is the classic electro-thermal stability factor S = Rth·V·∂I/∂Tj = Rth·∂P/∂Tj < 1
+(Spirito, Breglio, d'Alessandro, Rinaldi, MIEL 2002); for paralleled bipolars with emitter
+ballast, Arnold & Zoroglu, IEEE Trans. Electron Devices ED-21, 1974 (from memory). That is not
+whether the plain iteration T ← f(T) converges, which needs every |λ| < 1: at an eigenvalue
+≤ −1 (FETs above their zero-temperature-coefficient point, whose current falls steeply as
+they warm) the iteration oscillates about a stable state. Such states are found by Anderson
+mixing or damped relaxation (:func:`_settle_damped`) and judged by Re(λ) < 1 alone.
+
 Where the devices' shared state is unstable (the electro-thermal Jacobian of the whole set
 has an eigenvalue at or above 1), the state that exists physically is sought instead: one
 device, Q1 (the one with the lowest V_BE), taking the current. It is reported and checked
@@ -124,6 +137,7 @@ def steady_state(
     lowest = np.argmin(offsets, axis=0)  # the device that takes the current where the shared state cannot hold
     start_c = np.full((counts.size, m), cooling.ambient_c if cooling else stage.case_temp_c, dtype=float)
 
+    coupled = sink == "worst" and cooling is not None
     law = {"z": z, "rth": rth, "average": average, "sink": sink, "counts": counts}
     gains = {"z_self_k_per_w": z_self, "z_shared_k_per_w": z_shared, "counts": counts}
 
@@ -131,15 +145,17 @@ def steady_state(
         return _relaxation_step(stage, src[cols], total[cols], idle_total[cols], offsets=offsets[:, cols], **law)
 
     def fast(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
-        """Accelerated; settled only where plain relaxation converges too (every eigenvalue inside the unit circle)."""
-        state, ok = _settle(step_for(cols), tj0, tol_k=1e-3 * SETTLED_K, max_steps=FAST_STEPS, memory=MEMORY)
+        """Accelerated, then damped where that did not settle; the state is judged by its eigenvalues alone."""
+        state, ok = _settle_damped(
+            step_for, tj0, cols, tol_k=1e-3 * SETTLED_K, max_steps=FAST_STEPS, memory=MEMORY, coupled=coupled
+        )
         currents, vce, _, _, tj, _ = state
-        eigenvalues = stage.jacobian_eigenvalues(currents, vce, tj, **gains)  # once, for both tests
-        radius = np.abs(eigenvalues).max(axis=1)
-        return state, ok & (radius < 1.0), eigenvalues.real.max(axis=1)
+        return state, ok, stage.stability_gain(currents, vce, tj, **gains)
 
     def slow(tj0: np.ndarray, cols: np.ndarray) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
-        state, ok = _settle(step_for(cols), tj0, tol_k=SETTLED_K, max_steps=max_iterations, memory=0)
+        state, ok = _settle_damped(
+            step_for, tj0, cols, tol_k=SETTLED_K, max_steps=max_iterations, memory=0, coupled=coupled
+        )
         currents, vce, _, _, tj, _ = state
         return state, ok, stage.stability_gain(currents, vce, tj, **gains)
 
@@ -230,6 +246,25 @@ def hogging_on_matched_set(
     return hogging | (unstable_when_matched(matched) & ~runaway_at)
 
 
+def stage_gain_peak(stage_gain: np.ndarray | None, hogging: np.ndarray | None) -> float:
+    """The whole set's stability gain a stage job reports: the highest at the states that hold. [1]
+
+    ``stage_gain`` ``(m,)`` is the largest real part of the eigenvalues of the electro-thermal
+    Jacobian at each state reported (:meth:`Stage.stability_gain`), ``hogging`` ``(m,)`` where the
+    devices cannot share and the state with one device taking the current is reported. A state
+    where the devices hog counts once it has settled there (its own gain below 1): a run's
+    samples still on their way into it (their gain 1 or more, a transient near the shared state
+    that could not hold) are left out, so a run and an envelope check of the same hogging stage
+    report the same state's gain; runaway keeps its gain of 1 or more. A run every sample of
+    which is on its way: the least of them. No gain known (one device): 0.
+    """
+    if stage_gain is None:
+        return 0.0
+    gain = np.asarray(stage_gain, dtype=float)
+    held = ~(np.asarray(hogging, dtype=bool) & (gain >= 1.0)) if hogging is not None else np.ones(gain.shape, bool)
+    return float(np.max(gain[held])) if held.any() else float(np.min(gain))
+
+
 def _idle_share(idle_total: np.ndarray, currents: np.ndarray, total: np.ndarray, count: int) -> np.ndarray:
     """Each device's standing current: the total shared like the pulse current among ``count``, ``(n, m)``. [A]"""
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -299,6 +334,46 @@ def _relaxation_step(
 FAST_STEPS = 30
 """Steps the accelerated fixed point takes at most before the plain relaxation takes over."""
 
+DAMPING = 0.25
+"""The fraction of each relaxation step taken where the undamped iteration did not settle, T ← T + ω·(f(T) − T):
+every real eigenvalue λ of the loop's Jacobian between 1 − 2/ω = −7 and 1 then contracts (by 1 − ω·(1 − λ)). [1]"""
+
+
+def _settle_damped(
+    step_for: Callable[[np.ndarray], Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]]],
+    tj0: np.ndarray,
+    cols: np.ndarray,
+    *,
+    tol_k: float,
+    max_steps: int,
+    memory: int,
+    coupled: bool,
+) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
+    """:func:`_settle` on the points ``cols`` (a mask, ``(m,)``) of ``step_for(cols)``, again damped by DAMPING
+    where it neither settled nor ran away; ``coupled`` (one heatsink for all points): every point again.
+
+    The iteration T ← f(T) settles only where every eigenvalue of the Jacobian ∂f/∂T lies inside
+    the unit circle; the state is physically stable where their real parts are below 1
+    (:func:`soacheck.sharing.stability_gain`). Between the two, at an eigenvalue ≤ −1 (a FET above
+    its zero-temperature-coefficient point, whose current falls steeply as it warms), plain
+    relaxation oscillates about a stable state, and Anderson mixing far from it can too; the
+    damped step follows the physical relaxation C·dT/dt ∝ f(T) − T (an explicit Euler step of it)
+    and settles there. Where the undamped iteration settled, its answer stands unchanged.
+    """
+    state, settled, gone = _settle(step_for(cols), tj0, tol_k=tol_k, max_steps=max_steps, memory=memory)
+    retry = ~settled & ~gone
+    if not retry.any():
+        return state, settled
+    if coupled:
+        retry = np.ones_like(retry)
+    where = np.zeros_like(cols)
+    where[np.flatnonzero(cols)[retry]] = True
+    again, again_settled, _ = _settle(
+        step_for(where), tj0[:, retry], tol_k=tol_k, max_steps=max_steps, memory=memory, damping=DAMPING
+    )
+    state = tuple(_put(a, b, retry) for a, b in zip(state, again, strict=True))
+    return state, _put(settled, again_settled, retry)
+
 
 def _settle(
     step: Callable[[np.ndarray], tuple[np.ndarray, tuple[np.ndarray, ...]]],
@@ -307,20 +382,30 @@ def _settle(
     tol_k: float,
     max_steps: int,
     memory: int,
-) -> tuple[tuple[np.ndarray, ...], np.ndarray]:
-    """The fixed point of ``step`` from junction temperatures ``tj0`` ``(rows, m)``; the state and where it settled.
+    damping: float = 1.0,
+) -> tuple[tuple[np.ndarray, ...], np.ndarray, np.ndarray]:
+    """The fixed point of ``step`` from junction temperatures ``tj0`` ``(rows, m)``; the state, where it settled
+    and where it ran away.
 
     By Anderson mixing of the last ``memory`` steps (:func:`soacheck.fixed_point.anderson`),
     or, with ``memory=0``, by plain relaxation: each step moves every junction by the loop
     gain times its last move, hundreds of steps near runaway; the reference the mixed path
     is checked against, and its fallback where that path might not reach the state this
-    one does. A point settles when no junction moves more than ``tol_k`` [K] in a step; one
+    one does. ``damping`` ω < 1 iterates T ← T + ω·(f(T) − T) instead (the same fixed points). A
+    point settles when no junction moves more than ``tol_k`` [K] in a step of f; one
     that runs away (past RUNAWAY_C) is given up and reported as not settled.
     """
+    if damping < 1.0:
+        plain = step
+
+        def step(tj: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, ...]]:
+            new, state = plain(tj)
+            return tj + damping * (new - tj), state
+
     found = anderson(
         step,
         tj0,
-        tol=tol_k,
+        tol=tol_k * damping,
         max_steps=max_steps,
         lower=float(np.min(tj0)),
         upper=2 * RUNAWAY_C,
@@ -328,4 +413,4 @@ def _settle(
         memory=memory,
     )
     gone = (found.x >= RUNAWAY_C).any(axis=0)  # far past any tj_max: it will not settle
-    return found.state, found.settled & ~gone
+    return found.state, found.settled & ~gone, gone
