@@ -74,11 +74,16 @@ class _Rows:
             column[self.size : stop] = value
         self.size = stop
 
-    def keep(self, pick: np.ndarray, start: int = 0) -> None:
-        """Keep the rows before ``start`` and, after them, rows ``start + pick`` (``pick`` sorted)."""
+    def keep(self, pick: np.ndarray, start: int = 0, stop: int | None = None) -> None:
+        """Of the rows from ``start`` to ``stop`` (None: the last), keep rows ``start + pick`` (``pick``
+        sorted); the rows before ``start`` and from ``stop`` on stay, in order."""
+        stop = self.size if stop is None else stop
+        end = start + pick.size
         for column in self.columns:
-            column[start : start + pick.size] = column[start : self.size][pick]
-        self.size = start + pick.size
+            after = column[stop : self.size].copy()
+            column[start:end] = column[start:stop][pick]
+            column[end : end + after.size] = after
+        self.size = end + self.size - stop
 
 
 class PeakThinner:
@@ -126,11 +131,15 @@ class PeakThinner:
         pick = _aligned_maxima((-self.count) % width, width, keys)
         fresh = self.count + pick
         self.count += n
-        # the last bin before this chunk may go on in it: its kept samples, and the chunk's in it, are reduced again
-        tail = int(np.searchsorted(self._index(), int(fresh[0]) // width * width)) if fresh.size else self.rows.size
         self.rows.extend([fresh, *(np.asarray(c, dtype=float) for c in columns_at(pick)), *(key[pick] for key in keys)])
-        if self.rows.size - tail > len(keys):
-            self.rows.keep(bin_maxima(self._index()[tail:] // width, self._keys(tail)), start=tail)
+        if fresh.size:
+            # the last bin before this chunk may go on in it: its samples kept before, and the chunk's in it,
+            # are reduced again (the chunk's other bins are reduced already)
+            shared = int(fresh[0]) // width
+            start, stop = np.searchsorted(self._index(), [shared * width, (shared + 1) * width])
+            if stop - start > 1:
+                index, keys_kept = self._index()[start:stop], [k[start:stop] for k in self._keys()]
+                self.rows.keep(bin_maxima(index // width, keys_kept), start=int(start), stop=int(stop))
 
     def result(self) -> dict[str, np.ndarray]:
         """The kept samples of every channel, in time order (copies: no chunk stays alive)."""
