@@ -127,11 +127,12 @@ Job = Envelope | TrajectoryJob
 
 
 def _rate(
-    job: Job, stage: Stage, breakdown: BreakdownDerating, points: int
+    job: Job, stage: Stage, breakdown: BreakdownDerating, points: int, *, search: bool = False
 ) -> tuple[bool, float | None, str, float, float | None]:
-    """(passes, least margin, limit there, source voltage there, least margin to rating) of a stage on a job."""
+    """(passes, least margin, limit there, source voltage there, least margin to rating) of a stage on a job;
+    ``search``: only these are wanted (the notes of an envelope check are not worked out)."""
     if isinstance(job, Envelope):
-        check = check_envelope(stage, job, breakdown=breakdown, points=points)
+        check = check_envelope(stage, job, breakdown=breakdown, points=points, verdict_only=search)
         summary = check.summary()
         return (
             check.passed,
@@ -192,7 +193,7 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
     rough = job if isinstance(job, Envelope) else _thinned(job, SEARCH_POINTS)
 
     def count_score(n: int) -> tuple[bool, float | None]:
-        passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse)
+        passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse, search=True)
         return passed, None if limit in STATE_LIMITS else margin  # no guide: the current is not what failed
 
     if sharing_assumption(part) is not None:  # one device taken to carry it all, alone or among others
@@ -203,7 +204,11 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
     if placed.cooling is not None and passed:
         max_rth = highest(
             lambda r: _rate(
-                job, replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)), breakdown, points
+                job,
+                replace(placed, cooling=replace(placed.cooling, sink_ambient_k_per_w=r)),
+                breakdown,
+                points,
+                search=True,
             )[0],
             placed.cooling.sink_ambient_k_per_w,
         )

@@ -224,7 +224,12 @@ class EnvelopeCheck:
 
 
 def check_envelope(
-    stage: Stage, envelope: Envelope, *, breakdown: BreakdownDerating = "auto", points: int = 400
+    stage: Stage,
+    envelope: Envelope,
+    *,
+    breakdown: BreakdownDerating = "auto",
+    points: int = 400,
+    verdict_only: bool = False,
 ) -> EnvelopeCheck:
     """Check a stage against an envelope along its upper edge, every device.
 
@@ -233,6 +238,10 @@ def check_envelope(
     away, where the driver falls short, or where the devices would need a negative V_CE
     (``dropout``: the resistors alone drop more than the source gives, so the load cannot draw
     that current): :func:`~soacheck.stage_run.inside_limits`.
+
+    ``verdict_only`` (for searches that want only the verdict and the margins): where the
+    devices, matched, could not share is not worked out; it changes the notes and
+    ``stage_gain_peak``, never a verdict, margin or limit.
     """
     if envelope.v_min_v > stage.part.ratings.v_max_v:
         raise SoacheckError(
@@ -243,11 +252,15 @@ def check_envelope(
     v, i = envelope.edge(points)
     conditions = {"pulse_s": envelope.pulse_s, "duty": envelope.duty, "idle_a": envelope.idle_current_a}
     state = steady_state(placed, v, i, **conditions, sink="worst")
-    hogging = hogging_on_matched_set(
-        placed,
-        state.hogging,
-        state.runaway_at,
-        lambda matched: equal_split_unstable(matched, v, i, **conditions, sink="worst"),
+    hogging = (
+        state.hogging
+        if verdict_only
+        else hogging_on_matched_set(
+            placed,
+            state.hogging,
+            state.runaway_at,
+            lambda matched: equal_split_unstable(matched, v, i, **conditions, sink="worst"),
+        )
     )
     state = replace(state, hogging=hogging)
     if 0 < envelope.duty < 1 and not math.isinf(envelope.pulse_s) and thermal_model(stage.part) is not None:

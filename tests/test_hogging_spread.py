@@ -208,3 +208,16 @@ def test_a_stage_held_at_a_whole_number_of_degrees_hogs_as_at_the_same_float(bjt
     assert any("Q1 takes the current" in note for note in answers[0]["assumptions"])
     envelope = Envelope(15.0, 20.0, TOTAL, 1000.0, ambient_c=None, case_temp_c=25)
     assert check_envelope(Stage(bjt, 2, case_temp_c=25), envelope).state.hogging.all()
+
+
+def test_a_search_skips_the_matched_set_but_judges_alike(pair):
+    """``verdict_only`` (compare's searches) leaves out where the matched devices cannot share, which
+    changes notes only: each point's margin and limit, and the verdict, are those of the full check,
+    here past V* = 8.563 V where the full check reports hogging and the search does not."""
+    envelope = Envelope(5.0, 12.0, TOTAL, 1000.0, ambient_c=None, case_temp_c=25.0)
+    full, search = check_envelope(pair, envelope), check_envelope(pair, envelope, verdict_only=True)
+    assert full.state.hogging.any() and not search.state.hogging.any()
+    assert search.passed == full.passed
+    assert np.array_equal(search.margin, full.margin) and np.array_equal(search.limit, full.limit)
+    assert not any("cannot share" in note for note in search.assumptions)
+    assert any("cannot share" in note for note in full.assumptions)
