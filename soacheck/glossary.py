@@ -240,7 +240,13 @@ _TERMS = [
     _t("ballast", "Ω", "emitter (source) resistor of each device"),
     _t("series_resistance", "Ω", "shared current-sense and wiring resistance"),
     _t("vbe_spread", "V", "spread of V_BE (V_GS) between devices at equal current and temperature"),
-    _t("vbe_tempco", "V/K", "temperature coefficient of V_BE (V_GS) at constant current", "vbe tempco"),
+    _t(
+        "vbe_tempco",
+        "V/K",
+        "temperature coefficient of V_BE at constant current (bipolar parts; a FET's or IGBT's comes from its "
+        "transfer curves)",
+        "vbe tempco",
+    ),
     _t("drive_limit", "A", "the most base current the driver can supply to all devices together"),
     _t("cooling", "", "the heatsink the devices share (a [cooling] table in the stage file)"),
     _t("interface_rth", "K/W", "case to heatsink, each device", "interface Rth"),

@@ -274,7 +274,8 @@ def run_stage(
     notes = [
         junction_note,
         f"{n} device(s) in parallel; V_BE spread {stage.vbe_spread_v * 1e3:g} mV as a band, worst case: Q1 "
-        f"at its bottom; temperature coefficient {stage.vbe_tempco_v_per_k * 1e3:g} mV/K",
+        "at its bottom"
+        + (f"; temperature coefficient {stage.vbe_tempco_v_per_k * 1e3:g} mV/K" if part.is_bipolar else ""),
         "heatsink as one lumped node driven by the devices' total power; cases P·R_cs above it; junctions "
         "quasi-static on top (conservative)"
         if stage.cooling

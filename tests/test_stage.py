@@ -426,3 +426,16 @@ def test_unknown_chemistry_exits_2(tmp_path):
 def test_a_stage_needs_devices():
     with pytest.raises(SoacheckError, match="count is 0; give a number of devices from 1"):
         Stage(read_part_from_bundle("demo-npn-to3-250w"), 0, case_temp_c=25.0)
+
+
+@pytest.mark.parametrize(("part_id", "named"), [("demo-npn-to3-250w", True), ("demo-nmos-to247-linear-240w", False)])
+def test_a_run_names_the_v_be_tempco_only_where_a_v_be_law_is_used(part_id, named):
+    """A bipolar stage shares by V_BE = V_T ln(I/I_S) and its tempco (about −2 mV/K, Sedra & Smith,
+    from memory), so a run names it; a FET with transfer curves takes α = ∂I_D/∂T_j from them, and a
+    run naming a V_BE tempco there would state an assumption that was not made."""
+    from soacheck.library import bundled_library
+
+    stage = Stage(read_part(bundled_library() / part_id), 2, ballast_ohm=0.1, case_temp_c=40.0)
+    t = np.linspace(0.0, 1.0, 5)
+    notes = run_stage(stage, t, np.full(5, 20.0), np.full(5, 2.0)).assumptions
+    assert any("temperature coefficient -2 mV/K" in note for note in notes) == named
