@@ -88,9 +88,11 @@ def _alone(part: Part, envelope: Envelope, breakdown: BreakdownDerating, points:
         if np.all(allowed.current_a > 0)
         else math.inf
     )
-    min_count = max(1, math.ceil(need * (1 - 1e-12))) if math.isfinite(need) and need <= MAX_COUNT else None
-    if sharing_assumption(part) is not None:  # no sharing credited: more devices change nothing
-        min_count = 1 if margin[k] >= 0 else None
+    min_count = _fewest(
+        part,
+        bool(margin[k] >= 0),
+        lambda: max(1, math.ceil(need * (1 - 1e-12))) if math.isfinite(need) and need <= MAX_COUNT else None,
+    )
     hottest = max_case_temp(v, i, part, pulse_s=envelope.pulse_s, duty=duty, breakdown=breakdown)
     to_rating = least_margin(margin)
     if part.policy is not None:
@@ -149,6 +151,15 @@ def _rate(
     return run.passed, summary["margin"], limit, float(path.source_v[k]), summary["margin_to_rating"]
 
 
+def _fewest(part: Part, passed: bool, search: Callable[[], int | None]) -> int | None:
+    """The fewest devices in parallel that pass, found by ``search``; for a part whose sharing cannot be
+    judged (:func:`~soacheck.stage.sharing_assumption`: one device taken to carry it all), more devices
+    change nothing: 1 where one passes (``passed``), else none."""
+    if sharing_assumption(part) is not None:
+        return 1 if passed else None
+    return search()
+
+
 def _single_trace(part: Part, job: TrajectoryJob, count: int, breakdown: BreakdownDerating):
     """One device's share of a trace at a fixed case temperature, pulses credited as in ``trace``."""
     checker = TraceChecker(part, tc_c=job.case_temp_c, breakdown=breakdown, plot_points=0)
@@ -159,10 +170,7 @@ def _single_trace(part: Part, job: TrajectoryJob, count: int, breakdown: Breakdo
 
 def _trace_alone(part: Part, job: TrajectoryJob, breakdown: BreakdownDerating) -> Candidate:
     result = _single_trace(part, job, 1, breakdown)
-    if sharing_assumption(part) is not None:  # no sharing credited: more devices change nothing
-        min_count = 1 if result.passed else None
-    else:
-        min_count = fewest(lambda n: _single_trace(part, job, n, breakdown).passed, 1)
+    min_count = _fewest(part, result.passed, lambda: fewest(lambda n: _single_trace(part, job, n, breakdown).passed, 1))
     hottest = None
     if result.passed:
         hottest = highest_linear(
@@ -196,10 +204,7 @@ def _in_stage(part: Part, stage: Stage, job: Job, breakdown: BreakdownDerating, 
         passed, margin, limit, _, _ = _rate(rough, replace(placed, count=n), breakdown, coarse, search=True)
         return passed, None if limit in STATE_LIMITS else margin  # no guide: the current is not what failed
 
-    if sharing_assumption(part) is not None:  # one device taken to carry it all, alone or among others
-        min_count = 1 if passed else None
-    else:
-        min_count = fewest_guided(count_score, placed.count)
+    min_count = _fewest(part, passed, lambda: fewest_guided(count_score, placed.count))
     max_rth = None
     if placed.cooling is not None and passed:
         max_rth = highest(

@@ -93,6 +93,12 @@ def _sniff(path: Path) -> tuple[str, list[str]]:
     return sep, names
 
 
+def decimal_mark(sep: str) -> str:
+    """The decimal mark of a CSV file separated by ``sep``: ``,`` in a spreadsheet export separated
+    by ``;`` (the form of locales that write decimal commas), else ``.``."""
+    return "," if sep == ";" else "."
+
+
 def fields_message(path: Path, sep: str, error: str, lines_before: int = 0) -> str:
     """The message for pandas' complaint ``error`` about a line with more fields than the header;
     ``lines_before`` lines of the file came before the text pandas was given."""
@@ -164,7 +170,7 @@ def read_table(
             dtype={name: "category" for name in names if name not in numeric},
             keep_default_na=False,
             skipinitialspace=True,
-            decimal="," if sep == ";" else ".",
+            decimal=decimal_mark(sep),
             encoding="utf-8-sig",
         )
     except pd.errors.ParserError as err:

@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from soacheck.battery import Trajectory
-from soacheck.csvtables import _sniff
+from soacheck.csvtables import _sniff, decimal_mark
 from soacheck.errors import SoacheckError, did_you_mean
 from soacheck.quantities import SAMPLE_CURRENT, SAMPLE_VOLTAGE, TIME
 from soacheck.thermal_response import step_range
@@ -67,12 +67,11 @@ def iter_trace_frame(frame: pd.DataFrame, *, where: str = "trace", chunk_rows: i
 def _read_ahead(chunks):
     """The same chunks, the next one made in a thread while the caller works on this one.
 
-    Parsing CSV and decoding Parquet release the GIL, as does most of the array work of
-    vetting the samples and of the check, so on two cores reading and checking overlap.
-    At most one chunk waits in the queue, so memory stays at a few chunks whatever the
-    length of the file. An error while
-    reading is raised in the caller at the chunk where it happened; closing the generator
-    stops the thread.
+    Parsing CSV and decoding Parquet release the GIL, as does the array work of vetting the
+    samples, so on two cores reading and checking overlap (the check's thermal filters,
+    scipy's ``lfilter``, hold it). At most one chunk waits in the queue, so memory stays at
+    a few chunks whatever the length of the file. An error while reading is raised in the
+    caller at the chunk where it happened; closing the generator stops the thread.
     """
     slot: queue.Queue = queue.Queue(maxsize=1)
     stop = threading.Event()
@@ -175,7 +174,7 @@ def _checked_chunks(path: Path | str, chunks):
         raise SoacheckError(f"{path}: the trace has a header but no samples")
 
 
-def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
+def _csv_chunks(path: Path, chunk_rows: int):
     from soacheck.csvblocks import CsvLayout, numeric_chunks
 
     sep, names = _sniff(path)
@@ -188,8 +187,7 @@ def _csv_chunks(path: Path, chunk_rows: int, threads: int | None = None):
     for name in TRACE_COLUMNS:
         if name not in names:
             raise SoacheckError(f"{path}: missing column '{name}'; a trace has the columns time,voltage,current")
-    layout = CsvLayout(sep, "," if sep == ";" else ".", names)
-    return numeric_chunks(path, layout, TRACE_COLUMNS, chunk_rows, threads=threads)
+    return numeric_chunks(path, CsvLayout(sep, decimal_mark(sep), names), TRACE_COLUMNS, chunk_rows)
 
 
 def _parquet_chunks(path: Path, chunk_rows: int):
